@@ -1,0 +1,110 @@
+"""The typer application and the one place where errors become ``Error: ...`` lines.
+
+Only the ``selector.cli`` package imports typer. Each command module registers its commands on
+``app`` (or a sub-typer added to it) and stays thin: parse options, call one library function,
+format the result with the helpers below.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+from typing import Any
+
+import typer
+import typer.core
+
+from ..errors import EXIT_BAD_INPUT, DropperError
+
+__all__ = ["app", "echo_cautions", "fail", "print_json", "to_jsonable"]
+
+
+class _Group(typer.core.TyperGroup):
+    """Command group that maps every error to one ``Error: ...`` line and the contract's exit
+    code (0 success, 1 findings or infeasible, 2 bad input); no traceback reaches the user."""
+
+    def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True, **extra):
+        try:
+            rv = super().main(
+                args=args,
+                prog_name=prog_name,
+                complete_var=complete_var,
+                standalone_mode=False,
+                **extra,
+            )
+        except DropperError as exc:
+            _error(str(exc), exc.exit_code)
+        except typer.Exit as exc:
+            sys.exit(exc.exit_code)
+        except typer.Abort:
+            _error("aborted", EXIT_BAD_INPUT)
+        except (OSError, UnicodeError) as exc:
+            _error(str(exc), EXIT_BAD_INPUT)
+        except Exception as exc:
+            # typer/click usage errors (typer may vendor click, so match by shape, not by class)
+            if hasattr(exc, "format_message") and hasattr(exc, "exit_code"):
+                if type(exc).__name__ == "NoArgsIsHelpError":
+                    typer.echo(exc.format_message())
+                    sys.exit(0)
+                _error(exc.format_message(), EXIT_BAD_INPUT)
+            raise
+        sys.exit(rv if isinstance(rv, int) else 0)
+
+
+def _error(message: str, code: int) -> None:
+    typer.echo(f"Error: {message}".replace("\n", " "), err=True)
+    sys.exit(code)
+
+
+app = typer.Typer(
+    cls=_Group,
+    name="dropper",
+    help="Select, check and audit parts for capacitive-dropper (transformerless) mains supplies.",
+    add_completion=False,
+    no_args_is_help=True,
+    pretty_exceptions_enable=False,
+    rich_markup_mode=None,
+)
+
+
+@app.callback()
+def _root() -> None:
+    """Select, check and audit parts for capacitive-dropper (transformerless) mains supplies."""
+
+
+def to_jsonable(obj: Any) -> Any:
+    """Plain JSON types from dataclasses, numpy scalars/arrays, tuples; NaN/inf become null."""
+    import dataclasses
+
+    if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
+        return {k: to_jsonable(v) for k, v in dataclasses.asdict(obj).items()}
+    if isinstance(obj, dict):
+        return {str(k): to_jsonable(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [to_jsonable(v) for v in obj]
+    if hasattr(obj, "tolist"):  # numpy array or scalar
+        return to_jsonable(obj.tolist())
+    if isinstance(obj, float) and not math.isfinite(obj):
+        return None
+    return obj
+
+
+def print_json(obj: Any) -> None:
+    """Print one JSON document on stdout."""
+    typer.echo(json.dumps(to_jsonable(obj), indent=2, ensure_ascii=False))
+
+
+def echo_cautions() -> None:
+    """Print the safety cautions block (for outputs that propose or accept a design)."""
+    from ..cautions import cautions_block
+
+    typer.echo("")
+    typer.echo(cautions_block())
+
+
+def fail(message: str, code: int = EXIT_BAD_INPUT) -> None:
+    """Raise a DropperError with a given exit code from inside a command."""
+    err = DropperError(message)
+    err.exit_code = code
+    raise err

@@ -1,0 +1,1 @@
+"""`dropper audit`: registered here when built (see DEVELOPERS.md)."""

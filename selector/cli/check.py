@@ -1,0 +1,1 @@
+"""`dropper check`: registered here when built (see DEVELOPERS.md)."""

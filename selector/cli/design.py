@@ -1,0 +1,1 @@
+"""`dropper design`: registered here when built (see DEVELOPERS.md)."""

@@ -1,0 +1,1 @@
+"""`dropper parts`: registered here when built (see DEVELOPERS.md)."""

@@ -1,0 +1,76 @@
+"""The one exception hierarchy of dropper.
+
+The library raises these; the CLI turns each into a single ``Error: ...`` line on stderr and
+the exit code the class carries (see ``selector.cli``). Nothing else in the package prints.
+
+Exit codes (the contract, DOMAIN.md section 9): 0 success, 1 findings or infeasible, 2 bad input.
+"""
+
+from __future__ import annotations
+
+__all__ = [
+    "EXIT_BAD_INPUT",
+    "EXIT_FINDINGS",
+    "EXIT_OK",
+    "BadRowError",
+    "BadValueError",
+    "CatalogueError",
+    "DropperError",
+    "InfeasibleError",
+    "OutOfRangeError",
+]
+
+EXIT_OK = 0
+EXIT_FINDINGS = 1
+EXIT_BAD_INPUT = 2
+
+
+class DropperError(Exception):
+    """Base of every error dropper raises on purpose. Default: bad input (exit 2)."""
+
+    exit_code: int = EXIT_BAD_INPUT
+
+
+class BadValueError(DropperError, ValueError):
+    """A value the user typed (or a data file holds) cannot be read.
+
+    The message quotes the text and shows a valid example.
+    """
+
+
+class BadRowError(DropperError):
+    """A row of an input file is wrong; names the file, the row and the column."""
+
+    def __init__(self, file: str, row: int | None, column: str | None, problem: str) -> None:
+        self.file = file
+        self.row = row
+        self.column = column
+        self.problem = problem
+        where = str(file)
+        if row is not None:
+            where += f", row {row}"
+        if column is not None:
+            where += f", column '{column}'"
+        super().__init__(f"{where}: {problem}")
+
+
+class CatalogueError(DropperError):
+    """The catalogue database is missing, outdated or cannot be opened."""
+
+
+class OutOfRangeError(DropperError, ValueError):
+    """A model was asked outside the range where it holds; it does not extrapolate."""
+
+
+class InfeasibleError(DropperError):
+    """No selection satisfies every rule.
+
+    ``rule`` names the blocking rule, ``relaxation`` the smallest change that would help.
+    """
+
+    exit_code = EXIT_FINDINGS
+
+    def __init__(self, message: str, rule: str | None = None, relaxation: str | None = None):
+        self.rule = rule
+        self.relaxation = relaxation
+        super().__init__(message)

@@ -1,0 +1,296 @@
+"""Engineering values at the edges: the one module that reads and prints them.
+
+Everything inside dropper is a plain SI float (volts, amps, farads, ohms, watts, seconds,
+joules, hertz). This module turns what people type or what a BOM holds into such floats, and
+floats back into engineering notation.
+
+Accepted forms
+--------------
+* plain and scientific numbers: ``1e-6``, ``1.23457e-05``, ``0.33``;
+* a number with an SI prefix and/or unit, with or without a space: ``330n``, ``330 nF``,
+  ``0.33uF``, ``0.33µF``, ``12mA``, ``2.2k``, ``1.5kΩ``, ``220 ohm``, ``50Hz``;
+* the IEC 60062 letter-and-digit code, where the prefix letter (or ``R`` for the unit itself)
+  stands in place of the decimal point: ``4R7``, ``R47``, ``470R``, ``2K2``, ``2k2``, ``4M7``,
+  ``4n7``, ``1u0``, ``0u33`` (IEC 60062:2016, clause 4 [S]);
+* tolerances: the IEC 60062 letters ``B C D F G J K M`` and percentages ``5%``, ``±10 %``.
+
+The ``m`` / ``M`` rule
+----------------------
+``M`` is mega and ``m`` is milli. The one exception: when the caller says which quantity it wants
+and a megaunit of that quantity cannot occur in this trade (farads, amps, watts, seconds, joules),
+an ``M`` is read as milli (``4M7`` asked as a capacitance is 4.7 mF). For ohms, volts and hertz
+both readings are physical, so the letter's case decides. ``K`` and ``k`` are both kilo;
+``u``, ``µ`` (micro sign) and ``μ`` (Greek mu) are all micro. A trailing ``f``/``F`` is the farad
+unit, never femto.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from typing import Final
+
+from .errors import BadValueError
+
+__all__ = [
+    "PREFIXES",
+    "TOLERANCE_LETTERS",
+    "UNITS",
+    "format_value",
+    "iec60062_code",
+    "parse_tolerance",
+    "parse_value",
+]
+
+PREFIXES: Final[dict[str, float]] = {
+    "p": 1e-12,
+    "n": 1e-9,
+    "u": 1e-6,
+    "m": 1e-3,
+    "k": 1e3,
+    "K": 1e3,
+    "M": 1e6,
+    "G": 1e9,
+    "T": 1e12,
+}
+
+#: canonical unit symbol -> the spellings accepted for it (matched case-insensitively)
+UNITS: Final[dict[str, tuple[str, ...]]] = {
+    "F": ("f", "farad", "farads"),
+    "ohm": ("ohm", "ohms", "Ω", "Ω", "r"),
+    "V": ("v", "vac", "vdc", "volt", "volts"),
+    "A": ("a", "amp", "amps", "ampere", "amperes"),
+    "W": ("w", "watt", "watts"),
+    "Hz": ("hz",),
+    "s": ("s", "sec", "second", "seconds"),
+    "J": ("j", "joule", "joules"),
+    "A2s": ("a2s", "a²s"),
+}
+
+#: quantities in which a mega-prefix cannot occur in this trade, so ``M`` means milli
+_NO_MEGA: Final[frozenset[str]] = frozenset({"F", "A", "W", "s", "J", "A2s"})
+
+#: IEC 60062:2016 table of tolerance code letters [S]
+TOLERANCE_LETTERS: Final[dict[str, float]] = {
+    "B": 0.001,
+    "C": 0.0025,
+    "D": 0.005,
+    "F": 0.01,
+    "G": 0.02,
+    "J": 0.05,
+    "K": 0.10,
+    "M": 0.20,
+}
+
+_SYMBOL = {
+    "F": "F",
+    "ohm": "Ω",
+    "V": "V",
+    "A": "A",
+    "W": "W",
+    "Hz": "Hz",
+    "s": "s",
+    "J": "J",
+    "A2s": "A²s",
+}
+
+_EXAMPLES = {
+    None: "'330n', '4.7 kΩ', '2k2', '12mA', '1e-6'",
+    "F": "'330n', '0.33uF', '4n7', '1u0'",
+    "ohm": "'470', '2k2', '4R7', '1.5kΩ', '1M'",
+    "V": "'230', '5.1V', '305 VAC'",
+    "A": "'12m', '12mA', '0.5A'",
+    "W": "'0.25', '250mW', '1W'",
+    "Hz": "'50', '60Hz'",
+    "s": "'1', '20ms'",
+    "J": "'0.5', '20mJ'",
+    "A2s": "'0.5', '2 A2s'",
+}
+
+_UNIT_LOOKUP: dict[str, str] = {}
+for _canon, _spellings in UNITS.items():
+    for _s in _spellings:
+        _UNIT_LOOKUP[_s.lower()] = _canon
+
+_NUMBER = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
+_UNIT_TEXT = r"(?P<unit>[^\d\s.]*)"
+_PLAIN_RE = re.compile(rf"^(?P<num>{_NUMBER})\s*(?P<prefix>[pnuµμmkKMGT])?\s*{_UNIT_TEXT}$")
+_CODE_RE = re.compile(rf"^(?P<int>\d*)(?P<letter>[pnuµμmkKMGTRr])(?P<frac>\d+)\s*{_UNIT_TEXT}$")
+
+
+def _unit_of(text: str, raw: str, quantity: str | None) -> str | None:
+    """The canonical unit spelled by ``text`` (may be empty), checked against ``quantity``."""
+    if not text:
+        return None
+    canon = _UNIT_LOOKUP.get(text.lower())
+    if canon is None:
+        raise BadValueError(
+            f"cannot read {raw!r}: unknown unit {text!r}; write it like {_EXAMPLES[quantity]}"
+        )
+    if quantity is not None and canon != quantity:
+        raise BadValueError(
+            f"cannot read {raw!r}: it is in {canon}, but a value in {quantity} is wanted "
+            f"(e.g. {_EXAMPLES[quantity]})"
+        )
+    return canon
+
+
+def _multiplier(letter: str, quantity: str | None, unit: str | None) -> float:
+    if letter in "µμ":
+        return 1e-6
+    if letter in "Rr":
+        return 1.0
+    effective = quantity or unit
+    if letter == "M" and effective in _NO_MEGA:
+        return 1e-3
+    return PREFIXES[letter]
+
+
+def parse_value(text: str | float | int, quantity: str | None = None) -> float:
+    """Read an engineering value into an SI float.
+
+    ``quantity`` is the canonical unit wanted (``"F"``, ``"ohm"``, ``"V"``, ``"A"``, ``"W"``,
+    ``"Hz"``, ``"s"``, ``"J"``, ``"A2s"``) or ``None`` for any. A unit written in the text must
+    agree with it. Raises :class:`BadValueError` quoting the text and showing a valid example.
+
+    >>> parse_value("330n", "F")
+    3.3e-07
+    >>> parse_value("2k2")
+    2200.0
+    >>> parse_value("4R7", "ohm")
+    4.7
+    >>> parse_value("12mA")
+    0.012
+    """
+    if isinstance(text, bool):
+        raise BadValueError(f"cannot read {text!r} as a value")
+    if isinstance(text, (int, float)):
+        value = float(text)
+        if not math.isfinite(value):
+            raise BadValueError(f"cannot read {text!r}: not a finite number")
+        return value
+    if quantity is not None and quantity not in UNITS:
+        raise BadValueError(f"unknown quantity {quantity!r}; one of {', '.join(UNITS)}")
+    raw = text
+    s = text.strip().replace("\u00a0", " ").replace("Ω", "Ω")
+    if s.startswith("±"):
+        s = s[1:]
+    if not s:
+        raise BadValueError(f"cannot read an empty value; write it like {_EXAMPLES[quantity]}")
+    m = _PLAIN_RE.match(s)
+    if m:
+        prefix = m.group("prefix")
+        unit_text = m.group("unit")
+        # '470R' (R = ohm), '100nf' (f = farad), '5.1V': the prefix group never eats a unit letter.
+        unit = _unit_of(unit_text, raw, quantity)
+        mult = _multiplier(prefix, quantity, unit) if prefix else 1.0
+        value = float(m.group("num")) * mult
+    else:
+        m = _CODE_RE.match(s)
+        if not m:
+            raise BadValueError(
+                f"cannot read {raw!r} as a value; write it like {_EXAMPLES[quantity]}"
+            )
+        letter = m.group("letter")
+        unit = _unit_of(m.group("unit"), raw, quantity)
+        if letter in "Rr":
+            if unit not in (None, "ohm") or quantity not in (None, "ohm"):
+                raise BadValueError(
+                    f"cannot read {raw!r}: the letter R marks ohms (IEC 60062), "
+                    f"but a value in {quantity or unit} is wanted"
+                )
+        mantissa = float(f"{m.group('int') or '0'}.{m.group('frac')}")
+        value = mantissa * _multiplier(letter, quantity, unit)
+    # round away binary noise from the multiplication (4.7 * 1e-9 -> 4.7e-09)
+    return float(f"{value:.12g}")
+
+
+def parse_tolerance(text: str | float) -> float:
+    """Read a tolerance as a fraction: an IEC 60062 letter (``J`` -> 0.05) or a percentage.
+
+    A bare number is read as percent (``5`` -> 0.05).
+
+    >>> parse_tolerance("K")
+    0.1
+    >>> parse_tolerance("±5 %")
+    0.05
+    """
+    if isinstance(text, (int, float)) and not isinstance(text, bool):
+        return float(text) / 100.0
+    s = str(text).strip().replace(" ", "").lstrip("±").removeprefix("+/-")
+    if s.upper() in TOLERANCE_LETTERS and len(s) == 1:
+        return TOLERANCE_LETTERS[s.upper()]
+    try:
+        return float(s.removesuffix("%")) / 100.0
+    except ValueError:
+        raise BadValueError(
+            f"cannot read {text!r} as a tolerance; write a letter "
+            f"({' '.join(TOLERANCE_LETTERS)}) or a percentage like '5%'"
+        ) from None
+
+
+_ENG_PREFIX = {-12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T"}
+
+
+def format_value(value: float, unit: str = "", digits: int = 3, ascii: bool = False) -> str:
+    """Print an SI float in engineering notation: ``3.3e-7, "F"`` -> ``'330 nF'``.
+
+    ``unit`` is a canonical unit (``"ohm"`` prints as ``Ω``) or any text; ``digits`` are the
+    significant digits kept (trailing zeros dropped). ``ascii=True`` prints ``u`` and ``ohm``.
+
+    >>> format_value(4700, "ohm")
+    '4.7 kΩ'
+    >>> format_value(0.012, "A")
+    '12 mA'
+    """
+    symbol = _SYMBOL.get(unit, unit)
+    if ascii:
+        symbol = {"Ω": "ohm", "A²s": "A2s"}.get(symbol, symbol)
+    if value == 0 or not math.isfinite(value):
+        return f"{value:g} {symbol}".rstrip()
+    rounded = float(f"{value:.{digits}g}")
+    exp3 = int(math.floor(math.log10(abs(rounded)) / 3) * 3)
+    exp3 = max(-12, min(12, exp3))
+    mantissa = rounded / 10.0**exp3
+    prefix = _ENG_PREFIX[exp3]
+    if ascii and prefix == "µ":
+        prefix = "u"
+    text = f"{mantissa:.{digits}g}"
+    if "e" in text:  # e.g. 1000 after rounding: fall back to plain float text
+        text = f"{mantissa:.{digits}f}".rstrip("0").rstrip(".")
+    unit_part = f"{prefix}{symbol}"
+    return f"{text} {unit_part}".rstrip()
+
+
+def iec60062_code(value: float, unit: str = "ohm", digits: int = 3) -> str:
+    """The IEC 60062 letter-and-digit code of a value: the prefix letter (``R`` for plain ohms)
+    stands where the decimal point would be.
+
+    >>> iec60062_code(4700)
+    '4k7'
+    >>> iec60062_code(0.47)
+    'R47'
+    >>> iec60062_code(330e-9, "F")
+    '330n'
+    """
+    if value <= 0 or not math.isfinite(value):
+        raise BadValueError(f"no IEC 60062 code for {value!r}")
+    rounded = float(f"{value:.{digits}g}")
+    if unit == "ohm":
+        scales = [(1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, "R")]
+    else:
+        scales = [
+            (1.0, "R" if unit == "ohm" else ""),
+            (1e-3, "m"),
+            (1e-6, "u"),
+            (1e-9, "n"),
+            (1e-12, "p"),
+        ]
+    scale, letter = next(((sc, le) for sc, le in scales if rounded >= sc * (1 - 1e-12)), scales[-1])
+    mant = float(f"{rounded / scale:.{digits}g}")
+    if mant == int(mant):
+        return f"{int(mant)}{letter or unit}"
+    whole, frac = f"{mant:.{digits}g}".split(".")
+    if whole == "0":
+        whole = "" if letter == "R" else "0"
+    return f"{whole}{letter or '.'}{frac}{'' if letter else unit}"
