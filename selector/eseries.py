@@ -444,39 +444,46 @@ def mantissas(series: str) -> tuple[float, ...]:
     return tuple(float(v) / 10 ** (digits - 1) for v in table[:-1])
 
 
+_POW10 = 10.0 ** np.arange(0, 23)  # exact powers of ten (10**22 is the last exact double)
+
+
 def _scale(mant_int: NDArray[np.float64], exp10: NDArray[np.int64]) -> NDArray[np.float64]:
     # multiply or divide by an exact power of ten so 68 * 10**-9 prints as 6.8e-08
-    pos = np.power(10.0, np.clip(exp10, 0, None))
-    neg = np.power(10.0, np.clip(-exp10, 0, None))
-    return mant_int * pos / neg
+    pos = np.clip(exp10, 0, 22)
+    neg = np.clip(-exp10, 0, 22)
+    return mant_int * _POW10[pos] / _POW10[neg]
 
 
 def _prepare(values: ArrayLike) -> tuple[NDArray[np.float64], bool]:
     arr = np.asarray(values, dtype=np.float64)
-    if np.any(~np.isfinite(arr)) or np.any(arr <= 0):
+    if not np.all(np.isfinite(arr) & (arr > 0)):
         bad = arr[~np.isfinite(arr) | (arr <= 0)].ravel()[0]
         raise BadValueError(f"cannot snap {bad!r}: preferred values are positive and finite")
     return arr, arr.ndim == 0
 
 
-def _neighbours(arr: NDArray[np.float64], series: str):
+def _neighbours(arr: NDArray[np.float64], series: str, which: str):
+    """Series neighbours of each value, found on the log scale: 'up', 'down' or 'nearest'."""
     table, digits = _table(series)
-    decade = np.floor(np.log10(arr)).astype(np.int64)
-    # mantissa scaled to the table's integer range [10**(d-1), 10**d)
-    m = arr / np.power(10.0, decade.astype(np.float64)) * 10 ** (digits - 1)
-    # guard: floor(log10) can be off by one for values like 1e-15 * 1000
-    low = m < 10 ** (digits - 1) * (1 - _SLACK)
-    decade = np.where(low, decade - 1, decade)
-    m = np.where(low, m * 10, m)
-    high = m >= 10**digits * (1 - _SLACK)
-    decade = np.where(high, decade + 1, decade)
-    m = np.where(high, m / 10, m)
-    i_up = np.searchsorted(table, m * (1 - _SLACK), side="left")
-    i_down = np.searchsorted(table, m * (1 + _SLACK), side="right") - 1
-    exp10 = decade - (digits - 1)
-    up_v = _scale(table[i_up], exp10)
-    down_v = _scale(table[i_down], exp10)
-    return up_v, down_v
+    log_table = np.log10(table) - (digits - 1)  # 0 .. 1 inclusive
+    lg = np.log10(arr)
+    decade = np.floor(lg)
+    frac = lg - decade
+    slack = _SLACK / np.log(10.0)
+    exp10 = decade.astype(np.int64) - (digits - 1)
+    if which in ("up", "nearest"):
+        i_up = np.searchsorted(log_table, frac - slack, side="left")
+    if which in ("down", "nearest"):
+        # frac < slack: the value sits on (or just above) the decade's first entry
+        i_down = np.searchsorted(log_table, frac + slack, side="right") - 1
+        i_down = np.maximum(i_down, 0)
+    if which == "up":
+        idx = i_up
+    elif which == "down":
+        idx = i_down
+    else:
+        idx = np.where(log_table[i_up] - frac <= frac - log_table[i_down], i_up, i_down)
+    return _scale(table[idx], exp10)
 
 
 def up(values: ArrayLike, series: str = "E12") -> NDArray[np.float64] | float:
@@ -486,8 +493,8 @@ def up(values: ArrayLike, series: str = "E12") -> NDArray[np.float64] | float:
     4700.0
     """
     arr, scalar = _prepare(values)
-    u, _ = _neighbours(arr, series)
-    return float(u) if scalar else u
+    out = _neighbours(arr, series, "up")
+    return float(out) if scalar else out
 
 
 def down(values: ArrayLike, series: str = "E12") -> NDArray[np.float64] | float:
@@ -497,8 +504,8 @@ def down(values: ArrayLike, series: str = "E12") -> NDArray[np.float64] | float:
     6.8e-08
     """
     arr, scalar = _prepare(values)
-    _, d = _neighbours(arr, series)
-    return float(d) if scalar else d
+    out = _neighbours(arr, series, "down")
+    return float(out) if scalar else out
 
 
 def nearest(values: ArrayLike, series: str = "E12") -> NDArray[np.float64] | float:
@@ -508,9 +515,8 @@ def nearest(values: ArrayLike, series: str = "E12") -> NDArray[np.float64] | flo
     6.8e-08
     """
     arr, scalar = _prepare(values)
-    u, d = _neighbours(arr, series)
-    pick = np.where(np.log(u / arr) <= np.log(arr / d), u, d)
-    return float(pick) if scalar else pick
+    out = _neighbours(arr, series, "nearest")
+    return float(out) if scalar else out
 
 
 def snap(values: ArrayLike, series: str = "E12", mode: _Mode = "nearest"):

@@ -250,7 +250,8 @@ def format_value(value: float, unit: str = "", digits: int = 3, ascii: bool = Fa
         return f"{value:g} {symbol}".rstrip()
     rounded = float(f"{value:.{digits}g}")
     exp3 = int(math.floor(math.log10(abs(rounded)) / 3) * 3)
-    exp3 = max(-12, min(12, exp3))
+    # a megafarad or megaampere would read back as milli (see the m/M rule): stop at kilo
+    exp3 = max(-12, min(3 if unit in _NO_MEGA else 12, exp3))
     mantissa = rounded / 10.0**exp3
     prefix = _ENG_PREFIX[exp3]
     if ascii and prefix == "µ":
@@ -288,6 +289,8 @@ def iec60062_code(value: float, unit: str = "ohm", digits: int = 3) -> str:
         ]
     scale, letter = next(((sc, le) for sc, le in scales if rounded >= sc * (1 - 1e-12)), scales[-1])
     mant = float(f"{rounded / scale:.{digits}g}")
+    if mant < 0.01:
+        raise BadValueError(f"no IEC 60062 code for {value!r} {unit}: below the code's range")
     if mant == int(mant):
         return f"{int(mant)}{letter or unit}"
     whole, frac = f"{mant:.{digits}g}".split(".")

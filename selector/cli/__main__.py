@@ -1,0 +1,5 @@
+"""`python -m selector.cli` runs the dropper command line."""
+
+from . import main
+
+main()

@@ -1,0 +1,117 @@
+"""`dropper snap` in process: exact output and exit codes.
+
+Outside reference for the values: IEC 60063 E12/E6 tables (checked against the `eseries` package
+in test_eseries.py); 70.1 nF -> 68 nF and 4.42 k -> 4.7 k are the worked examples of the issue.
+"""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+from typer.testing import CliRunner
+
+from selector.cli import app
+
+runner = CliRunner()
+
+
+def invoke(*args: str):
+    return runner.invoke(app, list(args), catch_exceptions=False)
+
+
+def test_snap_json_worked_example():
+    result = invoke("snap", "70.1n", "4.42k", "--series", "E12", "--json")
+    assert result.exit_code == 0
+    rows = json.loads(result.stdout)
+    assert [r["value"] for r in rows] == [68e-9, 4700.0]
+    assert [r["input"] for r in rows] == [70.1e-9, 4420.0]
+    assert rows[0]["series"] == "E12" and rows[0]["mode"] == "nearest"
+    assert rows[0]["error"] == pytest.approx(68 / 70.1 - 1)
+    assert set(rows[0]) == {"text", "input", "series", "mode", "value", "error"}
+
+
+def test_snap_human_output():
+    result = invoke("snap", "0u33", "--mode", "up", "--series", "E6")
+    assert result.exit_code == 0
+    assert result.stdout == "0u33  ->  330 n       +0.00 %  (E6 up)\n"
+
+
+def test_snap_with_unit():
+    result = invoke("snap", "70.1n", "--unit", "F")
+    assert result.stdout == "70.1n  ->  68 nF       -3.00 %  (E12 nearest)\n"
+
+
+@pytest.mark.parametrize(
+    ("args", "message"),
+    [
+        (
+            ["snap", "abc"],
+            "Error: cannot read 'abc' as a value; write it like '330n', '4.7 kΩ', "
+            "'2k2', '12mA', '1e-6'\n",
+        ),
+        (
+            ["snap", "1", "--series", "E7"],
+            "Error: unknown series 'E7'; choose one of E3, E6, E12, E24, E48, E96, E192\n",
+        ),
+        (
+            ["snap", "1", "--mode", "sideways"],
+            "Error: unknown mode 'sideways'; choose one of nearest, up, down\n",
+        ),
+        (["snap", "-5"], None),
+        (["snap"], "Error: Missing argument 'values'.\n"),
+    ],
+)
+def test_bad_input_gives_one_error_line_and_exit_2(args, message):
+    result = runner.invoke(app, args)
+    assert result.exit_code == 2
+    assert result.stdout == ""
+    lines = result.stderr.splitlines()
+    assert len(lines) == 1 and lines[0].startswith("Error: ")
+    if message is not None:
+        assert result.stderr == message
+
+
+def test_snap_csv_column(tmp_path):
+    path = tmp_path / "calc.csv"
+    path.write_text("ref,computed\nC1,70.1n\nR1,4.42k\n", encoding="utf-8")
+    result = invoke("snap", str(path), "--column", "computed", "--json")
+    assert result.exit_code == 0
+    info = json.loads(result.stdout)
+    assert info["new_column"] == "computed_E12_nearest" and info["rows"] == 2
+    assert path.read_text(encoding="utf-8").splitlines() == [
+        "ref,computed,computed_E12_nearest",
+        "C1,70.1n,6.8e-08",
+        "R1,4.42k,4700",
+    ]
+
+
+def test_snap_csv_bad_cell_names_file_row_column(tmp_path):
+    path = tmp_path / "calc.csv"
+    original = "ref,computed\nC1,70.1n\nR1,oops\n"
+    path.write_text(original, encoding="utf-8")
+    result = runner.invoke(app, ["snap", str(path), "--column", "computed"])
+    assert result.exit_code == 2
+    assert result.stderr.startswith(f"Error: {path}, row 3, column 'computed': cannot read 'oops'")
+    assert path.read_text(encoding="utf-8") == original  # nothing half-written
+
+
+def test_snap_csv_unknown_column_suggests(tmp_path):
+    path = tmp_path / "calc.csv"
+    path.write_text("ref,computed\nC1,70.1n\n", encoding="utf-8")
+    result = runner.invoke(app, ["snap", str(path), "--column", "compted"])
+    assert result.exit_code == 2
+    assert "did you mean 'computed'?" in result.stderr
+
+
+def test_every_command_has_help():
+    import typer.main
+
+    group = typer.main.get_command(app)
+    names = list(group.commands)
+    assert "snap" in names
+    for name in names:
+        cmd = group.commands[name]
+        assert (cmd.help or "").strip(), f"command {name} has no help text"
+        result = runner.invoke(app, [name, "--help"])
+        assert result.exit_code == 0
