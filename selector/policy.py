@@ -1,0 +1,152 @@
+"""Derating policy: the limits the rule engine holds each part to.
+
+Defaults follow DOMAIN.md section 4. Marks: [S] checked in a published source, [M] from memory,
+[P] common practice, no source. A user overrides any of them with a TOML file of flat
+``key = number`` lines (``dropper design --policy FILE.toml``); an unknown key or a bad value
+names the file, the key and the valid keys.
+
+Example file::
+
+    # stricter than the defaults
+    series_r_power_fraction = 0.5
+    load_margin = 0.2
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import tomllib
+from dataclasses import dataclass, fields
+from pathlib import Path
+from typing import Any, Final
+
+from .errors import BadValueError
+
+__all__ = ["POLICY_NOTES", "Policy", "load_policy"]
+
+
+@dataclass(frozen=True)
+class Policy:
+    """Derating limits (fractions are of the part's rating; SI units elsewhere)."""
+
+    #: series resistor: continuous power <= derated rating x this [P]
+    series_r_power_fraction: float = 0.6
+    #: bleeder: continuous power <= derated rating x this [P]
+    bleeder_power_fraction: float = 0.6
+    #: resistors: peak voltage across one element <= limiting element voltage x this [P]
+    limiting_voltage_fraction: float = 0.8
+    #: resistors: a short pulse (switch-on, surge) may reach this multiple of the limiting
+    #: voltage before the fraction above is applied; IEC 60115-1 short-time overload is
+    #: 2.5 x rated voltage capped at 2 x limiting voltage [M]
+    pulse_voltage_factor: float = 2.0
+    #: resistors: pulse energy (switch-on, surge) <= family pulse capability x this [P]
+    pulse_energy_fraction: float = 1.0
+    #: Zener: worst-case dissipation <= power derated to max ambient x this [P]
+    zener_power_fraction: float = 0.5
+    #: reservoir: highest bus voltage <= rated voltage x this (rated >= Vz_max / 0.8) [P]
+    reservoir_voltage_fraction: float = 0.8
+    #: reservoir: ripple current <= rated ripple current x this [P]
+    reservoir_ripple_fraction: float = 1.0
+    #: reservoir: temperature class >= max ambient + this (self-heating, board) [C] [P]
+    reservoir_temp_margin_c: float = 20.0
+    #: X capacitor: max mains rms <= rated AC voltage x this [P]
+    x_cap_voltage_fraction: float = 1.0
+    #: X capacitor: dV/dt at switch-on and surge <= rated dV/dt x this [P]
+    dvdt_fraction: float = 1.0
+    #: rectifier: max reverse voltage (mains crest) <= VRRM x this [P]
+    rectifier_voltage_fraction: float = 1.0
+    #: rectifier: switch-on peak current <= IFSM x this [P]
+    rectifier_surge_fraction: float = 1.0
+    #: fuse: switch-on I^2t <= fuse melting I^2t x this [P]
+    fuse_i2t_fraction: float = 0.5
+    #: fuse: fault current with a shorted X capacitor >= rated current x this [P]
+    fuse_fault_factor: float = 2.0
+    #: fusible resistor: fault power with a shorted X capacitor >= rated power x this [P]
+    fusible_fault_factor: float = 10.0
+    #: whole: worst-case minimum DC current >= load x (1 + this) [P]
+    load_margin: float = 0.1
+    #: whole: no-load real power <= this [W]; EU Regulation 2023/826, off/standby 0.5 W [S]
+    standby_limit_w: float = 0.5
+    #: whole: bus droop allowed during a load burst, fraction of the Zener voltage [P]
+    burst_droop_fraction: float = 0.1
+
+    def to_dict(self) -> dict[str, float]:
+        return dataclasses.asdict(self)
+
+
+#: which keys are fractions that must lie in (0, 1] (the rest only need to be > 0 / >= 0)
+_FRACTIONS: Final[frozenset[str]] = frozenset(
+    {
+        "series_r_power_fraction",
+        "bleeder_power_fraction",
+        "limiting_voltage_fraction",
+        "pulse_energy_fraction",
+        "zener_power_fraction",
+        "reservoir_voltage_fraction",
+        "reservoir_ripple_fraction",
+        "x_cap_voltage_fraction",
+        "dvdt_fraction",
+        "rectifier_voltage_fraction",
+        "rectifier_surge_fraction",
+        "fuse_i2t_fraction",
+        "burst_droop_fraction",
+    }
+)
+_MAY_BE_ZERO: Final[frozenset[str]] = frozenset({"load_margin", "reservoir_temp_margin_c"})
+
+#: one line per key: where the default comes from (shown by `--policy` errors and the JSON)
+POLICY_NOTES: Final[dict[str, str]] = {
+    "standby_limit_w": "EU Regulation 2023/826, off/standby mode 0.5 W [S]",
+    "pulse_voltage_factor": "IEC 60115-1 short-time overload, 2 x limiting voltage [M]",
+}
+
+
+def load_policy(path: str | Path | None) -> Policy:
+    """The default policy, or the defaults overridden by the flat TOML file at ``path``.
+
+    Raises BadValueError naming the file and key for an unknown key (with the valid keys), a
+    value that is not a number, or a value out of range.
+    """
+    if path is None:
+        return Policy()
+    p = Path(path)
+    try:
+        data = tomllib.loads(p.read_text(encoding="utf-8-sig"))
+    except FileNotFoundError:
+        raise BadValueError(f"policy file {p} does not exist") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise BadValueError(f"policy file {p}: not valid TOML ({exc})") from None
+    return policy_from_mapping(data, str(p))
+
+
+def policy_from_mapping(data: dict[str, Any], source: str = "policy") -> Policy:
+    """Defaults overridden by ``data`` (flat key -> number); errors name ``source`` and key."""
+    valid = [f.name for f in fields(Policy)]
+    changes: dict[str, float] = {}
+    for key, raw in data.items():
+        if key not in valid:
+            hint = ""
+            try:
+                from rapidfuzz import process
+
+                best = process.extractOne(key, valid)
+                if best and best[1] >= 60:
+                    hint = f" (did you mean '{best[0]}'?)"
+            except ImportError:  # pragma: no cover - rapidfuzz is a dependency
+                pass
+            raise BadValueError(
+                f"{source}: unknown key '{key}'{hint}; valid keys: {', '.join(valid)}"
+            )
+        if isinstance(raw, bool) or not isinstance(raw, (int, float)) or not math.isfinite(raw):
+            raise BadValueError(f"{source}: key '{key}' must be a finite number, got {raw!r}")
+        value = float(raw)
+        if key in _FRACTIONS and not 0.0 < value <= 1.0:
+            raise BadValueError(f"{source}: key '{key}' is a fraction in (0, 1], got {value}")
+        if key in _MAY_BE_ZERO:
+            if value < 0:
+                raise BadValueError(f"{source}: key '{key}' must be >= 0, got {value}")
+        elif value <= 0:
+            raise BadValueError(f"{source}: key '{key}' must be > 0, got {value}")
+        changes[key] = value
+    return dataclasses.replace(Policy(), **changes)
