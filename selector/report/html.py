@@ -1,0 +1,460 @@
+"""The HTML report: one self-contained file built from a command's JSON document.
+
+``write_report(path, kind, result, circuit=None, waveforms=None)`` renders
+``templates/report.html.j2`` with jinja2 (autoescape on) and writes it. The page holds, in order:
+the requirement or circuit, a schematic with the chosen values (:mod:`.schematic`), the
+worst-case figures with the corner that produced each, waveform plots over two mains cycles at
+the worst corners and of the switch-on current (:mod:`.plots`), the parts with prices, every
+check with its rule and source, and the safety cautions (:data:`selector.cautions.CAUTIONS`).
+
+Every number shown carries its exact SI value from the JSON document in a ``data-si`` attribute
+and its JSON key in ``data-key``, and the whole JSON document is embedded in a
+``<script type="application/json" id="dropper-result">`` element, so the page can be checked
+against (and machine-read like) the command's ``--json`` output.
+
+The report reads the JSON document generically: numeric leaves whose key ends in a unit suffix
+(``_a _v _w _f _ohm _s _j _hz _a2s``, and ``_c`` for degrees Celsius) are shown in engineering
+notation; other leaves are shown as text.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as _dt
+import json
+import math
+import os
+import tempfile
+from collections.abc import Callable, Mapping, Sequence
+from pathlib import Path
+from typing import Any
+
+import jinja2
+
+from .. import __version__
+from ..cautions import CAUTIONS
+from ..errors import BadValueError
+from ..units import format_value
+from .plots import Trace, waveform_svg
+from .schematic import TOPOLOGIES, schematic_svg
+
+__all__ = ["REPORT_KINDS", "UNIT_SUFFIXES", "render_report", "write_report"]
+
+REPORT_KINDS = ("check", "design", "audit")
+
+#: JSON key suffix -> unit passed to ``format_value`` (longest suffixes first)
+UNIT_SUFFIXES: tuple[tuple[str, str], ...] = (
+    ("_a2s", "A2s"),
+    ("_ohm", "ohm"),
+    ("_v_per_s", "V/s"),
+    ("_hz", "Hz"),
+    ("_mm2", "mm²"),
+    ("_a", "A"),
+    ("_v", "V"),
+    ("_w", "W"),
+    ("_f", "F"),
+    ("_s", "s"),
+    ("_j", "J"),
+    ("_c", "°C"),
+)
+
+_TITLES = {
+    "check": "Worst-case check of a capacitive-dropper supply",
+    "design": "Capacitive-dropper design: selected parts",
+    "audit": "Audit of a capacitive-dropper bill of materials",
+}
+
+# sections of the JSON that describe what was asked (shown first, as given)
+_INPUT_KEYS = ("requirement", "circuit", "inputs", "mains", "tolerances", "conditions", "policy")
+# sections holding computed figures (worst-case table); other numeric sections are added after
+_FIGURE_KEYS = (
+    "worst_case",
+    "nominal",
+    "inrush",
+    "switch_on",
+    "surge",
+    "discharge",
+    "startup",
+    "power",
+    "performance",
+)
+_PART_KEYS = ("parts", "bom", "selection", "lines")
+_CHECK_KEYS = ("findings", "checks")
+_SKIP_KEYS = frozenset({"cautions", "waveforms", *_PART_KEYS, *_CHECK_KEYS})
+
+
+def _unit_of(key: str) -> str | None:
+    for suffix, unit in UNIT_SUFFIXES:
+        if key.endswith(suffix):
+            return unit
+    return None
+
+
+def _quantity_name(key: str) -> str:
+    for suffix, _ in UNIT_SUFFIXES:
+        if key.endswith(suffix):
+            key = key[: -len(suffix)]
+            break
+    return key.replace("_", " ")
+
+
+def _is_number(x: Any) -> bool:
+    return isinstance(x, (int, float)) and not isinstance(x, bool)
+
+
+def _show(key: str, value: Any) -> str:
+    """Human text of one JSON leaf."""
+    if value is None:
+        return "–"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if _is_number(value):
+        unit = _unit_of(key)
+        if not math.isfinite(float(value)):
+            return str(value)
+        if unit is None:
+            return f"{value:.4g}" if isinstance(value, float) else str(value)
+        if unit == "°C":
+            return f"{value:.4g} °C"
+        if unit in ("V/s", "mm²"):
+            return f"{format_value(float(value), '', 3)}{unit}".replace(" ", "")
+        return format_value(float(value), unit, 4)
+    if isinstance(value, (list, tuple)):
+        return ", ".join(_show(key, v) for v in value)
+    if isinstance(value, Mapping):
+        return "; ".join(f"{k}: {_show(str(k), v)}" for k, v in value.items())
+    return str(value)
+
+
+@dataclasses.dataclass(frozen=True)
+class _Cell:
+    """One shown value: text for people, ``key``/``si`` for checking against the JSON."""
+
+    text: str
+    key: str = ""
+    si: str = ""
+
+    @classmethod
+    def of(cls, key: str, value: Any, path: str) -> _Cell:
+        """``key`` picks the unit (its suffix), ``path`` locates the value in the JSON."""
+        si = repr(float(value)) if _is_number(value) and math.isfinite(float(value)) else ""
+        return cls(_show(key, value), path, si)
+
+
+def _flatten(prefix: str, obj: Any, rows: list[tuple[str, Any]]) -> None:
+    if isinstance(obj, Mapping):
+        for k, v in obj.items():
+            _flatten(f"{prefix}.{k}" if prefix else str(k), v, rows)
+    else:
+        rows.append((prefix, obj))
+
+
+def _corner_text(corner: Any) -> str:
+    if corner is None:
+        return ""
+    if isinstance(corner, Mapping):
+        return ", ".join(f"{k} {_show(str(k), v)}" for k, v in corner.items())
+    return str(corner)
+
+
+def _figure_rows(section: str, data: Mapping[str, Any]) -> list[dict[str, Any]]:
+    """Rows (quantity, value cell, corner) of one section of computed figures.
+
+    A corner is found as ``corners[name]`` / ``corner_of[name]``, a sibling ``<name>_corner``
+    or, for a nested ``{"value": ..., "corner": ...}``, inside the value."""
+    corners: Mapping[str, Any] = {}
+    for ck in ("corners", "corner_of"):
+        if isinstance(data.get(ck), Mapping):
+            corners = data[ck]
+    rows = []
+    for k, v in data.items():
+        if k in ("corners", "corner_of", "corner") or k.endswith("_corner"):
+            continue
+        path = f"{section}.{k}"
+        corner = corners.get(k, data.get(f"{k}_corner"))
+        if isinstance(v, Mapping) and "corner" in v and any(_is_number(x) for x in v.values()):
+            corner = v.get("corner")
+            for vk, vv in v.items():
+                if vk != "corner" and (_is_number(vv) or vv is None):
+                    rows.append(
+                        {
+                            "quantity": f"{_quantity_name(k)} ({_quantity_name(vk)})"
+                            if vk not in ("value",)
+                            else _quantity_name(k),
+                            "cell": _Cell.of(vk if vk != "value" else k, vv, f"{path}.{vk}"),
+                            "corner": _corner_text(corner),
+                        }
+                    )
+            continue
+        if isinstance(v, Mapping):
+            sub = []
+            _flatten(path, v, sub)
+            for p, leaf in sub:
+                if isinstance(leaf, (list, tuple)) and len(leaf) > 8:
+                    continue
+                rows.append(
+                    {
+                        "quantity": _quantity_name(p.split(".", 1)[1].replace(".", " / ")),
+                        "cell": _Cell.of(p.rsplit(".", 1)[1], leaf, p),
+                        "corner": "",
+                    }
+                )
+            continue
+        if isinstance(v, (list, tuple)) and len(v) > 8:
+            continue  # arrays (waveforms) are plotted, not tabled
+        rows.append(
+            {
+                "quantity": _quantity_name(k),
+                "cell": _Cell.of(k, v, path),
+                "corner": _corner_text(corner),
+            }
+        )
+    return rows
+
+
+def _input_rows(result: Mapping[str, Any]) -> list[dict[str, Any]]:
+    rows = []
+    for section in _INPUT_KEYS:
+        data = result.get(section)
+        if data is None:
+            continue
+        flat: list[tuple[str, Any]] = []
+        _flatten(section, data, flat)
+        for path, leaf in flat:
+            name = path.split(".", 1)[1] if "." in path else path
+            rows.append(
+                {
+                    "section": section.replace("_", " "),
+                    "quantity": _quantity_name(name.replace(".", " / ")),
+                    "cell": _Cell.of(path.rsplit(".", 1)[-1], leaf, path),
+                }
+            )
+    return rows
+
+
+def _table(items: Sequence[Any], prefix: str) -> dict[str, Any]:
+    """Column headers and cells of a list of flat dicts (parts, findings)."""
+    columns: list[str] = []
+    for item in items:
+        if isinstance(item, Mapping):
+            for k, v in item.items():
+                if k not in columns and not isinstance(v, (Mapping,)):
+                    columns.append(k)
+    body = []
+    for i, item in enumerate(items):
+        item = item if isinstance(item, Mapping) else {"item": item}
+        body.append(
+            {
+                "ok": item.get("ok"),
+                "cells": [_Cell.of(c, item.get(c), f"{prefix}[{i}].{c}") for c in columns],
+            }
+        )
+    return {"columns": [_quantity_name(c) for c in columns], "rows": body}
+
+
+def _first_list(result: Mapping[str, Any], keys: Sequence[str]) -> tuple[str, list[Any]]:
+    for k in keys:
+        v = result.get(k)
+        if isinstance(v, list):
+            return k, v
+    return "", []
+
+
+def _collect_checks(result: Mapping[str, Any]) -> tuple[str, list[Any]]:
+    key, items = _first_list(result, _CHECK_KEYS)
+    if items:
+        return key, items
+    # audit: findings may sit inside each BOM line
+    pkey, parts = _first_list(result, _PART_KEYS)
+    nested = []
+    for part in parts:
+        if isinstance(part, Mapping):
+            for ck in _CHECK_KEYS:
+                for f in part.get(ck) or []:
+                    if isinstance(f, Mapping):
+                        nested.append({"part": part.get("ref", part.get("code", "")), **f})
+    return (f"{pkey}[*].findings" if nested else ""), nested
+
+
+def _plots(waveforms: Mapping[str, Any] | None) -> list[dict[str, str]]:
+    """SVG figures from ``waveforms``: a mapping of plot title -> (unit, list of Trace or of
+    ``(label, t_s, y)``)."""
+    out = []
+    for title, (unit, traces) in (waveforms or {}).items():
+        trs = [tr if isinstance(tr, Trace) else Trace(*tr) for tr in traces]
+        if trs:
+            out.append({"title": str(title), "svg": waveform_svg(str(title), unit, trs)})
+    return out
+
+
+def _environment() -> jinja2.Environment:
+    return jinja2.Environment(
+        loader=jinja2.PackageLoader("selector.report", "templates"),
+        autoescape=jinja2.select_autoescape(["html", "j2"], default=True),
+        undefined=jinja2.StrictUndefined,
+        trim_blocks=True,
+        lstrip_blocks=True,
+    )
+
+
+def render_report(
+    kind: str,
+    result: Mapping[str, Any],
+    circuit: Any = None,
+    *,
+    waveforms: Mapping[str, Any] | None = None,
+    labels: Mapping[str, str] | None = None,
+    topology: str | None = None,
+    title: str | None = None,
+    now: Callable[[], _dt.datetime] | None = None,
+) -> str:
+    """The report as HTML text. See :func:`write_report` for the arguments."""
+    if kind not in REPORT_KINDS:
+        raise BadValueError(f"unknown report kind {kind!r}; one of {', '.join(REPORT_KINDS)}")
+    if not isinstance(result, Mapping):
+        raise BadValueError("the report needs the command's JSON document (a mapping)")
+    # the exact document the command prints with --json, so the page and the JSON agree
+    doc = json.loads(json.dumps(result, default=_json_default, allow_nan=False))
+    topo = topology or _find_topology(doc, circuit)
+    schematic = ""
+    if topo is not None:
+        schematic = schematic_svg(topo, labels if labels is not None else _labels_from(doc))
+    figures = []
+    for section in (*_FIGURE_KEYS, *[k for k in doc if k not in _FIGURE_KEYS]):
+        data = doc.get(section)
+        if section in _INPUT_KEYS or section in _SKIP_KEYS or not isinstance(data, Mapping):
+            continue
+        rows = _figure_rows(section, data)
+        if rows:
+            figures.append({"section": section.replace("_", " "), "rows": rows})
+    scalars = [
+        {"quantity": _quantity_name(k), "cell": _Cell.of(k, v, k)}
+        for k, v in doc.items()
+        if not isinstance(v, (Mapping, list)) and k not in _SKIP_KEYS
+    ]
+    pkey, parts = _first_list(doc, _PART_KEYS)
+    ckey, checks = _collect_checks(doc)
+    failed = sum(1 for c in checks if isinstance(c, Mapping) and c.get("ok") is False)
+    cautions = doc.get("cautions") or list(CAUTIONS)
+    stamp = (now or (lambda: _dt.datetime.now(_dt.UTC)))().strftime("%Y-%m-%d %H:%M UTC")
+    html = (
+        _environment()
+        .get_template("report.html.j2")
+        .render(
+            kind=kind,
+            title=title or _TITLES[kind],
+            version=__version__,
+            stamp=stamp,
+            topology=topo,
+            inputs=_input_rows(doc),
+            scalars=scalars,
+            schematic=schematic,
+            figures=figures,
+            plots=_plots(waveforms),
+            parts=_table(parts, pkey) if parts else None,
+            checks=_table(checks, ckey) if checks else None,
+            failed=failed,
+            n_checks=len(checks),
+            cautions=cautions,
+            document=doc,
+        )
+    )
+    return html
+
+
+def write_report(
+    path: str | os.PathLike[str],
+    kind: str,
+    result_dict: Mapping[str, Any],
+    circuit: Any = None,
+    *,
+    waveforms: Mapping[str, Any] | None = None,
+    labels: Mapping[str, str] | None = None,
+    topology: str | None = None,
+    title: str | None = None,
+) -> Path:
+    """Write one self-contained HTML report and return its path.
+
+    ``kind``: ``"check"``, ``"design"`` or ``"audit"``. ``result_dict``: the JSON document the
+    command prints with ``--json`` (SI numbers, unit-suffixed keys; a ``cautions`` list is
+    shown, else :data:`selector.cautions.CAUTIONS`). ``circuit``: the analysed
+    :class:`selector.engine.Circuit` (used for the topology and, when ``waveforms`` is not
+    given, to compute the waveforms through ``selector.engine.waveforms`` if available).
+    ``waveforms``: plot title -> ``(unit, traces)``, each trace a :class:`~.plots.Trace` or a
+    ``(label, t_s, y)`` tuple. ``labels``: schematic role -> label text (see
+    :mod:`.schematic`); by default taken from the document. The file is written to a
+    temporary name and renamed, so a failure leaves no half-written report.
+    """
+    html = render_report(
+        kind,
+        result_dict,
+        circuit,
+        waveforms=waveforms,
+        labels=labels,
+        topology=topology,
+        title=title,
+    )
+    target = Path(path)
+    fd, tmp = tempfile.mkstemp(dir=target.parent or ".", prefix=".dropper-", suffix=".html")
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(html)
+        os.replace(tmp, target)
+    finally:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+    return target
+
+
+def _json_default(obj: Any) -> Any:
+    if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
+        return dataclasses.asdict(obj)
+    if hasattr(obj, "tolist"):
+        return obj.tolist()
+    if isinstance(obj, (set, frozenset)):
+        return sorted(obj)
+    raise TypeError(f"cannot put {type(obj).__name__} into the report")
+
+
+def _find_topology(doc: Mapping[str, Any], circuit: Any) -> str | None:
+    candidates = [getattr(circuit, "topology", None), doc.get("topology")]
+    for section in _INPUT_KEYS:
+        if isinstance(doc.get(section), Mapping):
+            candidates.append(doc[section].get("topology"))
+    for c in candidates:
+        if isinstance(c, str) and c.strip().lower().replace("_", "-") in TOPOLOGIES:
+            return c.strip().lower().replace("_", "-")
+    return None
+
+
+_ROLE_ALIASES = {
+    "x_capacitor": ("x_capacitor", "x_cap", "capacitor", "dropper_capacitor"),
+    "series_resistor": ("series_resistor", "series_r", "resistor"),
+    "bleeder": ("bleeder", "bleeder_resistor"),
+    "rectifier": ("rectifier", "bridge", "diode"),
+    "zener": ("zener",),
+    "reservoir": ("reservoir", "electrolytic"),
+    "fuse": ("fuse",),
+    "regulator": ("regulator",),
+}
+
+
+def _labels_from(doc: Mapping[str, Any]) -> dict[str, str]:
+    """Schematic labels from the parts list (``role`` or ``kind`` per part)."""
+    _, parts = _first_list(doc, _PART_KEYS)
+    labels: dict[str, str] = {}
+    for part in parts:
+        if not isinstance(part, Mapping):
+            continue
+        role = str(part.get("role") or part.get("kind") or "")
+        target = next((r for r, names in _ROLE_ALIASES.items() if role in names), None)
+        if target is None or target in labels:
+            continue
+        bits = [str(part.get("ref") or part.get("designator") or "")]
+        desc = part.get("description") or part.get("code")
+        if desc:
+            bits.append(str(desc))
+        elif part.get("value") is not None:
+            bits.append(str(part.get("value")))
+        labels[target] = " ".join(b for b in bits if b) or target
+    return labels
