@@ -1,0 +1,306 @@
+"""Open, migrate and (re)build the catalogue database.
+
+* :func:`resolve_url` picks the database: ``--db`` value, else ``$DROPPER_DB``, else the SQLite
+  file ``catalogue.sqlite`` in the user's data folder (``$XDG_DATA_HOME/dropper`` or
+  ``~/.local/share/dropper``). A value without ``://`` is a SQLite file path.
+* The schema is made and changed only by the alembic migrations in ``migrations/``
+  (:func:`migrate`), driven in process with a configuration built here (no ini file needed).
+* :func:`open_catalogue` migrates to head and builds the built-in rows on first use, and rebuilds
+  them (keeping imported rows, ``source != 'builtin'``) when the data files' checksum changed.
+"""
+
+from __future__ import annotations
+
+import os
+import time
+from collections.abc import Callable
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import Any, Final
+
+from sqlalchemy import Engine, create_engine, delete, event, func, inspect, select
+from sqlalchemy.engine import make_url
+from sqlalchemy.exc import ArgumentError, IntegrityError, SQLAlchemyError
+from sqlalchemy.pool import StaticPool
+
+from ..errors import CatalogueError
+from ..resources import migrations_dir
+from .build import builtin_rows, data_checksum, load_price_model
+from .models import CatalogueMeta, Part
+
+__all__ = [
+    "ENV_VAR",
+    "Progress",
+    "alembic_config",
+    "build_catalogue",
+    "current_revision",
+    "default_path",
+    "downgrade",
+    "head_revision",
+    "make_engine",
+    "migrate",
+    "open_catalogue",
+    "read_meta",
+    "resolve_url",
+    "safe_url",
+]
+
+ENV_VAR: Final[str] = "DROPPER_DB"
+Progress = Callable[[int, int], None]
+_CHUNK: Final[int] = 500
+
+
+def default_path() -> Path:
+    """The per-user catalogue file: ``$XDG_DATA_HOME/dropper/catalogue.sqlite`` (or under
+    ``~/.local/share`` when XDG_DATA_HOME is unset)."""
+    base = os.environ.get("XDG_DATA_HOME") or str(Path.home() / ".local" / "share")
+    return Path(base) / "dropper" / "catalogue.sqlite"
+
+
+def resolve_url(db: str | None = None) -> str:
+    """The SQLAlchemy URL of the catalogue.
+
+    Order: ``db`` (a ``--db`` option), the DROPPER_DB environment variable, the per-user file
+    (:func:`default_path`). A value without ``://`` is taken as a SQLite file path.
+
+    >>> resolve_url("sqlite:///x.sqlite")
+    'sqlite:///x.sqlite'
+    """
+    for candidate in (db, os.environ.get(ENV_VAR)):
+        if candidate is not None and candidate.strip():
+            text = candidate.strip()
+            if "://" in text:
+                return text
+            return f"sqlite:///{Path(text).expanduser().resolve()}"
+    return f"sqlite:///{default_path()}"
+
+
+def safe_url(url: str | Engine) -> str:
+    """The URL with any password hidden, for messages and output."""
+    try:
+        u = url.url if isinstance(url, Engine) else make_url(url)
+        return u.render_as_string(hide_password=True)
+    except ArgumentError:
+        return str(url)
+
+
+def _sqlite_on_connect(dbapi_conn: Any, _record: Any) -> None:
+    cur = dbapi_conn.cursor()
+    cur.execute("PRAGMA foreign_keys=ON")
+    cur.close()
+
+
+def make_engine(url: str) -> Engine:
+    """An engine for ``url`` (a plain path is a SQLite file). For SQLite files the folder is
+    created; foreign keys are switched on; an in-memory database keeps one shared connection."""
+    url = resolve_url(url)
+    try:
+        u = make_url(url)
+    except ArgumentError as exc:
+        raise CatalogueError(f"cannot read database URL {url!r}: {exc}") from None
+    kwargs: dict[str, Any] = {}
+    if u.get_backend_name() == "sqlite":
+        database = u.database or ""
+        if database in ("", ":memory:") or database.startswith("file::memory:"):
+            kwargs = {"poolclass": StaticPool, "connect_args": {"check_same_thread": False}}
+        else:
+            Path(database).expanduser().parent.mkdir(parents=True, exist_ok=True)
+    try:
+        engine = create_engine(u, **kwargs)
+    except (ArgumentError, ImportError) as exc:
+        raise CatalogueError(f"cannot open catalogue {safe_url(url)}: {exc}") from None
+    if u.get_backend_name() == "sqlite":
+        event.listen(engine, "connect", _sqlite_on_connect)
+    return engine
+
+
+def alembic_config(connection: Any = None):
+    """An alembic Config for ``migrations/`` built in code (``connection`` handed to env.py)."""
+    from alembic.config import Config
+
+    cfg = Config()
+    cfg.set_main_option("script_location", str(migrations_dir()).replace("%", "%%"))
+    if connection is not None:
+        cfg.attributes["connection"] = connection
+    return cfg
+
+
+def head_revision() -> str:
+    """The newest migration's revision id."""
+    from alembic.script import ScriptDirectory
+
+    head = ScriptDirectory.from_config(alembic_config()).get_current_head()
+    if head is None:
+        raise CatalogueError("the migrations folder holds no revision")
+    return head
+
+
+def current_revision(engine: Engine) -> str | None:
+    """The database's alembic revision (None for an empty database)."""
+    from alembic.runtime.migration import MigrationContext
+
+    with engine.connect() as conn:
+        return MigrationContext.configure(conn).get_current_revision()
+
+
+def _run(engine: Engine, action: str, revision: str) -> None:
+    from alembic import command
+    from alembic.util import CommandError
+
+    sqlite = engine.dialect.name == "sqlite"
+    try:
+        with engine.connect() as conn:
+            if sqlite:
+                # a batch migration rebuilds a table (create copy, drop, rename); with foreign
+                # keys on, the drop would cascade into price_breaks. The pragma only takes
+                # effect outside a transaction, so set it before alembic begins one.
+                conn.exec_driver_sql("PRAGMA foreign_keys=OFF")
+                conn.commit()
+            try:
+                with conn.begin():
+                    getattr(command, action)(alembic_config(conn), revision)
+            finally:
+                if sqlite:
+                    conn.exec_driver_sql("PRAGMA foreign_keys=ON")
+                    conn.commit()
+    except CommandError as exc:
+        raise CatalogueError(f"cannot migrate {safe_url(engine)}: {exc}") from None
+    except SQLAlchemyError as exc:
+        raise CatalogueError(f"cannot migrate {safe_url(engine)}: {_reason(exc)}") from None
+
+
+def migrate(engine: Engine, revision: str = "head") -> None:
+    """Upgrade the schema to ``revision`` (alembic, batch mode on SQLite)."""
+    _run(engine, "upgrade", revision)
+
+
+def downgrade(engine: Engine, revision: str = "base") -> None:
+    """Downgrade the schema to ``revision`` (``base`` drops every catalogue table)."""
+    _run(engine, "downgrade", revision)
+
+
+def _reason(exc: SQLAlchemyError) -> str:
+    orig = getattr(exc, "orig", None)
+    return str(orig if orig is not None else exc).splitlines()[0]
+
+
+def read_meta(engine: Engine) -> dict[str, str]:
+    """The catalogue_meta table as a dict (empty when the table is missing)."""
+    with engine.connect() as conn:
+        if not inspect(conn).has_table(CatalogueMeta.__tablename__):
+            return {}
+        rows = conn.execute(select(CatalogueMeta.key, CatalogueMeta.value)).all()
+    return {k: v for k, v in rows}
+
+
+def _ensure_schema(engine: Engine) -> None:
+    head = head_revision()
+    current = current_revision(engine)
+    if current == head:
+        return
+    if current is not None:
+        from alembic.script import ScriptDirectory
+
+        script = ScriptDirectory.from_config(alembic_config())
+        known = {rev.revision for rev in script.walk_revisions()}
+        if current not in known:
+            raise CatalogueError(
+                f"catalogue {safe_url(engine)} has schema revision {current!r}, unknown to this "
+                f"dropper (newest known: {head!r}); upgrade dropper or use another --db"
+            )
+    elif inspect(engine).has_table(Part.__tablename__):
+        raise CatalogueError(
+            f"{safe_url(engine)} has a 'parts' table not made by dropper's migrations; "
+            "use another --db"
+        )
+    migrate(engine, "head")
+
+
+def _rebuild(engine: Engine, checksum: str, progress: Progress | None) -> dict[str, Any]:
+    started = time.perf_counter()
+    rows = builtin_rows()  # validates every data file before the database is touched
+    total = len(rows)
+    if progress is not None:
+        progress(0, total)
+    table = Part.__table__
+    try:
+        with engine.begin() as conn:
+            conn.execute(delete(table).where(table.c.source == "builtin"))
+            for start in range(0, total, _CHUNK):
+                conn.execute(table.insert(), rows[start : start + _CHUNK])
+                if progress is not None:
+                    progress(min(start + _CHUNK, total), total)
+            built_at = datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+            meta = {
+                "data_checksum": checksum,
+                "built_at": built_at,
+                "builtin_parts": str(total),
+                "price_model": load_price_model().label,
+            }
+            conn.execute(delete(CatalogueMeta).where(CatalogueMeta.key.in_(list(meta))))
+            conn.execute(
+                CatalogueMeta.__table__.insert(),
+                [{"key": k, "value": v} for k, v in meta.items()],
+            )
+            imported = conn.execute(
+                select(func.count()).select_from(table).where(table.c.source != "builtin")
+            ).scalar_one()
+    except IntegrityError as exc:
+        raise CatalogueError(
+            f"cannot build the built-in catalogue in {safe_url(engine)}: {_reason(exc)} "
+            "(an imported part may use a built-in code)"
+        ) from None
+    except SQLAlchemyError as exc:
+        msg = f"cannot build the catalogue in {safe_url(engine)}: {_reason(exc)}"
+        raise CatalogueError(msg) from None
+    return {
+        "url": safe_url(engine),
+        "builtin_parts": total,
+        "imported_parts": int(imported),
+        "data_checksum": checksum,
+        "built_at": built_at,
+        "build_time_s": round(time.perf_counter() - started, 4),
+        "price_note": meta["price_model"],
+    }
+
+
+def _engine_of(url: str | Engine | None) -> Engine:
+    if isinstance(url, Engine):
+        return url
+    return make_engine(resolve_url(url))
+
+
+def open_catalogue(url: str | Engine | None = None, progress: Progress | None = None) -> Engine:
+    """An engine on the catalogue at ``url`` (see :func:`resolve_url`), ready to query.
+
+    Migrates the schema to head; builds the built-in parts on first use and rebuilds them when
+    the data files changed (their checksum differs from the one stored at the last build).
+    Imported rows (``source != 'builtin'``) are kept. Raises CatalogueError when the database
+    cannot be opened or carries an unknown schema.
+    """
+    engine = _engine_of(url)
+    try:
+        _ensure_schema(engine)
+        checksum = data_checksum()
+        if read_meta(engine).get("data_checksum") != checksum:
+            _rebuild(engine, checksum, progress)
+    except SQLAlchemyError as exc:
+        raise CatalogueError(f"cannot open catalogue {safe_url(engine)}: {_reason(exc)}") from None
+    return engine
+
+
+def build_catalogue(url: str | Engine | None = None, progress: Progress | None = None) -> dict:
+    """(Re)build the built-in parts at ``url`` now, whatever the stored checksum says.
+
+    Returns a summary: ``url`` (password hidden), ``builtin_parts``, ``imported_parts``,
+    ``data_checksum``, ``built_at`` (UTC, ISO 8601), ``build_time_s``, ``price_note``.
+    """
+    engine = _engine_of(url)
+    try:
+        _ensure_schema(engine)
+        return _rebuild(engine, data_checksum(), progress)
+    except SQLAlchemyError as exc:
+        raise CatalogueError(f"cannot open catalogue {safe_url(engine)}: {_reason(exc)}") from None
+    finally:
+        if not isinstance(url, Engine):
+            engine.dispose()
