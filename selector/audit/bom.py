@@ -258,17 +258,19 @@ def _raise_decode(path: Path, raw: bytes, exc: UnicodeDecodeError, enc: str) -> 
 
 
 def _sniff(sample: str) -> str:
-    """The delimiter among , ; TAB | that splits the sample's lines most consistently."""
-    lines = [ln for ln in sample.splitlines() if ln.strip()][:20]
-    best, best_score = ",", -1.0
+    """The delimiter among , TAB ; | that splits the sample's lines most consistently: the most
+    common non-zero count of it per line, times the share of lines that have that count."""
+    from collections import Counter
+
+    lines = [ln for ln in sample.splitlines() if ln.strip()][:30]
+    best, best_score = ",", 0.0
     for delim in (",", "\t", ";", "|"):
-        counts = [ln.count(delim) for ln in lines]
-        if not counts or max(counts) == 0:
+        counts = Counter(ln.count(delim) for ln in lines)
+        counts.pop(0, None)
+        if not counts:
             continue
-        # many cells in the first line, same count in most lines
-        first = counts[0]
-        agree = sum(1 for c in counts if c == first) / len(counts)
-        score = first * agree
+        n, hits = counts.most_common(1)[0]
+        score = n * hits / len(lines)
         if score > best_score:
             best, best_score = delim, score
     return best

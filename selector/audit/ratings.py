@@ -74,6 +74,7 @@ class Ratings:
     if_av_a: float | None = None
     ifsm_a: float | None = None
     i2t_a2s: float | None = None
+    temp_max_c: float | None = None
     words: list[str] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
     assumed: dict[str, str] = field(default_factory=dict)
@@ -159,6 +160,7 @@ _IFSM_RE = re.compile(rf"IFSM\s*[=:]?\s*(?P<num>{_NUM})\s*A(?![A-Z0-9])")
 _I2T_RE = re.compile(
     rf"I2T\s*[=:]?\s*(?P<num>{_NUM})\s*(?:A2S|A²S)?(?![A-Z0-9])|(?P<num2>{_NUM})\s*A(?:2|²)S"
 )
+_TEMP_RE = re.compile(r"(?<![\w.])(?P<num>\d{2,3})\s*(?:°|º|DEG\.?\s*)?C(?![A-Z0-9])")
 _TOL_RE = re.compile(r"(?:±|\+/-)?\s*(?P<num>\d+(?:\.\d+)?)\s*%")
 _ZENER_CODE_RE = re.compile(r"(?<!\d)(?P<a>\d{1,3})V(?P<b>\d)(?!\d)")
 _SPLIT_RE = re.compile(r"[\s,;_]+|(?<!\d)/|/(?!\d)")
@@ -374,6 +376,11 @@ def read_ratings(
     m = _I2T_RE.search(up)
     if m:
         r.i2t_a2s = _read(m.group("num") or m.group("num2"), "A2s")
+    if kind in ("electrolytic", "capacitor", "zener", "diode", "bridge"):
+        temps = [float(m.group("num")) for m in _TEMP_RE.finditer(up)]
+        temps = [t for t in temps if 70 <= t <= 200]
+        if temps:
+            r.temp_max_c = max(temps)
     if kind in ("diode", "bridge"):
         rest = _IFSM_RE.sub(" ", up)
         m = _CURRENT_RE.search(rest)

@@ -1,0 +1,724 @@
+"""The audit itself: a BOM, its roles and the circuit options -> findings from the shared rules.
+
+Per board: read each line's ratings (:mod:`.ratings`), assign roles (:mod:`.roles`), fill a
+rating the line lacks from the best-matching catalogue family (shown as "assumed from family
+..."), build the engine's :class:`~selector.engine.Circuit` from the BOM's values, analyse it at
+every corner (:func:`selector.engine.analyse`) and run the rule engine that ``design`` uses
+(:func:`selector.rules.evaluate`). Nothing here decides whether a part passes: the rules do.
+
+Circuit values from the BOM: X capacitance = sum of the X capacitors (in parallel); series
+resistance = sum of the series resistors; bleeder = sum of the bleeder string (none fitted:
+infinite); Zener voltage = sum of the Zeners in series; reservoir = sum of the reservoirs in
+parallel. Tolerances the BOM states (largest X-capacitor, series-resistor and Zener tolerance)
+replace the option defaults; each replacement is noted.
+
+The result's :meth:`AuditResult.to_dict` is the JSON document of ``dropper audit --json`` and
+the hook a report writer calls (:func:`audit_result_dict`).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import re
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Final
+
+from ..cautions import CAUTIONS
+from ..errors import BadRowError, BadValueError, OutOfRangeError
+from .bom import BomPart, BomTable, read_bom
+from .ratings import Ratings, read_ratings
+from .roles import Assigned, RoleMap, infer_roles, load_roles_file
+
+__all__ = [
+    "AuditFinding",
+    "AuditResult",
+    "BoardAudit",
+    "audit_bom",
+    "audit_result_dict",
+    "fill_from_catalogue",
+    "rated_part",
+]
+
+#: audit kind -> catalogue kind (kinds without a catalogue family are never filled)
+_CATALOGUE_KIND: Final[dict[str, str]] = {
+    "x_capacitor": "x_capacitor",
+    "film_capacitor": "film_capacitor",
+    "resistor": "resistor",
+    "zener": "zener",
+    "bridge": "bridge",
+    "diode": "diode",
+    "electrolytic": "electrolytic",
+    "fuse": "fuse",
+}
+#: ratings a family may supply, and which way is the conservative choice within the family
+_FILL_LOW: Final[tuple[str, ...]] = (
+    "rated_voltage_v",
+    "rated_voltage_ac_v",
+    "limiting_voltage_v",
+    "power_w",
+    "pulse_energy_j",
+    "dvdt_v_per_s",
+    "vrrm_v",
+    "if_av_a",
+    "ifsm_a",
+    "tj_max_c",
+    "ripple_a",
+    "temp_max_c",
+    "i2t_a2s",
+    "derate_start_c",
+    "derate_end_c",
+)
+_FILL_HIGH: Final[tuple[str, ...]] = ("tolerance",)
+
+#: search words for a family, from what the line says
+_WORD_TERMS: Final[dict[str, tuple[str, ...]]] = {
+    "metal_oxide": ("oxide",),
+    "wirewound": ("wirewound", "wire"),
+    "metal_film": ("metal-film", "metal film"),
+    "thick_film": ("thick",),
+    "thin_film": ("thin",),
+    "pp": ("polypropylene", "pp"),
+    "pet": ("polyester", "pet"),
+    "fusible": ("fusible",),
+    "glass": ("glass", "do-35", "do35"),
+}
+_PACKAGE_TERMS: Final[dict[str, tuple[str, ...]]] = {
+    "melf_0207": ("0207", "melf"),
+    "melf_0204": ("0204", "minimelf"),
+    "melf_0102": ("0102",),
+    "do41": ("do41", "do-41"),
+    "do35": ("do35", "do-35"),
+    "sod123": ("sod123", "sod-123"),
+    "sma": ("sma", "do214ac"),
+    "smb": ("smb",),
+    "mbs": ("mbs", "mb"),
+    "dip_bridge": ("db", "dip"),
+    "axial": ("axial",),
+    "radial": ("radial",),
+}
+
+
+@dataclass(frozen=True)
+class AuditFinding:
+    """One rule on one part (or the whole circuit), as the audit reports it (SI units)."""
+
+    board: str
+    ref: str | None
+    role: str
+    rule: str
+    stress: float | None
+    rating: float | None
+    unit: str
+    margin: float | None
+    severity: str
+    source: str
+    corner: str | None
+    note: str = ""
+    description: str = ""
+
+
+@dataclass
+class BoardAudit:
+    """One board: its roles, the circuit built from it, its findings."""
+
+    board: str
+    roles: RoleMap
+    circuit: Any
+    findings: list[AuditFinding]
+    assumed: list[str] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+
+
+@dataclass
+class AuditResult:
+    """Everything the audit found, board by board; ``to_dict`` gives the JSON document."""
+
+    table: BomTable
+    boards: list[BoardAudit]
+    notes: list[str] = field(default_factory=list)
+
+    @property
+    def findings(self) -> list[AuditFinding]:
+        return [f for b in self.boards for f in b.findings]
+
+    @property
+    def summary(self) -> dict[str, int]:
+        out = {"fail": 0, "warn": 0, "pass": 0}
+        for f in self.findings:
+            out[f.severity] += 1
+        return out
+
+    def to_dict(self) -> dict[str, Any]:
+        return audit_result_dict(self)
+
+
+def audit_result_dict(result: AuditResult) -> dict[str, Any]:
+    """The audit as one JSON-ready dict (SI numbers): the ``--json`` document and the report
+    writer's input. Keys: ``file``, ``sheet``, ``column_map`` (field -> header),
+    ``ignored_columns``, ``roles`` (one entry per part), ``boards`` (circuit values per board),
+    ``findings``, ``summary`` {fail, warn, pass}, ``notes``, ``cautions``."""
+    t = result.table
+    roles = []
+    boards = []
+    for b in result.boards:
+        for a in b.roles.parts:
+            r = a.ratings
+            roles.append(
+                {
+                    "board": b.board,
+                    "ref": a.part.ref,
+                    "row": a.part.row,
+                    "role": a.role + ("+fuse" if a.also_fuse else ""),
+                    "how": a.how,
+                    "kind": r.kind,
+                    "value": r.value,
+                    "text": " ".join(x for x in (a.part.value, a.part.description) if x),
+                    "mpn": a.part.mpn,
+                    "assumed": dict(r.assumed),
+                }
+            )
+        c = b.circuit
+        boards.append(
+            {
+                "board": b.board,
+                "topology": getattr(c, "topology", None),
+                "x_capacitance_f": getattr(c, "x_capacitance_f", None),
+                "series_resistance_ohm": getattr(c, "series_resistance_ohm", None),
+                "bleeder_resistance_ohm": getattr(c, "bleeder_resistance_ohm", None),
+                "zener_voltage_v": getattr(c, "zener_voltage_v", None),
+                "reservoir_f": getattr(c, "reservoir_f", None),
+                "inferred": list(b.roles.notes),
+                "assumed": list(b.assumed),
+                "notes": list(b.notes),
+            }
+        )
+    findings = [dataclasses.asdict(f) for f in _ordered(result.findings)]
+    return {
+        "file": t.path,
+        "sheet": t.sheet,
+        "encoding": t.encoding,
+        "column_map": dict(t.column_map),
+        "ignored_columns": list(t.ignored_columns),
+        "roles": roles,
+        "boards": boards,
+        "findings": findings,
+        "summary": result.summary,
+        "notes": list(t.notes) + list(result.notes),
+        "cautions": list(CAUTIONS),
+    }
+
+
+_ORDER = {"fail": 0, "warn": 1, "pass": 2}
+
+
+def _ordered(findings: Sequence[AuditFinding]) -> list[AuditFinding]:
+    return sorted(findings, key=lambda f: _ORDER[f.severity])
+
+
+# ---------------------------------------------------------------------------------------------
+# catalogue fill
+
+
+def _norm(text: Any) -> str:
+    return re.sub(r"[^0-9a-z]+", "", str(text or "").lower())
+
+
+def fill_from_catalogue(ratings: Ratings, fields: Sequence[str], frame: Any) -> str | None:
+    """Fill the ``fields`` that ``ratings`` lacks from the best-matching catalogue family.
+
+    ``frame`` is a ``selector.catalogue.parts_frame`` DataFrame (columns per DEVELOPERS.md).
+    Families of the part's kind are scored on package (4), class words (3 each), safety class
+    (3), the part's value inside the family's range (2) and its stated power or voltage among
+    the family's rows (1 each); the best family scoring >= 3 wins (ties: first in the
+    catalogue). Within it, rows of the same package (and value, when present) are kept and each
+    missing rating takes the family's most conservative figure (lowest rating, highest
+    tolerance). Returns the family's name, or None when nothing matched (the ratings stay
+    unknown, and the rules will warn). Records each filled field in ``ratings.assumed``.
+    """
+    kind = _CATALOGUE_KIND.get(ratings.kind)
+    missing = [f for f in fields if getattr(ratings, f, None) is None]
+    if kind is None or not missing or frame is None or len(frame) == 0:
+        return None
+    rows = frame[frame["kind"] == kind]
+    if len(rows) == 0:
+        return None
+    best: tuple[float, str] | None = None
+    terms = [t for w in ratings.words for t in _WORD_TERMS.get(w, ())]
+    if ratings.technology:
+        terms += list(_WORD_TERMS.get(ratings.technology, ()))
+    if ratings.dielectric:
+        terms += list(_WORD_TERMS.get(ratings.dielectric, ()))
+    pkg_terms = _PACKAGE_TERMS.get(
+        ratings.package or "", (ratings.package,) if ratings.package else ()
+    )
+    for family, sub in rows.groupby("family", sort=False):
+        text = " ".join(
+            [str(family)]
+            + [str(x) for x in sub["description"].head(1)]
+            + [str(x) for x in sub["package"].unique()[:20]]
+        ).lower()
+        ntext = _norm(text)
+        score = 0.0
+        if pkg_terms and any(_norm(t) in ntext for t in pkg_terms):
+            score += 4
+        for t in dict.fromkeys(terms):
+            if t in text or _norm(t) in ntext:
+                score += 3
+        if ratings.safety_class and "safety_class" in sub:
+            x = _x_subclass(ratings.safety_class)
+            if x and (sub["safety_class"].astype(str).str.upper() == x).any():
+                score += 3
+        if ratings.value is not None and "value" in sub:
+            if sub["value"].min() * 0.999 <= ratings.value <= sub["value"].max() * 1.001:
+                score += 2
+        if ratings.power_w is not None and "power_w" in sub:
+            if (abs(sub["power_w"] - ratings.power_w) < 1e-9).any():
+                score += 1
+        if best is None or score > best[0]:
+            best = (score, str(family))
+    if best is None or best[0] < 3:
+        return None
+    family = best[1]
+    sub = rows[rows["family"] == family]
+    if pkg_terms and "package" in sub:
+        keep = sub[sub["package"].map(lambda p: any(_norm(t) in _norm(p) for t in pkg_terms))]
+        if len(keep):
+            sub = keep
+    if ratings.value is not None and "value" in sub:
+        keep = sub[(sub["value"] - ratings.value).abs() <= 1e-6 * ratings.value]
+        if len(keep):
+            sub = keep
+    if ratings.power_w is not None and "power_w" in sub:
+        keep = sub[(sub["power_w"] - ratings.power_w).abs() < 1e-9]
+        if len(keep):
+            sub = keep
+    for f in missing:
+        if f not in sub:
+            continue
+        col = sub[f].dropna()
+        if len(col) == 0:
+            continue
+        if f in _FILL_LOW:
+            v = float(col.min())
+        elif f in _FILL_HIGH:
+            v = float(col.max())
+        else:
+            continue
+        setattr(ratings, f, v)
+        ratings.assumed[f] = family
+    return family if ratings.assumed else None
+
+
+# ---------------------------------------------------------------------------------------------
+# ratings -> the rule engine's RatedPart
+
+
+def _x_subclass(safety_class: str | None) -> str | None:
+    if not safety_class:
+        return None
+    m = re.search(r"X[123]", safety_class.upper())
+    return m.group(0) if m else None
+
+
+_NOT_SAFETY = {
+    "film_capacitor": "general-purpose film",
+    "ceramic_capacitor": "ceramic",
+    "electrolytic": "electrolytic",
+}
+
+
+def rated_part(role: str, group: Sequence[Assigned], share: float, arrangement: str):
+    """One :class:`selector.rules.RatedPart` for a group of equal parts in one role."""
+    from ..rules import RatedPart
+
+    a = group[0]
+    r = a.ratings
+    if role == "x_capacitor":
+        safety = _x_subclass(r.safety_class)
+        if safety is None and r.safety_class:
+            safety = r.safety_class  # Y only: not an X subclass (the rule fails it)
+        if safety is None and r.kind in _NOT_SAFETY:
+            safety = _NOT_SAFETY[r.kind]  # stated general-purpose: fails, never "unknown"
+    else:
+        safety = r.safety_class
+    tj = r.temp_max_c if r.kind == "zener" else None
+    kw = {
+        f.name: getattr(r, f.name)
+        for f in dataclasses.fields(RatedPart)
+        if hasattr(r, f.name)
+        and f.name
+        not in {"role", "kind", "ref", "description", "qty", "arrangement", "share", "safety_class"}
+    }
+    if tj is not None:
+        kw["tj_max_c"] = tj
+        kw.pop("temp_max_c", None)
+    return RatedPart(
+        role=role,
+        kind=_CATALOGUE_KIND.get(r.kind, r.kind),
+        ref=", ".join(g.part.ref for g in group),
+        description=" ".join(x for x in (a.part.value, a.part.description) if x),
+        qty=len(group),
+        arrangement=arrangement if len(group) > 1 else "single",
+        share=share,
+        safety_class=safety,
+        **kw,
+    )
+
+
+_ARRANGEMENT: Final[dict[str, str]] = {
+    "x_capacitor": "parallel",
+    "series_resistor": "series",
+    "bleeder": "series",
+    "zener": "series",
+    "reservoir": "parallel",
+    "rectifier": "single",
+    "fuse": "series",
+}
+
+
+def _groups(assigned: Sequence[Assigned]) -> list[list[Assigned]]:
+    """Equal parts (same value and ratings) grouped, in BOM order."""
+    out: dict[tuple, list[Assigned]] = {}
+    for a in assigned:
+        r = a.ratings
+        key = tuple(
+            (k, v)
+            for k, v in sorted(dataclasses.asdict(r).items())
+            if k not in ("notes", "words", "assumed")
+        ) + ((a.part.description, a.part.value, a.also_fuse),)
+        out.setdefault(key, []).append(a)
+    return list(out.values())
+
+
+# ---------------------------------------------------------------------------------------------
+# the audit
+
+
+def _ratings_of(table: BomTable, part: BomPart) -> Ratings:
+    try:
+        return read_ratings(
+            part.ref,
+            part.value,
+            part.description,
+            part.package,
+            part.voltage,
+            part.power,
+            part.tolerance,
+        )
+    except BadValueError as exc:
+        msg = str(exc)
+        fld, _, rest = msg.partition(": ")
+        column = table.column_map.get(fld)
+        if column is None and fld == "value":
+            column = table.column_map.get("description")
+        problem = f"{part.ref}: {rest or msg}"
+        raise BadRowError(table.path, part.row, column, problem) from None
+
+
+def _rule_fields() -> dict[str, tuple[str, ...]]:
+    from ..rules import RULES
+
+    out: dict[str, list[str]] = {}
+    for rule in RULES:
+        out.setdefault(rule.role, []).extend(rule.ratings)
+    extra = {
+        "series_resistor": ("derate_start_c", "derate_end_c", "tolerance"),
+        "bleeder": ("derate_start_c", "derate_end_c", "limiting_voltage_v", "power_w"),
+        "zener": ("tj_max_c", "derate_start_c", "derate_end_c", "tolerance"),
+        "x_capacitor": ("tolerance",),
+    }
+    return {
+        role: tuple(
+            dict.fromkeys(
+                f
+                for f in list(fs) + list(extra.get(role, ()))
+                if f not in ("value", "safety_class")
+            )
+        )
+        for role, fs in out.items()
+    }
+
+
+def audit_bom(
+    path: str | Path,
+    *,
+    mains: Any,
+    conditions: Any,
+    tolerances: Any,
+    load: Any = None,
+    regulator: Any = None,
+    topology: str | None = None,
+    policy: Any = None,
+    sheet: str | None = None,
+    encoding: str | None = None,
+    columns: Mapping[str, str] | None = None,
+    roles: Mapping[str, str] | None = None,
+    roles_file: str | Path | None = None,
+    catalogue: Any = None,
+    circuit_defaults: Mapping[str, Any] | None = None,
+    analyse: Callable[..., Any] | None = None,
+    progress: Callable[[int, int], None] | None = None,
+) -> AuditResult:
+    """Audit a BOM file: one :class:`BoardAudit` per board (a ``Board`` column splits them).
+
+    ``mains``, ``conditions``, ``tolerances``, ``load``, ``regulator`` are the engine's
+    dataclasses (from the shared circuit options); ``topology`` None means "as the BOM shows"
+    (a bridge part or four diodes: bridge; one diode: half-wave). ``roles`` maps designators
+    (``"C1"`` or ``"BOARD:C1"``) to roles and wins over ``roles_file`` and inference.
+    ``catalogue`` is a ``parts_frame`` DataFrame used to fill missing ratings (None: no fill).
+    ``circuit_defaults`` gives engine values the BOM does not carry (``diode_drop_v``, ...).
+    Identical boards are analysed once. Raises BadRowError / BadValueError for bad input.
+    """
+    from ..engine import Circuit, Load
+    from ..rules import evaluate as rules_evaluate
+
+    if analyse is None:
+        from ..engine import analyse as analyse_fn
+    else:
+        analyse_fn = analyse
+    table = read_bom(path, sheet=sheet, encoding=encoding, columns=columns)
+    common_file, per_board_file = ({}, {}) if roles_file is None else load_roles_file(roles_file)
+    boards = table.boards
+    for name in per_board_file:
+        if name not in boards:
+            raise BadValueError(
+                f"roles file {roles_file}: board '{name}' is not in the BOM "
+                f"(boards: {', '.join(b or '(unnamed)' for b in boards)})"
+            )
+    cli = {k.upper(): v for k, v in (roles or {}).items()}
+    fields_by_role = _rule_fields()
+    cache: dict[Any, Any] = {}
+    results: list[BoardAudit] = []
+    by_board: dict[str, list[BomPart]] = {}
+    for p in table.parts:
+        by_board.setdefault(p.board, []).append(p)
+    for i, board in enumerate(boards):
+        parts = by_board[board]
+        items = [(p, _ratings_of(table, p)) for p in parts]
+        explicit: dict[str, str] = {}
+        explicit.update(common_file)
+        explicit.update(per_board_file.get(board, {}))
+        how = "roles file" if explicit else "given"
+        for key, role in cli.items():
+            b, sep, ref = key.rpartition(":")
+            if not sep:
+                explicit[key] = role
+            elif b == board.upper():
+                explicit[ref] = role
+        if explicit:
+            refs = {p.ref.upper() for p in parts}
+            missing = [r for r in explicit if r not in refs]
+            if missing and len(boards) > 1:
+                for r in missing:
+                    explicit.pop(r)  # a common role names a part another board has
+        roles_map = infer_roles(board, items, explicit, explicit_how=how)
+        results.append(
+            _audit_board(
+                table,
+                roles_map,
+                mains=mains,
+                conditions=conditions,
+                tolerances=tolerances,
+                load=load or Load(),
+                regulator=regulator,
+                topology=topology,
+                policy=policy,
+                catalogue=catalogue,
+                circuit_defaults=circuit_defaults or {},
+                fields_by_role=fields_by_role,
+                cache=cache,
+                analyse=analyse_fn,
+                circuit_cls=Circuit,
+                rules_evaluate=rules_evaluate,
+            )
+        )
+        if progress is not None:
+            progress(i + 1, len(boards))
+    return AuditResult(table=table, boards=results)
+
+
+def _where(table: BomTable, board: str) -> str:
+    return f"{table.path}" + (f", board '{board}'" if board else "")
+
+
+def _audit_board(table: BomTable, rm: RoleMap, **kw: Any) -> BoardAudit:
+    board = rm.board
+    where = _where(table, board)
+    notes: list[str] = []
+    assumed: list[str] = []
+    by_role: dict[str, list[Assigned]] = {}
+    for a in rm.parts:
+        if a.role != "other":
+            by_role.setdefault(a.role, []).append(a)
+    for a in rm.parts:
+        if a.also_fuse:
+            by_role.setdefault("fuse", []).append(a)
+    for need, what in (
+        ("x_capacitor", "an X capacitor"),
+        ("series_resistor", "a series resistor"),
+        ("zener", "a Zener"),
+        ("reservoir", "a reservoir electrolytic"),
+    ):
+        if need not in by_role:
+            raise BadValueError(
+                f"{where}: found no {need} ({what}); the audit needs one to compute the "
+                f"stresses. Name it with --role REF={need}"
+            )
+    # fill missing ratings from the catalogue
+    frame = kw["catalogue"]
+    seen_fill: set[int] = set()
+    for role, group in by_role.items():
+        wanted = kw["fields_by_role"].get(role, ())
+        for a in group:
+            if id(a.ratings) in seen_fill:
+                continue
+            seen_fill.add(id(a.ratings))
+            fam = fill_from_catalogue(a.ratings, wanted, frame)
+            if fam:
+                fields = ", ".join(sorted(a.ratings.assumed))
+                assumed.append(f"{a.part.ref}: {fields} assumed from family {fam}")
+    # circuit values from the BOM
+    xs = tuple(a.ratings.value for a in by_role["x_capacitor"])
+    series_r = sum(a.ratings.value for a in by_role["series_resistor"])
+    bleeders = by_role.get("bleeder", [])
+    bleeder_r = sum(a.ratings.value for a in bleeders) if bleeders else math.inf
+    vz = sum(a.ratings.value for a in by_role["zener"])
+    res = sum(a.ratings.value for a in by_role["reservoir"])
+    topology = kw["topology"] or rm.topology
+    if topology is None:
+        raise BadValueError(
+            f"{where}: found no rectifier (bridge or diodes); name it with --role REF=rectifier "
+            "or give --topology"
+        )
+    if rm.topology is not None and kw["topology"] and kw["topology"] != rm.topology:
+        notes.append(f"--topology {kw['topology']} used; the BOM looks {rm.topology}")
+    tol = kw["tolerances"]
+    tol_changes = {}
+    for role, name in (
+        ("x_capacitor", "cap_tol"),
+        ("series_resistor", "r_tol"),
+        ("zener", "zener_tol"),
+    ):
+        stated = [
+            a.ratings.tolerance for a in by_role.get(role, []) if a.ratings.tolerance is not None
+        ]
+        if stated and "tolerance" not in {k for a in by_role[role] for k in a.ratings.assumed}:
+            v = max(stated)
+            if v != getattr(tol, name):
+                tol_changes[name] = v
+    if tol_changes:
+        tol = dataclasses.replace(tol, **tol_changes)
+        notes.append(
+            "tolerances from the BOM: "
+            + ", ".join(f"{k} {v * 100:g} %" for k, v in tol_changes.items())
+        )
+    try:
+        circuit = kw["circuit_cls"](
+            topology=topology,
+            x_capacitors_f=xs,
+            series_resistance_ohm=series_r,
+            bleeder_resistance_ohm=bleeder_r,
+            zener_voltage_v=vz,
+            reservoir_f=res,
+            load=kw["load"],
+            regulator=kw["regulator"],
+            **dict(kw["circuit_defaults"]),
+        )
+    except OutOfRangeError as exc:
+        raise BadValueError(
+            f"{where}: the BOM's values are outside the engine's range: {exc}"
+        ) from None
+    key = (circuit, kw["mains"], tol, kw["conditions"])
+    analysis = kw["cache"].get(key)
+    if analysis is None:
+        analysis = kw["analyse"](circuit, kw["mains"], tol, kw["conditions"])
+        kw["cache"][key] = analysis
+    # parts for the rules
+    parts_by_role: dict[str, list] = {}
+    placeholder_bleeder = False
+    for role, group in by_role.items():
+        total = sum(a.ratings.value or 0.0 for a in group)
+        rated = []
+        for g in _groups(group):
+            if role in ("series_resistor", "bleeder") and total > 0:
+                share = sum(a.ratings.value or 0.0 for a in g) / total
+            else:
+                share = 1.0
+            rated.append(rated_part(role, g, share, _ARRANGEMENT[role]))
+        parts_by_role[role] = rated
+    if "bleeder" not in parts_by_role:
+        from ..rules import RatedPart
+
+        parts_by_role["bleeder"] = [RatedPart(role="bleeder", ref=None, description="none fitted")]
+        placeholder_bleeder = True
+        notes.append("no bleeder fitted (no resistor >= 100 kohm); the discharge rule decides")
+    context = {
+        "ambient_c": kw["conditions"].ambient_c,
+        "mains_max_v": kw["mains"].high_v,
+        "mains_min_v": kw["mains"].low_v,
+        "load_a": kw["load"].current_a,
+        "series_resistance_ohm": series_r,
+        "burst_current_a": kw["load"].burst_current_a,
+        "burst_duration_s": kw["load"].burst_duration_s,
+        "reservoir_min_f": res * 0.8,
+        "zener_voltage_v": vz,
+    }
+    # the engine's own figures win where it gives them
+    raw = kw["rules_evaluate"](
+        parts_by_role, analysis, kw["policy"], context=_missing_only(analysis, context)
+    )
+    findings: list[AuditFinding] = []
+    for f in raw:
+        if placeholder_bleeder and f.part == "bleeder" and f.rule != "bleeder.discharge":
+            continue
+        note = f.note
+        if placeholder_bleeder and f.rule == "bleeder.discharge":
+            note = (note + "; " if note else "") + "no bleeder fitted"
+        findings.append(
+            AuditFinding(
+                board=board,
+                ref=f.ref,
+                role=f.part,
+                rule=f.rule,
+                stress=f.stress,
+                rating=f.limit,
+                unit=f.unit,
+                margin=f.margin,
+                severity=f.severity,
+                source=f.source,
+                corner=f.corner,
+                note=note,
+                description=f.description,
+            )
+        )
+    if "fuse" not in by_role:
+        findings.append(
+            AuditFinding(
+                board=board,
+                ref=None,
+                role="fuse",
+                rule="fuse.fitted",
+                stress=None,
+                rating=None,
+                unit="",
+                margin=None,
+                severity="warn",
+                source="[P] common practice, no source",
+                corner=None,
+                note="no fuse or fusible resistor found in the BOM",
+                description="a fuse (or a fusible series resistor) protects against a shorted "
+                "X capacitor or rectifier",
+            )
+        )
+    return BoardAudit(board, rm, circuit, findings, assumed=assumed, notes=notes)
+
+
+def _missing_only(analysis: Any, context: Mapping[str, Any]) -> dict[str, Any]:
+    """Context keys the analysis does not already carry (its figures take precedence)."""
+    from ..rules import stresses_from_analysis
+
+    have, _ = stresses_from_analysis(analysis)
+    return {k: v for k, v in context.items() if have.get(k) is None}
