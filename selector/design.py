@@ -1,0 +1,1483 @@
+"""The design solver: the cheapest (or smallest) compliant part set for a dropper requirement.
+
+Search space (issue 4): X capacitance as one part or two in parallel (same or different); series
+resistance as one part or two equal parts in series (one per line); bleeder as 1-3 equal parts in
+series; rectifier as a bridge or four discrete diodes (half-wave: one diode, the Zener takes the
+other half cycle); Zener as one part or two equal parts in series; a reservoir electrolytic; a
+fuse, or a fusible series resistor serving as the fuse.
+
+Method (exact over that space):
+
+1. **Screen.** For every (topology, Zener voltage, X option, series-R option) point of the grid,
+   numpy computes *lower bounds* of every stress (and an upper bound of the available current)
+   from the closed forms of DOMAIN.md section 2, widened by ``SCREEN_SLACK``. The same rule
+   functions as ``selector.rules`` then screen the arrays; for each surviving point the cheapest
+   completion (Zener, bleeder, rectifier, reservoir, fuse) comes from sorted look-ups: parts
+   sorted by the rating that matters, prefix/suffix minima of the objective key, searchsorted;
+   the bleeder's two-sided window (discharge vs standby power) uses a sparse-table range minimum.
+   A relaxation: a point the screen rejects cannot pass the exact check, and its key is a lower
+   bound of the key of any exact completion.
+2. **Verify.** Points in ascending key order are analysed with the engine (``analyse()``, every
+   corner), the completion re-chosen against the exact stresses, and every rule evaluated. A
+   verified design is final once no unverified point has a lower key (branch and bound), so the
+   first ``top`` designs are the optimum over the search space.
+
+The objective is a lexicographic key (price, area, count for ``minimize='price'``; the others
+break ties) packed into one int64: price in 1e-5 units, area in 0.01 mm^2, count.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+from types import SimpleNamespace
+from typing import Any, Final
+
+import numpy as np
+import pandas as pd
+
+from . import rules as R
+from .errors import BadValueError, InfeasibleError
+from .policy import Policy
+
+__all__ = [
+    "SCREEN_SLACK",
+    "Design",
+    "DesignPart",
+    "Requirement",
+    "design",
+    "objective_key",
+]
+
+#: relative widening of the closed-form screen (their error against the exact periodic solution
+#: is documented by the engine; 10 % covers it with room) -- a larger value only costs time
+SCREEN_SLACK: Final[float] = 0.10
+#: IEC 60335-1 22.5: capacitors <= 0.1 uF need no discharge [S]
+_EXEMPT_C: Final[float] = 0.1e-6
+_PROFILE_LIMITS: Final[dict[str, tuple[float, float, bool]]] = {
+    # profile: (limit V, allowed s, time-constant rule)
+    "iec60335": (34.0, 1.0, False),  # IEC 60335-1 22.5 [S]
+    "iec62368": (60.0, 2.0, False),  # IEC 62368-1 5.5.2.2: 2 s [S], 60 V ES1 [M]
+    "iec60950": (1.0, 1.0, True),  # IEC 60950-1 2.1.1.7: R C <= 1 s [S]
+}
+_SQRT2: Final[float] = math.sqrt(2.0)
+
+# ---------------------------------------------------------------------------------------------
+# requirement and result
+
+
+@dataclass(frozen=True)
+class Requirement:
+    """What the user asks for (SI). ``mains``/``conditions`` are engine dataclasses."""
+
+    load_a: float
+    vout_v: float
+    mains: Any
+    conditions: Any
+    cap_loss: float = 0.10
+    topology: str = "bridge"  # bridge | half-wave | any
+    zener_v: float | None = None
+    regulator: bool = False
+    regulator_dropout_v: float = 1.0
+    regulator_quiescent_a: float = 0.0
+    burst_current_a: float = 0.0
+    burst_duration_s: float = 0.0
+    burst_period_s: float = 0.0
+    minimize: str = "price"
+    top: int = 1
+    smd_only: bool = False
+    tht_only: bool = False
+    exclude: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        if not self.load_a > 0:
+            raise BadValueError(f"load current must be > 0 A, got {self.load_a}")
+        if not self.vout_v > 0:
+            raise BadValueError(f"output voltage must be > 0 V, got {self.vout_v}")
+        if self.topology not in ("bridge", "half-wave", "any"):
+            raise BadValueError(
+                f"unknown topology '{self.topology}'; valid: bridge, half-wave, any"
+            )
+        if self.minimize not in _OBJECTIVES:
+            raise BadValueError(
+                f"unknown objective '{self.minimize}'; valid: {', '.join(_OBJECTIVES)}"
+            )
+        if self.top < 1:
+            raise BadValueError(f"--top must be >= 1, got {self.top}")
+        if self.smd_only and self.tht_only:
+            raise BadValueError("--smd-only and --tht-only exclude each other")
+        if self.burst_current_a > 0 and not (0 < self.burst_duration_s < self.burst_period_s):
+            raise BadValueError("a burst needs 0 < duration < period (e.g. 30m/5ms/1s)")
+
+
+@dataclass
+class DesignPart:
+    role: str
+    code: str
+    kind: str
+    family: str
+    description: str
+    value: float
+    qty: int
+    arrangement: str
+    unit_price: float
+    line_price: float
+    area_mm2: float
+    mount: str | None
+    package: str | None
+    price_note: str | None
+    ratings: dict[str, Any]
+
+
+@dataclass
+class Design:
+    rank: int
+    topology: str
+    total_price: float
+    total_area_mm2: float
+    part_count: int
+    parts: list[DesignPart]
+    effective: dict[str, float]
+    worst_case: Any
+    analysis: Any
+    checks: list[R.Finding]
+    binding: list[str]
+    circuit: Any = None
+    rated_parts: dict[str, list[R.RatedPart]] = field(default_factory=dict)
+
+
+# ---------------------------------------------------------------------------------------------
+# objective keys
+
+_OBJECTIVES: Final[tuple[str, ...]] = ("price", "area", "count")
+_P_SCALE, _A_SCALE = 1e5, 100.0
+_BITS = {"price": 27, "area": 24, "count": 6}
+
+
+def objective_key(price: Any, area: Any, count: Any, minimize: str = "price") -> Any:
+    """Lexicographic objective packed into int64: the chosen field first, the others after.
+
+    price in 1e-5 units (< 1342 per set), area in 0.01 mm^2 (< 167,772 mm^2), count < 64;
+    sums of keys are keys of sums as long as the totals stay in range.
+    """
+    p = np.rint(np.asarray(price, dtype=float) * _P_SCALE).astype(np.int64)
+    a = np.rint(np.asarray(area, dtype=float) * _A_SCALE).astype(np.int64)
+    c = np.asarray(count).astype(np.int64)
+    fields_ = {"price": p, "area": a, "count": c}
+    order = [minimize] + [k for k in ("price", "area", "count") if k != minimize]
+    key = np.zeros(np.broadcast(p, a, c).shape, dtype=np.int64)
+    for name in order:
+        key = (key << _BITS[name]) + fields_[name]
+    return key
+
+
+# ---------------------------------------------------------------------------------------------
+# candidate tables
+
+
+@dataclass
+class _Options:
+    """One role's options as arrays (one row per option) plus the catalogue rows they use."""
+
+    role: str
+    rows: list[tuple[int, ...]]  # catalogue row indices of each option's elements
+    qty: np.ndarray
+    arrangement: list[str]
+    key: np.ndarray
+    price: np.ndarray
+    area: np.ndarray
+    count: np.ndarray
+    attrs: dict[str, np.ndarray]
+
+    def __len__(self) -> int:
+        return len(self.key)
+
+    def take(self, idx: np.ndarray) -> _Options:
+        idx = np.asarray(idx, dtype=np.int64)
+        return _Options(
+            self.role,
+            [self.rows[i] for i in idx],
+            self.qty[idx],
+            [self.arrangement[i] for i in idx],
+            self.key[idx],
+            self.price[idx],
+            self.area[idx],
+            self.count[idx],
+            {k: v[idx] for k, v in self.attrs.items()},
+        )
+
+    def ns(self, idx: Any = slice(None), share: float = 1.0) -> SimpleNamespace:
+        """Attribute namespace the rule functions accept (arrays)."""
+        a = {k: v[idx] for k, v in self.attrs.items()}
+        qty = self.qty[idx].astype(float)
+        n_series = np.where(np.array(self.arrangement, dtype=object)[idx] == "series", qty, 1.0)
+        return SimpleNamespace(
+            **a,
+            power_share=share / qty,
+            voltage_share=share / n_series.astype(float),
+            fusible=a.get("fusible_flag"),
+        )
+
+
+_NUM_COLS: Final[tuple[str, ...]] = (
+    "value",
+    "tolerance",
+    "rated_voltage_v",
+    "rated_voltage_ac_v",
+    "limiting_voltage_v",
+    "power_w",
+    "derate_start_c",
+    "derate_end_c",
+    "pulse_energy_j",
+    "impulse_v",
+    "dvdt_v_per_s",
+    "vrrm_v",
+    "if_av_a",
+    "ifsm_a",
+    "vf_v",
+    "rs_ohm",
+    "zz_ohm",
+    "tj_max_c",
+    "ripple_a",
+    "temp_max_c",
+    "i2t_a2s",
+)
+
+
+def _col(df: pd.DataFrame, name: str) -> np.ndarray:
+    if name not in df.columns:
+        return np.full(len(df), np.nan)
+    return pd.to_numeric(df[name], errors="coerce").to_numpy(dtype=float)
+
+
+def _single_options(
+    df: pd.DataFrame, idx: np.ndarray, role: str, minimize: str, qtys: Sequence[int], arr: str
+) -> _Options:
+    """Options made of ``q`` equal elements of each row in ``idx`` for each q in ``qtys``."""
+    rows: list[tuple[int, ...]] = []
+    qty_l: list[int] = []
+    arrs: list[str] = []
+    base = {c: _col(df, c)[idx] for c in _NUM_COLS}
+    cls = df["safety_class"].to_numpy(dtype=object)[idx] if "safety_class" in df else None
+    fus = (
+        df["fusible"].fillna(False).astype(bool).to_numpy()[idx]
+        if "fusible" in df
+        else np.zeros(len(idx), dtype=bool)
+    )
+    price = _col(df, "unit_price")[idx]
+    area = _col(df, "area_mm2")[idx]
+    attrs: dict[str, list[np.ndarray]] = {c: [] for c in _NUM_COLS}
+    attrs["class_impulse_v"] = []
+    attrs["fusible_flag"] = []
+    prices, areas, counts = [], [], []
+    for q in qtys:
+        rows.extend((int(i),) * q for i in idx)
+        qty_l.extend([q] * len(idx))
+        arrs.extend([arr if q > 1 else "single"] * len(idx))
+        for c in _NUM_COLS:
+            attrs[c].append(base[c])
+        if cls is not None:
+            ci = np.array(
+                [np.nan if v is None else R.x_class_impulse_v(v) for v in _clean_obj(cls)]
+            )
+        else:
+            ci = np.full(len(idx), np.nan)
+        attrs["class_impulse_v"].append(ci)
+        attrs["fusible_flag"].append(fus)
+        prices.append(price * q)
+        areas.append(area * q)
+        counts.append(np.full(len(idx), q))
+    a = {k: np.concatenate(v) if v else np.zeros(0) for k, v in attrs.items()}
+    pr = np.concatenate(prices) if prices else np.zeros(0)
+    ar = np.concatenate(areas) if areas else np.zeros(0)
+    co = np.concatenate(counts) if counts else np.zeros(0, dtype=int)
+    return _Options(
+        role,
+        rows,
+        np.array(qty_l, dtype=np.int64),
+        arrs,
+        objective_key(pr, ar, co, minimize),
+        pr,
+        ar,
+        co,
+        a,
+    )
+
+
+def _clean_obj(values: np.ndarray) -> list[Any]:
+    out = []
+    for v in values:
+        if v is None or (isinstance(v, float) and math.isnan(v)):
+            out.append(None)
+        else:
+            out.append(str(v))
+    return out
+
+
+def _dedupe(opts: _Options, sig_cols: Sequence[str], keep: int) -> _Options:
+    """Keep the ``keep`` best options per electrical signature (exact for the top-``keep``)."""
+    if len(opts) == 0:
+        return opts
+    sig = np.column_stack(
+        [np.nan_to_num(opts.attrs[c], nan=-1.0) for c in sig_cols] + [opts.qty.astype(float)]
+    )
+    order = np.lexsort((opts.key,) + tuple(sig[:, j] for j in range(sig.shape[1] - 1, -1, -1)))
+    s = sig[order]
+    new = np.ones(len(order), dtype=bool)
+    new[1:] = np.any(s[1:] != s[:-1], axis=1)
+    grp = np.cumsum(new) - 1
+    first = np.flatnonzero(new)
+    rank = np.arange(len(order)) - first[grp]
+    return opts.take(np.sort(order[rank < keep]))
+
+
+def _x_pairs(single: _Options, minimize: str) -> _Options:
+    """Singles plus every unordered pair (i <= j) in parallel; pair ratings = the weaker one."""
+    n = len(single)
+    i, j = np.triu_indices(n)
+    v = single.attrs["value"]
+    t = np.nan_to_num(single.attrs["tolerance"], nan=0.2)
+    attrs: dict[str, np.ndarray] = {}
+    for k, arr in single.attrs.items():
+        if k == "value":
+            attrs[k] = np.concatenate([arr, arr[i] + arr[j]])
+        elif k == "tolerance":
+            tw = (v[i] * t[i] + v[j] * t[j]) / (v[i] + v[j])
+            attrs[k] = np.concatenate([t, tw])
+        else:
+            attrs[k] = np.concatenate([arr, np.fmin(arr[i], arr[j])])
+    rows = list(single.rows) + [single.rows[a] + single.rows[b] for a, b in zip(i, j, strict=True)]
+    price = np.concatenate([single.price, single.price[i] + single.price[j]])
+    area = np.concatenate([single.area, single.area[i] + single.area[j]])
+    count = np.concatenate([single.count, single.count[i] + single.count[j]])
+    arrs = list(single.arrangement) + ["parallel"] * len(i)
+    qty = np.concatenate([single.qty, np.full(len(i), 2)])
+    return _Options(
+        single.role,
+        rows,
+        qty,
+        arrs,
+        objective_key(price, area, count, minimize),
+        price,
+        area,
+        count,
+        attrs,
+    )
+
+
+# ---------------------------------------------------------------------------------------------
+# sorted look-ups
+
+
+def _cheapest_at_least(cap: np.ndarray, key: np.ndarray, need: np.ndarray) -> np.ndarray:
+    """Index of the cheapest option with capability >= need (-1 if none), vectorised.
+
+    Options sorted by capability; suffix minima of the key; searchsorted.
+    """
+    if len(cap) == 0:
+        return np.full(np.shape(need), -1, dtype=np.int64)
+    ok = ~np.isnan(cap)
+    ids = np.flatnonzero(ok)
+    order = ids[np.argsort(cap[ids], kind="stable")]
+    c = cap[order]
+    k = key[order]
+    # suffix argmin of the key (a loop over the options, never over the grid)
+    best = np.empty(len(k), dtype=np.int64)
+    cur = len(k) - 1
+    for pos in range(len(k) - 1, -1, -1):
+        if k[pos] <= k[cur]:
+            cur = pos
+        best[pos] = cur
+    pos = np.searchsorted(c, need, side="left")
+    out = np.full(np.shape(need), -1, dtype=np.int64)
+    has = pos < len(c)
+    out[has] = order[best[pos[has]]]
+    return out
+
+
+class _RangeMin:
+    """Sparse table: cheapest option whose sort value lies in [lo, hi], vectorised queries."""
+
+    def __init__(self, value: np.ndarray, key: np.ndarray) -> None:
+        ok = ~np.isnan(value)
+        ids = np.flatnonzero(ok)
+        self.order = ids[np.argsort(value[ids], kind="stable")]
+        self.v = value[self.order]
+        k = key[self.order]
+        n = len(k)
+        self.k = k
+        table = [np.arange(n, dtype=np.int64)]
+        j = 1
+        while (1 << j) <= n:
+            prev = table[-1]
+            half = 1 << (j - 1)
+            a = prev[: n - (1 << j) + 1]
+            b = prev[half : half + n - (1 << j) + 1]
+            table.append(np.where(k[a] <= k[b], a, b))
+            j += 1
+        self.table = table
+
+    def query(self, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+        n = len(self.v)
+        lo_b = np.broadcast_to(lo, np.broadcast(lo, hi).shape)
+        hi_b = np.broadcast_to(hi, lo_b.shape)
+        out = np.full(lo_b.shape, -1, dtype=np.int64)
+        if n == 0:
+            return out
+        left = np.searchsorted(self.v, lo_b, side="left")
+        right = np.searchsorted(self.v, hi_b, side="right") - 1
+        has = right >= left
+        if not np.any(has):
+            return out
+        left_h, right_h = left[has], right[has]
+        length = right_h - left_h + 1
+        lev = np.floor(np.log2(length)).astype(np.int64)
+        res = np.empty(len(left_h), dtype=np.int64)
+        for j in np.unique(lev):
+            m = lev == j
+            a = self.table[j][left_h[m]]
+            b = self.table[j][right_h[m] - (1 << j) + 1]
+            res[m] = np.where(self.k[a] <= self.k[b], a, b)
+        out[has] = self.order[res]
+        return out
+
+
+# ---------------------------------------------------------------------------------------------
+# the solver
+
+
+@dataclass
+class _Setup:
+    req: Requirement
+    policy: Policy
+    df: pd.DataFrame
+    xo: _Options
+    ro: _Options
+    bo: _Options
+    rect: dict[str, _Options]
+    zo: dict[float, _Options]  # effective Vz -> options
+    co: _Options
+    fo: _Options
+    topologies: tuple[str, ...]
+    bus_need_v: float
+
+
+def _filter_frame(df: pd.DataFrame, req: Requirement) -> pd.DataFrame:
+    keep = np.ones(len(df), dtype=bool)
+    if req.smd_only:
+        keep &= df["mount"].fillna("").to_numpy() == "smd"
+    if req.tht_only:
+        keep &= df["mount"].fillna("").to_numpy() == "tht"
+    if req.exclude:
+        fam = df["family"].fillna("").str.lower().to_numpy()
+        known = set(fam)
+        for ex in req.exclude:
+            e = ex.strip().lower()
+            if e not in known:
+                raise BadValueError(
+                    f"--exclude: no family '{ex}' in the catalogue; families: "
+                    + ", ".join(sorted(known))
+                )
+            keep &= fam != e
+    price = pd.to_numeric(df["unit_price"], errors="coerce").to_numpy(dtype=float)
+    keep &= ~np.isnan(price)
+    return df.loc[keep].reset_index(drop=True)
+
+
+def _idx(df: pd.DataFrame, kinds: Sequence[str]) -> np.ndarray:
+    return np.flatnonzero(df["kind"].isin(kinds).to_numpy())
+
+
+def _context_scalars(req: Requirement) -> dict[str, float]:
+    m = req.mains
+    return {
+        "mains_max_v": float(m.high_v),
+        "mains_min_v": float(m.low_v),
+        "ambient_c": float(req.conditions.ambient_c),
+        "surge_level_v": float(req.conditions.surge_v),
+    }
+
+
+def _bus_demand(req: Requirement) -> tuple[float, float]:
+    """(average bus demand [A], bus demand during a burst [A])."""
+    base = req.load_a + (req.regulator_quiescent_a if req.regulator else 0.0)
+    avg = base
+    peak = base
+    if req.burst_current_a > 0:
+        avg = base + req.burst_current_a * req.burst_duration_s / req.burst_period_s
+        peak = base + req.burst_current_a
+    return avg, peak
+
+
+def _prepare(df_all: pd.DataFrame, req: Requirement, policy: Policy) -> _Setup:
+    df = _filter_frame(df_all, req)
+    k = req.top
+    mz = req.minimize
+    s0 = _context_scalars(req)
+    # X capacitors: only parts of an X subclass that pass the role-intrinsic rules
+    xi = _idx(df, ["x_capacitor"])
+    xs = _single_options(df, xi, "x_capacitor", mz, [1], "single")
+    if len(xs):
+        ns = xs.ns()
+        okm = np.ones(len(xs), dtype=bool)
+        for rid in ("x_cap.safety_class", "x_cap.ac_voltage", "x_cap.impulse"):
+            st, lim, _ = _rule(rid).check(s0, ns, policy)
+            okm &= np.asarray(st <= lim)
+        xs = xs.take(np.flatnonzero(okm))
+    xs = _dedupe(xs, ("value", "tolerance", "dvdt_v_per_s"), k)
+    xo = _dedupe(_x_pairs(xs, mz), ("value", "tolerance", "dvdt_v_per_s"), k)
+    # series resistors: 1 or 2 equal in series, value within the engine's range
+    ri = _idx(df, ["resistor"])
+    rv = _col(df, "value")[ri]
+    ri_s = ri[(rv >= 0.5) & (rv <= 1e5)]
+    ro = _single_options(df, ri_s, "series_resistor", mz, [1, 2], "series")
+    ro = ro.take(np.flatnonzero(ro.attrs["value"] * ro.qty <= 1e5))
+    ro = _dedupe(
+        ro,
+        (
+            "value",
+            "tolerance",
+            "power_w",
+            "derate_start_c",
+            "derate_end_c",
+            "pulse_energy_j",
+            "limiting_voltage_v",
+            "fusible_flag",
+        ),
+        k,
+    )
+    # bleeders: 1-3 equal in series, intrinsic rules (power at high line, voltage) screened
+    bi = ri[rv >= 1e3 / 3]
+    bo = _single_options(df, bi, "bleeder", mz, [1, 2, 3], "series")
+    bo.attrs["total_ohm"] = bo.attrs["value"] * bo.qty
+    bo = bo.take(np.flatnonzero(bo.attrs["total_ohm"] >= 1e3))
+    bo = _dedupe(
+        bo,
+        (
+            "total_ohm",
+            "tolerance",
+            "power_w",
+            "derate_start_c",
+            "derate_end_c",
+            "limiting_voltage_v",
+        ),
+        k,
+    )
+    # rectifiers
+    rect: dict[str, _Options] = {}
+    bri = _idx(df, ["bridge"])
+    di = _idx(df, ["diode"])
+    b1 = _single_options(df, bri, "rectifier", mz, [1], "single")
+    d4 = _single_options(df, di, "rectifier", mz, [4], "bridge")
+    rect["bridge"] = _concat([b1, d4])
+    rect["half-wave"] = _single_options(df, di, "rectifier", mz, [1], "single")
+    for t in rect:
+        o = rect[t]
+        if len(o):
+            st, lim, _ = _rule("rectifier.vrrm").check(
+                {**s0, "max_rectifier_reverse_voltage_v": 0.0}, o.ns(), policy
+            )
+            rect[t] = o.take(np.flatnonzero(np.asarray(st <= lim)))
+    # topologies and the bus voltage the Zener must hold
+    tops = ("bridge", "half-wave") if req.topology == "any" else (req.topology,)
+    bus_need = req.vout_v + (req.regulator_dropout_v if req.regulator else 0.0)
+    # Zeners by effective voltage: one part, or two equal in series
+    zi = _idx(df, ["zener"])
+    zv = _col(df, "value")[zi]
+    zo: dict[float, _Options] = {}
+    if len(zi):
+        volts = np.unique(zv[~np.isnan(zv)])
+        if req.zener_v is not None:
+            vz0 = req.zener_v
+            if not np.any(np.isclose(volts, vz0, rtol=1e-3)):
+                raise BadValueError(
+                    f"--zener {vz0:g} V: no such Zener voltage in the catalogue; available: "
+                    + ", ".join(f"{v:g}" for v in volts)
+                )
+            vz0 = float(volts[np.argmin(abs(volts - vz0))])
+        else:
+            cand = volts[volts >= bus_need - 1e-9]
+            if len(cand) == 0:
+                raise InfeasibleError(
+                    f"no Zener of {bus_need:g} V or more in the catalogue",
+                    rule="zener.voltage",
+                    relaxation=f"a lower output voltage (largest Zener {volts.max():g} V)",
+                )
+            vz0 = float(cand[0])
+        sel1 = zi[np.isclose(zv, vz0, rtol=1e-3)]
+        zo[vz0] = _single_options(df, sel1, "zener", mz, [1], "single")
+        half = volts[(2 * volts >= vz0 - 1e-9) & (2 * volts <= vz0 * 1.05)]
+        if len(half):
+            vh = float(half[0])
+            selh = zi[np.isclose(zv, vh, rtol=1e-3)]
+            pairs = _single_options(df, selh, "zener", mz, [2], "series")
+            vz2 = round(2 * vh, 6)
+            if math.isclose(vz2, vz0, rel_tol=1e-3):
+                zo[vz0] = _concat([zo[vz0], pairs])
+            else:
+                zo[vz2] = pairs
+    # reservoirs: intrinsic temperature rule; the voltage rule per Zener group later
+    ci = _idx(df, ["electrolytic"])
+    co = _single_options(df, ci, "reservoir", mz, [1], "single")
+    if len(co):
+        st, lim, _ = _rule("reservoir.temperature").check(s0, co.ns(), policy)
+        co = co.take(np.flatnonzero(np.asarray(st <= lim)))
+    # fuses
+    fi = _idx(df, ["fuse"])
+    fo = _single_options(df, fi, "fuse", mz, [1], "single")
+    return _Setup(req, policy, df, xo, ro, bo, rect, zo, co, fo, tops, bus_need)
+
+
+def _concat(parts: Sequence[_Options]) -> _Options:
+    parts = [p for p in parts if len(p)] or list(parts[:1])
+    if len(parts) == 1:
+        return parts[0]
+    keys = set(parts[0].attrs)
+    return _Options(
+        parts[0].role,
+        sum((p.rows for p in parts), []),
+        np.concatenate([p.qty for p in parts]),
+        sum((p.arrangement for p in parts), []),
+        np.concatenate([p.key for p in parts]),
+        np.concatenate([p.price for p in parts]),
+        np.concatenate([p.area for p in parts]),
+        np.concatenate([p.count for p in parts]),
+        {k: np.concatenate([p.attrs[k] for p in parts]) for k in keys},
+    )
+
+
+def _rule(rule_id: str) -> R.Rule:
+    for r in R.RULES:
+        if r.id == rule_id:
+            return r
+    raise KeyError(rule_id)
+
+
+# ---------------------------------------------------------------------------------------------
+# the screen: closed forms (DOMAIN.md section 2) as bounds over grid arrays
+
+
+def _screen_bounds(
+    req: Requirement,
+    topology: str,
+    vz: float,
+    c_nom: np.ndarray,
+    c_tol: np.ndarray,
+    r_nom: np.ndarray,
+    r_tol: np.ndarray,
+    vf_lo: float,
+    vf_hi: float,
+) -> dict[str, np.ndarray]:
+    """Bounds of the exact worst-case figures, widened by SCREEN_SLACK.
+
+    Upper bound of the minimum DC current; lower bounds of every stress. Closed forms:
+    bridge I_dc = 4 f C (Vpk - Vo') / sqrt(1 + (w R C)^2); half-wave I = f C (2 Vpk - Vz - 2 Vf)
+    / sqrt(1 + (w R C)^2); switch-on peak Vpk / R, energy 0.5 C V^2, I^2t = V^2 C / (2 R);
+    RC discharge. Sources: DOMAIN.md section 2 (textbook RC circuits [S]).
+    """
+    m = req.mains
+    lo = SCREEN_SLACK
+    f_lo, f_hi = min(m.frequencies_hz), max(m.frequencies_hz)
+    vpk_lo, vpk_hi = _SQRT2 * m.low_v, _SQRT2 * m.high_v
+    ztol = 0.05
+    c_min = c_nom * (1 - c_tol) * (1 - req.cap_loss)
+    c_max = c_nom * (1 + c_tol)
+    r_min = r_nom * (1 - r_tol)
+    r_max = r_nom * (1 + r_tol)
+    vz_lo = vz * (1 - ztol)
+    w_lo, w_hi = 2 * math.pi * f_lo, 2 * math.pi * f_hi
+    if topology == "bridge":
+        vo_lo, vo_hi = vz_lo + 2 * vf_lo, vz * (1 + ztol) + 2 * vf_hi
+        i_ub = 4 * f_lo * c_min * (vpk_lo - vo_lo) / np.sqrt(1 + (w_lo * r_max * c_min) ** 2)
+        i_hi = 4 * f_hi * c_max * (vpk_hi - vo_hi) / np.sqrt(1 + (w_hi * r_min * c_max) ** 2)
+        pz = vz_lo * i_hi
+    else:
+        vo_lo, vo_hi = vz_lo + 0.0, vz * (1 + ztol) + 2 * vf_hi
+        i_ub = f_lo * c_min * (2 * vpk_lo - vz_lo) / np.sqrt(1 + (w_lo * r_max * c_min) ** 2)
+        i_hi = f_hi * c_max * (2 * vpk_hi - vo_hi) / np.sqrt(1 + (w_hi * r_min * c_max) ** 2)
+        pz = vz_lo * i_hi
+    i_ub = np.maximum(i_ub, 0.0) * (1 + lo)
+    lb = 1 - lo
+    fac = max(0.0, 1 - vo_hi / vpk_hi)
+    i_rms = m.high_v * w_hi * c_max / np.sqrt(1 + (w_hi * r_max * c_max) ** 2) * fac
+    v_on = max(vpk_hi - vo_hi, 0.0)
+    i_on = v_on / r_max
+    out = {
+        "min_dc_current_a": i_ub,
+        "max_zener_power_w": np.maximum(pz, 0) * lb,
+        "max_series_r_power_w": i_rms**2 * r_min * lb,
+        "max_line_current_rms_a": i_rms * lb,
+        "max_rectifier_avg_current_a": np.zeros_like(i_ub),
+        "max_reservoir_ripple_current_a": np.zeros_like(i_ub),
+        "inrush_peak_current_a": i_on * lb,
+        "inrush_rectifier_peak_current_a": i_on * lb,
+        "inrush_series_r_energy_j": 0.5 * c_min * v_on**2 * lb,
+        "inrush_i2t_a2s": v_on**2 * c_min / (2 * r_max) * lb,
+        "inrush_x_cap_dvdt_v_per_s": i_on / c_max * lb,
+        "surge_series_r_energy_j": np.zeros_like(i_ub),
+        "surge_series_r_peak_voltage_v": np.zeros_like(i_ub),
+        "surge_x_cap_dvdt_v_per_s": np.zeros_like(i_ub),
+        "series_resistance_ohm": r_min,
+        "c_max": c_max,
+        "c_min_nom": c_nom * (1 - c_tol),
+        "v_on": np.full_like(i_ub, v_on),
+        "i_hi": i_hi,
+    }
+    return out
+
+
+def _screen_rules_x_r(
+    s: dict[str, Any], xns: SimpleNamespace, rns: SimpleNamespace, pol: Policy
+) -> np.ndarray:
+    ok = np.ones(np.shape(s["min_dc_current_a"]), dtype=bool)
+    for rid in ("x_cap.dvdt_switch_on", "x_cap.dvdt_surge"):
+        st, lim, _ = _rule(rid).check(s, xns, pol)
+        ok &= ~(st > lim)  # NaN rating -> fails below
+        ok &= ~np.isnan(lim)
+    for rid in (
+        "series_r.power",
+        "series_r.switch_on_energy",
+        "series_r.surge_energy",
+        "series_r.peak_voltage",
+        "series_r.switch_on_voltage",
+        "series_r.surge_voltage",
+    ):
+        st, lim, _ = _rule(rid).check(s, rns, pol)
+        ok &= np.asarray(st <= lim)
+    st, lim, _ = _rule("whole.min_current").check(s, None, pol)
+    ok &= np.asarray(st <= lim)
+    return ok
+
+
+@dataclass
+class _Grid:
+    """Screened points: option indices and lower-bound keys (one entry per point)."""
+
+    topology: list[str] = field(default_factory=list)
+    vz: list[float] = field(default_factory=list)
+    x: list[np.ndarray] = field(default_factory=list)
+    r: list[np.ndarray] = field(default_factory=list)
+    key: list[np.ndarray] = field(default_factory=list)
+
+
+def _screen(setup: _Setup, progress: Callable[[int, int], None] | None) -> tuple[_Grid, dict]:
+    req, pol = setup.req, setup.policy
+    xo, ro = setup.xo, setup.ro
+    grid = _Grid()
+    stats: dict[str, Any] = {"points": 0, "passed": 0, "blocking": {}, "completion": {}}
+    s0 = _context_scalars(req)
+    avg_a, peak_a = _bus_demand(req)
+    nx, nr = len(xo), len(ro)
+    if nx == 0 or nr == 0:
+        return grid, stats
+    chunk = max(1, 400_000 // max(nr, 1))
+    groups = [(t, vz) for t in setup.topologies for vz in setup.zo]
+    total = len(groups) * ((nx + chunk - 1) // chunk)
+    done = 0
+    xtol = np.nan_to_num(xo.attrs["tolerance"], nan=0.2)
+    rtol = np.nan_to_num(ro.attrs["tolerance"], nan=0.05)
+    for topology, vz in groups:
+        rect = setup.rect.get(topology)
+        zo = setup.zo[vz]
+        if rect is None or len(rect) == 0 or len(zo) == 0:
+            continue
+        vf = rect.attrs["vf_v"]
+        vf_lo = float(np.nanmin(vf)) if np.any(~np.isnan(vf)) else 0.0
+        vf_hi = float(np.nanmax(vf)) if np.any(~np.isnan(vf)) else 0.0
+        bus_v = vz if topology == "bridge" else vz - vf_hi
+        if bus_v < setup.bus_need_v - 1e-9 and req.zener_v is None:
+            continue
+        # reservoir candidates for this bus (voltage rule at the Zener's upper tolerance)
+        co = setup.co
+        if len(co):
+            st, lim, _ = _rule("reservoir.voltage").check(
+                {"max_output_voltage_v": vz * 1.05 * (1 - SCREEN_SLACK)}, co.ns(), pol
+            )
+            co = co.take(np.flatnonzero(np.asarray(st <= lim)))
+        if len(co) == 0:
+            continue
+        cres_min = co.attrs["value"] * (1 - np.nan_to_num(co.attrs["tolerance"], nan=0.2))
+        # Zener capability: per-element derated power x fraction x number in series
+        zns = zo.ns()
+        zst, zlim, _ = _rule("zener.power").check(
+            {"max_zener_power_w": 0.0, "ambient_c": s0["ambient_c"]}, zns, pol
+        )
+        z_cap = np.asarray(zlim, dtype=float) * zo.qty
+        # bleeder windows are computed per point; the table is per group
+        bo = setup.bo
+        bns = bo.ns()
+        b_ok = np.ones(len(bo), dtype=bool)
+        vpk_hi = _SQRT2 * req.mains.high_v
+        vo_hi = (vz * 1.05 + 2 * vf_hi) if topology == "bridge" else vz * 1.05
+        v_cap = max(vpk_hi - vo_hi, 0.0) * (1 - SCREEN_SLACK)
+        rb_max_ohm = bo.attrs["total_ohm"] * (1 + np.nan_to_num(bo.attrs["tolerance"], nan=0.05))
+        rb_min_ohm = bo.attrs["total_ohm"] * (1 - np.nan_to_num(bo.attrs["tolerance"], nan=0.05))
+        pb = (v_cap / _SQRT2) ** 2 / rb_max_ohm
+        st, lim, _ = _rule("bleeder.power").check(
+            {"max_bleeder_power_w": pb, "ambient_c": s0["ambient_c"]}, bns, pol
+        )
+        b_ok &= np.asarray(st <= lim)
+        st, lim, _ = _rule("bleeder.voltage").check({"max_bleeder_voltage_v": v_cap}, bns, pol)
+        b_ok &= np.asarray(st <= lim)
+        b_table = _RangeMin(np.where(b_ok, rb_min_ohm, np.nan), bo.key)
+        pbleed_of = (v_cap / _SQRT2) ** 2  # / Rb gives a lower bound of the bleeder power
+        limit_v, allowed_s, tau_rule = _PROFILE_LIMITS[req.conditions.profile]
+        for x0 in range(0, nx, chunk):
+            xs = np.arange(x0, min(nx, x0 + chunk))
+            xg, rg = np.meshgrid(xs, np.arange(nr), indexing="ij")
+            xg, rg = xg.ravel(), rg.ravel()
+            r_tot = ro.attrs["value"][rg] * ro.qty[rg]
+            b = _screen_bounds(
+                req,
+                topology,
+                vz,
+                xo.attrs["value"][xg],
+                xtol[xg],
+                r_tot,
+                rtol[rg],
+                vf_lo,
+                vf_hi,
+            )
+            s = {**s0, **b, "load_a": avg_a}
+            ok = _screen_rules_x_r(s, xo.ns(xg), ro.ns(rg), pol)
+            stats["points"] += len(ok)
+            _count_block(stats, s, xo.ns(xg), ro.ns(rg), pol, ok)
+            ok_xr = ok.copy()
+            # Zener: cheapest with capability >= the power bound
+            zsel = _cheapest_at_least(z_cap, zo.key, b["max_zener_power_w"])
+            _tally(stats, "zener.power", ok_xr & (zsel < 0))
+            ok &= zsel >= 0
+            # rectifier: cheapest with IFSM >= the switch-on peak bound
+            rsel = _cheapest_at_least(
+                rect.attrs["ifsm_a"] * pol.rectifier_surge_fraction,
+                rect.key,
+                b["inrush_rectifier_peak_current_a"],
+            )
+            _tally(stats, "rectifier.ifsm", ok_xr & (rsel < 0))
+            ok &= rsel >= 0
+            # reservoir: burst hold-up needs C_min >= deficit t / droop
+            deficit = np.maximum(peak_a - b["min_dc_current_a"], 0.0)
+            need_c = deficit * req.burst_duration_s / (vz * pol.burst_droop_fraction)
+            csel = _cheapest_at_least(cres_min, co.key, need_c)
+            _tally(stats, "whole.burst_holdup", ok_xr & (csel < 0))
+            ok &= csel >= 0
+            # bleeder window: discharge (Rb <= hi) and standby power (Rb >= lo)
+            c_ex = b["c_min_nom"]
+            if tau_rule:
+                rb_hi = allowed_s / (c_ex * (1 - SCREEN_SLACK))
+            else:
+                rb_hi = allowed_s / (
+                    c_ex * math.log(max(v_cap / limit_v, 1.0 + 1e-12)) * (1 - SCREEN_SLACK)
+                )
+            if req.conditions.profile == "iec60335":
+                rb_hi = np.where(c_ex <= _EXEMPT_C, np.inf, rb_hi)
+            p_rest = b["max_zener_power_w"] + b["max_series_r_power_w"]
+            room = pol.standby_limit_w - p_rest
+            _tally(stats, "whole.standby_power", ok_xr & ~(room > 0))
+            ok &= room > 0
+            rb_lo = np.where(room > 0, pbleed_of / np.maximum(room, 1e-12), np.inf)
+            bsel = b_table.query(rb_lo, rb_hi)
+            _tally(stats, "bleeder.discharge", ok_xr & (room > 0) & (bsel < 0))
+            ok &= bsel >= 0
+            # fuse: fusible series resistor, or the cheapest fuse that passes both fuse rules
+            fus = ro.attrs["fusible_flag"][rg].astype(bool)
+            fkey, fok = _fuse_choice(setup.fo, ro, rg, b, s0, pol, fus)
+            _tally(stats, "fuse.opens_on_short", ok_xr & ~fok)
+            ok &= fok
+            key = (
+                xo.key[xg]
+                + ro.key[rg]
+                + np.where(zsel >= 0, zo.key[np.maximum(zsel, 0)], 0)
+                + np.where(rsel >= 0, rect.key[np.maximum(rsel, 0)], 0)
+                + np.where(csel >= 0, co.key[np.maximum(csel, 0)], 0)
+                + np.where(bsel >= 0, setup.bo.key[np.maximum(bsel, 0)], 0)
+                + fkey
+            )
+            sel = np.flatnonzero(ok)
+            stats["passed"] += len(sel)
+            if len(sel):
+                grid.topology.append(topology)
+                grid.vz.append(vz)
+                grid.x.append(xg[sel])
+                grid.r.append(rg[sel])
+                grid.key.append(key[sel])
+            done += 1
+            if progress:
+                progress(done, total)
+    return grid, stats
+
+
+def _tally(stats: dict, rule_id: str, bad: np.ndarray) -> None:
+    n = int(np.sum(bad))
+    if n:
+        d = stats["completion"].setdefault(rule_id, 0)
+        stats["completion"][rule_id] = d + n
+
+
+def _fuse_choice(fo, ro, rg, b, s0, pol, fusible):
+    n = len(rg)
+    fkey = np.zeros(n, dtype=np.int64)
+    fok = fusible.copy()
+    # fusible resistor: fault power rule on the resistor itself
+    if np.any(fusible):
+        rns = ro.ns(rg)
+        st, lim, _ = _rule("fuse.fusible_opens_on_short").check(
+            {**s0, "series_resistance_ohm": b["series_resistance_ohm"] * 1.0}, rns, pol
+        )
+        fok &= np.asarray(st <= lim) | ~fusible
+    if len(fo):
+        fns = fo.ns()
+        i2t_cap = fns.i2t_a2s * pol.fuse_i2t_fraction
+        need_fault = fns.value * pol.fuse_fault_factor
+        fault = s0["mains_min_v"] / np.maximum(b["series_resistance_ohm"], 1e-3)
+        # fault current upper bound: R at its low tolerance -> series_resistance_ohm = r_min
+        best = np.full(n, -1, dtype=np.int64)
+        bestkey = np.full(n, np.iinfo(np.int64).max, dtype=np.int64)
+        order = np.argsort(fo.key)
+        for j in order:  # fuses are few; loop over fuse options, vectorised over the grid
+            okj = (b["inrush_i2t_a2s"] <= i2t_cap[j]) & (need_fault[j] <= fault)
+            upd = okj & (best < 0)
+            best[upd] = j
+            bestkey[upd] = fo.key[j]
+        use = ~fusible & (best >= 0)
+        fkey = np.where(use, bestkey, 0)
+        fok = fok | use
+    return fkey, fok
+
+
+def _count_block(stats, s, xns, rns, pol, ok_all):
+    """Tally, per rule, the grid points where it alone is the first failing rule."""
+    blk = stats["blocking"]
+    for rid in (
+        "whole.min_current",
+        "series_r.power",
+        "series_r.switch_on_energy",
+        "series_r.switch_on_voltage",
+        "x_cap.dvdt_switch_on",
+    ):
+        r = _rule(rid)
+        p = None if r.role == "whole" else (xns if r.role == "x_capacitor" else rns)
+        st, lim, m = r.check(s, p, pol)
+        bad = ~np.asarray(st <= lim)
+        if np.any(bad):
+            d = blk.setdefault(rid, {"count": 0, "best_ratio": 0.0})
+            d["count"] += int(np.sum(bad))
+            with np.errstate(divide="ignore", invalid="ignore"):
+                ratio = np.nanmax(np.where(bad, lim / st, np.nan)) if np.any(bad) else 0.0
+            d["best_ratio"] = max(d["best_ratio"], float(ratio))
+
+
+# ---------------------------------------------------------------------------------------------
+# verification with the engine
+
+
+def _row(setup: _Setup, i: int) -> pd.Series:
+    return setup.df.iloc[i]
+
+
+def _rated(setup: _Setup, opts: _Options, i: int, role: str) -> R.RatedPart:
+    rows = opts.rows[i]
+    arr = opts.arrangement[i]
+    if arr == "bridge":
+        arr = "single"  # four discrete diodes as a bridge: each diode sees the full stress
+    return R.rated_part_from_row(
+        _row(setup, rows[0]).to_dict(), role, qty=len(rows), arrangement=arr
+    )
+
+
+def _x_rated(setup: _Setup, i: int) -> list[R.RatedPart]:
+    rows = setup.xo.rows[i]
+    if len(rows) == 1:
+        return [R.rated_part_from_row(_row(setup, rows[0]).to_dict(), "x_capacitor")]
+    if rows[0] == rows[1]:
+        return [
+            R.rated_part_from_row(
+                _row(setup, rows[0]).to_dict(), "x_capacitor", qty=2, arrangement="parallel"
+            )
+        ]
+    return [R.rated_part_from_row(_row(setup, r).to_dict(), "x_capacitor") for r in rows]
+
+
+def _engine():
+    from . import engine as E
+
+    return E
+
+
+def _circuit_for(setup, topology, vz, xi, ri, zi, di, ci, bi):
+    E = _engine()
+    req = setup.req
+    df = setup.df
+    xrows = setup.xo.rows[xi]
+    caps = tuple(float(df.at[r, "value"]) for r in xrows)
+    rr = setup.ro.rows[ri]
+    r_tot = float(sum(float(df.at[r, "value"]) for r in rr))
+    rect = setup.rect[topology]
+    drow = df.iloc[rect.rows[di][0]]
+    zo = setup.zo[vz]
+    zrows = zo.rows[zi]
+    zrow = df.iloc[zrows[0]]
+    z_v = float(sum(float(df.at[r, "value"]) for r in zrows))
+    zz = _nz(zrow.get("zz_ohm"), 0.0) * len(zrows)
+    crow = df.iloc[setup.co.rows[ci][0]]
+    brows = setup.bo.rows[bi]
+    rb = float(sum(float(df.at[r, "value"]) for r in brows))
+    vf = _nz(drow.get("vf_v"), 0.8)
+    rs = _nz(drow.get("rs_ohm"), 0.1)
+    if drow.get("kind") == "bridge":
+        pass  # a bridge part's vf is per diode (DEVELOPERS.md)
+    load = E.Load(
+        current_a=req.load_a,
+        burst_current_a=req.burst_current_a,
+        burst_duration_s=req.burst_duration_s,
+        burst_period_s=req.burst_period_s,
+    )
+    reg = None
+    if req.regulator:
+        reg = E.Regulator(
+            output_v=req.vout_v,
+            dropout_v=req.regulator_dropout_v,
+            quiescent_a=req.regulator_quiescent_a,
+        )
+    circ = E.Circuit(
+        topology=topology,
+        x_capacitors_f=caps,
+        series_resistance_ohm=r_tot,
+        bleeder_resistance_ohm=rb,
+        diode_drop_v=vf,
+        diode_resistance_ohm=rs,
+        zener_voltage_v=z_v,
+        zener_impedance_ohm=zz,
+        reservoir_f=float(crow["value"]),
+        load=load,
+        regulator=reg,
+    )
+    xt = [_nz(df.at[r, "tolerance"], 0.2) for r in xrows]
+    cap_tol = float(sum(c * t for c, t in zip(caps, xt, strict=True)) / sum(caps))
+    tol = E.Tolerances(
+        cap_tol=cap_tol,
+        cap_loss=req.cap_loss,
+        r_tol=max(_nz(df.at[r, "tolerance"], 0.05) for r in rr + brows),
+        zener_tol=_nz(zrow.get("tolerance"), 0.05),
+    )
+    return circ, tol
+
+
+def _nz(v: Any, default: float) -> float:
+    try:
+        f = float(v)
+    except (TypeError, ValueError):
+        return default
+    return default if math.isnan(f) else f
+
+
+def _context_for(setup, circ, vz, ci, r_tol=0.0):
+    req = setup.req
+    avg_a, peak_a = _bus_demand(req)
+    crow = setup.df.iloc[setup.co.rows[ci][0]]
+    ctx = {
+        **_context_scalars(req),
+        "load_a": avg_a,
+        # fault current with a shorted X capacitor: series resistance at its upper tolerance
+        "series_resistance_ohm": circ.series_resistance_ohm * (1 + r_tol),
+        "zener_voltage_v": vz,
+        "reservoir_min_f": float(crow["value"]) * (1 - _nz(crow.get("tolerance"), 0.2)),
+    }
+    if req.burst_current_a > 0:
+        ctx["burst_current_a"] = peak_a
+        ctx["burst_duration_s"] = req.burst_duration_s
+    return ctx
+
+
+def _verify(setup, topology, vz, xi, ri, scr):
+    """Analyse one grid point exactly; re-choose its completion; evaluate every rule.
+
+    Returns (key, parts indices, analysis, findings) or None when no completion passes.
+    """
+    E = _engine()
+    pol = setup.policy
+    req = setup.req
+    zo, rect, co, bo, fo = setup.zo[vz], setup.rect[topology], setup.co, setup.bo, setup.fo
+    zi, di, ci, bi = scr
+    for _ in range(4):
+        circ, tol = _circuit_for(setup, topology, vz, xi, ri, zi, di, ci, bi)
+        an = E.analyse(circ, req.mains, tol, req.conditions)
+        ctx = _context_for(setup, circ, vz, ci, float(setup.ro.attrs["tolerance"][ri]))
+        s, corners = R.stresses_from_analysis(an, ctx)
+        new = (
+            _best_passing(setup, zo, "zener", s),
+            _best_passing(setup, rect, "rectifier", s),
+            _best_passing(setup, co, "reservoir", {**s, "reservoir_min_f": 0.0}),
+            _best_passing(setup, bo, "bleeder", s),
+        )
+        if any(v < 0 for v in new):
+            return None
+        if new == (zi, di, ci, bi):
+            break
+        zi, di, ci, bi = new
+    else:
+        return None
+    parts = _parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, None)
+    fsel = None
+    if not bool(setup.ro.attrs["fusible_flag"][ri]):
+        fsel = _best_fuse(setup, s, parts)
+        if fsel is None:
+            return None
+        parts = _parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, fsel)
+    findings = R.evaluate(parts, an, pol, context=ctx)
+    if any(f.severity != "pass" for f in findings):
+        return None
+    key = (
+        setup.xo.key[xi]
+        + setup.ro.key[ri]
+        + zo.key[zi]
+        + rect.key[di]
+        + co.key[ci]
+        + bo.key[bi]
+        + (fo.key[fsel] if fsel is not None else 0)
+    )
+    return int(key), (topology, vz, xi, ri, zi, di, ci, bi, fsel), an, findings, circ, parts
+
+
+def _best_passing(setup, opts: _Options, role: str, s: dict[str, Any]) -> int:
+    """Cheapest option of ``opts`` that passes every rule of ``role`` under stresses ``s``."""
+    if len(opts) == 0:
+        return -1
+    ns = opts.ns()
+    ok = np.ones(len(opts), dtype=bool)
+    for rule in R.rules_for(role):
+        if rule.role == "whole" or rule.applies is not None:
+            continue
+        if any(_missing(s.get(k)) for k in rule.stress_keys):
+            continue  # the exact evaluate() turns this into a warn and rejects the design
+        st, lim, _ = rule.check(s, ns, setup.policy)
+        ok &= np.asarray(st <= lim)
+    if role == "reservoir" and s.get("burst_current_a"):
+        deficit = max(s["burst_current_a"] - s["min_dc_current_a"], 0.0)
+        cmin = opts.attrs["value"] * (1 - np.nan_to_num(opts.attrs["tolerance"], nan=0.2))
+        ok &= cmin >= deficit * s["burst_duration_s"] / (
+            s["zener_voltage_v"] * setup.policy.burst_droop_fraction
+        )
+    idx = np.flatnonzero(ok)
+    if len(idx) == 0:
+        return -1
+    return int(idx[np.argmin(opts.key[idx])])
+
+
+def _missing(v: Any) -> bool:
+    return v is None or (isinstance(v, float) and math.isnan(v))
+
+
+def _best_fuse(setup, s, parts) -> int | None:
+    fo = setup.fo
+    if len(fo) == 0:
+        return None
+    for j in np.argsort(fo.key):
+        p = _rated(setup, fo, int(j), "fuse")
+        ok = True
+        for rule in R.rules_for("fuse"):
+            if rule.applies is not None and not rule.applies(s, p):
+                continue
+            st, lim, _ = rule.check(s, p, setup.policy)
+            if not st <= lim:
+                ok = False
+                break
+        if ok:
+            return int(j)
+    return None
+
+
+def _parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, fi):
+    out: dict[str, Any] = {
+        "x_capacitor": _x_rated(setup, xi),
+        "series_resistor": _rated(setup, setup.ro, ri, "series_resistor"),
+        "zener": _rated(setup, setup.zo[vz], zi, "zener"),
+        "rectifier": _rated(setup, setup.rect[topology], di, "rectifier"),
+        "reservoir": _rated(setup, setup.co, ci, "reservoir"),
+        "bleeder": _rated(setup, setup.bo, bi, "bleeder"),
+    }
+    if fi is not None:
+        out["fuse"] = _rated(setup, setup.fo, fi, "fuse")
+    elif bool(setup.ro.attrs["fusible_flag"][ri]):
+        sr = out["series_resistor"]
+        out["fuse"] = dataclasses.replace(sr, role="fuse")
+    return out
+
+
+def _screen_completion(setup, topology, vz, xi, ri):
+    """The completion the screen would pick for one point (a starting guess for _verify)."""
+    req, pol = setup.req, setup.policy
+    rect, zo, co, bo = setup.rect[topology], setup.zo[vz], setup.co, setup.bo
+    di = int(np.argmin(rect.key))
+    zi = int(np.argmin(zo.key))
+    ci = int(np.argmin(co.key))
+    bi = int(np.argmin(bo.key))
+    del req, pol
+    return zi, di, ci, bi
+
+
+def design(
+    frame: pd.DataFrame,
+    req: Requirement,
+    policy: Policy | None = None,
+    progress: Callable[[int, int], None] | None = None,
+    max_verify: int = 400,
+) -> list[Design]:
+    """The ``req.top`` best compliant designs over the catalogue ``frame`` (parts_frame).
+
+    Raises InfeasibleError naming the blocking rule and the smallest relaxation.
+    """
+    pol = policy or Policy()
+    setup = _prepare(frame, req, pol)
+    _precheck(setup)
+    grid, stats = _screen(setup, progress)
+    if not grid.key:
+        raise _infeasible(setup, stats)
+    keys = np.concatenate(grid.key)
+    gid = np.concatenate([np.full(len(k), i) for i, k in enumerate(grid.key)])
+    xs = np.concatenate(grid.x)
+    rs = np.concatenate(grid.r)
+    order = np.argsort(keys, kind="stable")
+    found: list[tuple[int, Any]] = []
+    verified = 0
+    for pos in order:
+        lb = keys[pos]
+        done = sorted(found, key=lambda t: t[0])
+        if len(done) >= req.top and done[req.top - 1][0] <= lb:
+            break
+        if verified >= max_verify:
+            break
+        g = int(gid[pos])
+        topology, vz = grid.topology[g], grid.vz[g]
+        xi, ri = int(xs[pos]), int(rs[pos])
+        guess = _screen_completion(setup, topology, vz, xi, ri)
+        verified += 1
+        res = _verify(setup, topology, vz, xi, ri, guess)
+        if res is not None:
+            found.append((res[0], res))
+    found.sort(key=lambda t: t[0])
+    if not found:
+        raise _infeasible(setup, stats, verified=verified)
+    return [_to_design(setup, rank + 1, res) for rank, (_, res) in enumerate(found[: req.top])]
+
+
+def _precheck(setup: _Setup) -> None:
+    """Fast infeasibility: no option at all for a role, or not enough capacitance anywhere."""
+    req = setup.req
+    for role, opts in (
+        ("x_capacitor", setup.xo),
+        ("series_resistor", setup.ro),
+        ("bleeder", setup.bo),
+        ("reservoir", setup.co),
+    ):
+        if len(opts) == 0:
+            raise InfeasibleError(
+                f"no catalogue part can serve as {role} under the filters and rules",
+                rule=f"{role}.*",
+                relaxation="fewer filters (--smd-only/--tht-only/--exclude/--stock-only)",
+            )
+    if not setup.zo:
+        raise InfeasibleError(
+            "no Zener in the catalogue", rule="zener.power", relaxation="a catalogue with Zeners"
+        )
+    avg_a, _ = _bus_demand(req)
+    need = avg_a * (1 + setup.policy.load_margin)
+    best = 0.0
+    best_top = ""
+    for t in setup.topologies:
+        vz = min(setup.zo)
+        b = _screen_bounds(
+            req,
+            t,
+            vz,
+            setup.xo.attrs["value"],
+            np.zeros(len(setup.xo)),
+            np.full(len(setup.xo), 1.0),
+            np.zeros(len(setup.xo)),
+            0.0,
+            0.0,
+        )
+        i = float(np.max(b["min_dc_current_a"]))
+        if i > best:
+            best, best_top = i, t
+    if best < need:
+        cmax = float(np.max(setup.xo.attrs["value"]))
+        m = req.mains
+        vpk = _SQRT2 * m.low_v
+        f = min(m.frequencies_hz)
+        c_need = need / (4 * f * (vpk - min(setup.zo))) / (1 - req.cap_loss) / 0.8
+        relax = [
+            f"X capacitance of about {c_need * 1e6:.3g} uF, more than any catalogue pair "
+            f"({cmax * 1e6:.3g} uF)",
+            f"a load of at most {best / (1 + setup.policy.load_margin) * 1e3:.3g} mA",
+        ]
+        if "half-wave" in setup.topologies and "bridge" not in setup.topologies:
+            relax.append("bridge instead of half-wave (twice the current)")
+        if len(m.frequencies_hz) > 1:
+            relax.append(f"a single mains frequency of {max(m.frequencies_hz):g} Hz")
+        raise InfeasibleError(
+            f"blocked by rule whole.min_current: the best catalogue set gives about "
+            f"{best * 1e3:.3g} mA ({best_top}) against {need * 1e3:.3g} mA needed; relax: "
+            + "; or ".join(relax),
+            rule="whole.min_current",
+            relaxation=relax[0],
+        )
+
+
+_HINTS: Final[dict[str, str]] = {
+    "whole.min_current": "more X capacitance, a lower load, bridge instead of half-wave, "
+    "or a single mains frequency",
+    "series_r.power": "a higher-power series resistor family or a lower ambient",
+    "series_r.switch_on_energy": "a pulse-rated series resistor family (metal oxide, wirewound)",
+    "series_r.switch_on_voltage": "a series resistor family with a higher limiting voltage",
+    "x_cap.dvdt_switch_on": "a larger series resistance or an X capacitor with a higher dV/dt",
+    "zener.power": "a higher Zener power class (or two Zeners in series), a lower ambient, "
+    "or a single mains frequency",
+    "rectifier.ifsm": "a rectifier with a higher IFSM or a larger series resistance",
+    "whole.burst_holdup": "a larger reservoir, a shorter burst, or a lower burst current",
+    "whole.standby_power": "a lower load (less X capacitance) or a lower Zener voltage",
+    "bleeder.discharge": "a bleeder family rated for more power/voltage (split in 3), or "
+    "less X capacitance",
+    "fuse.opens_on_short": "a slower fuse (more I^2t) or a fusible series resistor",
+}
+
+
+def _infeasible(setup: _Setup, stats: dict, verified: int = 0) -> InfeasibleError:
+    """The blocking rule: among points that pass the X/R rules, the completion rule that fails
+    most often; otherwise the X/R rule that fails most often, with how far it misses."""
+    comp = stats.get("completion", {})
+    blk = stats.get("blocking", {})
+    if verified:
+        return InfeasibleError(
+            f"no design passes every rule at every corner: the {verified} candidates the screen "
+            "let through all fail the exact check; relax: a lower surge level or a looser "
+            "--policy",
+            rule="(exact check)",
+            relaxation="a lower surge level or a looser policy",
+        )
+    if comp:
+        rid = max(comp.items(), key=lambda kv: kv[1])[0]
+        return InfeasibleError(
+            f"blocked by rule {rid}: no catalogue part completes any otherwise feasible set; "
+            f"relax: {_HINTS.get(rid, 'a looser policy')}",
+            rule=rid,
+            relaxation=_HINTS.get(rid),
+        )
+    if not blk:
+        return InfeasibleError(
+            "no part set passes the rules", rule="(unknown)", relaxation="a looser policy"
+        )
+    rid, d = max(blk.items(), key=lambda kv: kv[1]["count"])
+    miss = 1.0 / max(d["best_ratio"], 1e-12) - 1.0
+    return InfeasibleError(
+        f"blocked by rule {rid}: the closest candidate misses its limit by {miss:.0%}; relax: "
+        f"{_HINTS.get(rid, 'a looser policy')}",
+        rule=rid,
+        relaxation=_HINTS.get(rid),
+    )
+
+
+# ---------------------------------------------------------------------------------------------
+# result
+
+
+_RATING_KEYS: Final[dict[str, tuple[str, ...]]] = {
+    "x_capacitor": ("safety_class", "rated_voltage_ac_v", "dvdt_v_per_s", "impulse_v"),
+    "series_resistor": ("power_w", "limiting_voltage_v", "pulse_energy_j", "fusible"),
+    "bleeder": ("power_w", "limiting_voltage_v"),
+    "rectifier": ("vrrm_v", "if_av_a", "ifsm_a", "vf_v"),
+    "zener": ("power_w", "tj_max_c", "zz_ohm"),
+    "reservoir": ("rated_voltage_v", "ripple_a", "temp_max_c"),
+    "fuse": ("i2t_a2s", "rated_voltage_ac_v"),
+}
+
+
+def _dpart(setup, role, rows, arrangement) -> DesignPart:
+    row = setup.df.iloc[rows[0]]
+    qty = len(rows)
+    price = _nz(row.get("unit_price"), 0.0)
+    ratings = {}
+    for k in _RATING_KEYS[role]:
+        v = row.get(k)
+        if v is not None and not (isinstance(v, float) and math.isnan(v)):
+            ratings[k] = v.item() if hasattr(v, "item") else v
+    ratings["tolerance"] = _nz(row.get("tolerance"), float("nan"))
+    return DesignPart(
+        role=role,
+        code=str(row["code"]),
+        kind=str(row["kind"]),
+        family=str(row.get("family", "")),
+        description=str(row.get("description", "") or ""),
+        value=float(row["value"]),
+        qty=qty,
+        arrangement=arrangement,
+        unit_price=price,
+        line_price=price * qty,
+        area_mm2=_nz(row.get("area_mm2"), 0.0) * qty,
+        mount=row.get("mount"),
+        package=row.get("package"),
+        price_note=row.get("price_note"),
+        ratings=ratings,
+    )
+
+
+def _to_design(setup: _Setup, rank: int, res) -> Design:
+    key, sel, an, findings, circ, rparts = res
+    topology, vz, xi, ri, zi, di, ci, bi, fi = sel
+    parts: list[DesignPart] = []
+    xrows = setup.xo.rows[xi]
+    if len(xrows) == 2 and xrows[0] != xrows[1]:
+        parts += [_dpart(setup, "x_capacitor", (r,), "parallel") for r in xrows]
+    else:
+        parts.append(
+            _dpart(setup, "x_capacitor", xrows, "parallel" if len(xrows) > 1 else "single")
+        )
+    for role, opts, i in (
+        ("series_resistor", setup.ro, ri),
+        ("bleeder", setup.bo, bi),
+        ("rectifier", setup.rect[topology], di),
+        ("zener", setup.zo[vz], zi),
+        ("reservoir", setup.co, ci),
+    ):
+        arr = opts.arrangement[i]
+        parts.append(_dpart(setup, role, opts.rows[i], arr))
+    if fi is not None:
+        parts.append(_dpart(setup, "fuse", setup.fo.rows[fi], "single"))
+    total_price = float(sum(p.line_price for p in parts))
+    total_area = float(sum(p.area_mm2 for p in parts))
+    count = int(sum(p.qty for p in parts))
+    binding = _binding(findings)
+    zrow = setup.df.iloc[setup.zo[vz].rows[zi][0]]
+    effective = {
+        "x_capacitance_f": float(circ.x_capacitance_f),
+        "series_resistance_ohm": float(circ.series_resistance_ohm),
+        "bleeder_resistance_ohm": float(circ.bleeder_resistance_ohm),
+        "zener_voltage_v": float(circ.zener_voltage_v),
+        "zener_power_rating_w": _nz(zrow.get("power_w"), float("nan")) * setup.zo[vz].qty[zi],
+        "reservoir_f": float(circ.reservoir_f),
+    }
+    rp = {k: (v if isinstance(v, list) else [v]) for k, v in rparts.items()}
+    return Design(
+        rank=rank,
+        topology=topology,
+        total_price=total_price,
+        total_area_mm2=total_area,
+        part_count=count,
+        parts=parts,
+        effective=effective,
+        worst_case=getattr(an, "worst_case", None),
+        analysis=an,
+        checks=findings,
+        binding=binding,
+        circuit=circ,
+        rated_parts=rp,
+    )
+
+
+def _binding(findings: Sequence[R.Finding], n: int = 3) -> list[str]:
+    """The rules with the smallest margins (the ones that decide the design)."""
+    ms = [f for f in findings if f.margin is not None]
+    ms.sort(key=lambda f: f.margin)
+    return [f.rule for f in ms[:n]]
