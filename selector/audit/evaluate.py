@@ -85,6 +85,15 @@ _WORD_TERMS: Final[dict[str, tuple[str, ...]]] = {
     "fusible": ("fusible",),
     "glass": ("glass", "do-35", "do35"),
 }
+#: a stated rating that some row of the family also has: (column, points)
+_STATED_MATCH: Final[tuple[tuple[str, float], ...]] = (
+    ("power_w", 1.0),
+    ("rated_voltage_v", 1.0),
+    ("rated_voltage_ac_v", 1.0),
+    ("vrrm_v", 1.0),
+    ("ifsm_a", 1.0),
+    ("temp_max_c", 2.0),
+)
 _PACKAGE_TERMS: Final[dict[str, tuple[str, ...]]] = {
     "melf_0207": ("0207", "melf"),
     "melf_0204": ("0204", "minimelf"),
@@ -232,7 +241,7 @@ def fill_from_catalogue(ratings: Ratings, fields: Sequence[str], frame: Any) -> 
     ``frame`` is a ``selector.catalogue.parts_frame`` DataFrame (columns per DEVELOPERS.md).
     Families of the part's kind are scored on package (4), class words (3 each), safety class
     (3), the part's value inside the family's range (2) and its stated power or voltage among
-    the family's rows (1 each); the best family scoring >= 3 wins (ties: first in the
+    the family's rows (1 each; temperature class 2); the best family scoring >= 3 wins (ties: first in the
     catalogue). Within it, rows of the same package (and value, when present) are kept and each
     missing rating takes the family's most conservative figure (lowest rating, highest
     tolerance). Returns the family's name, or None when nothing matched (the ratings stay
@@ -274,9 +283,11 @@ def fill_from_catalogue(ratings: Ratings, fields: Sequence[str], frame: Any) -> 
         if ratings.value is not None and "value" in sub:
             if sub["value"].min() * 0.999 <= ratings.value <= sub["value"].max() * 1.001:
                 score += 2
-        if ratings.power_w is not None and "power_w" in sub:
-            if (abs(sub["power_w"] - ratings.power_w) < 1e-9).any():
-                score += 1
+        for col, points in _STATED_MATCH:
+            mine = getattr(ratings, col, None)
+            if mine is not None and col in sub:
+                if ((sub[col] - mine).abs() <= 1e-9 * max(abs(mine), 1.0)).any():
+                    score += points
         if best is None or score > best[0]:
             best = (score, str(family))
     if best is None or best[0] < 3:
