@@ -240,10 +240,10 @@ def fill_from_catalogue(ratings: Ratings, fields: Sequence[str], frame: Any) -> 
 
     ``frame`` is a ``selector.catalogue.parts_frame`` DataFrame (columns per DEVELOPERS.md).
     Families of the part's kind are scored on package (4), class words (3 each), safety class
-    (3), the part's value inside the family's range (2) and its stated power or voltage among
-    the family's rows (1 each; temperature class 2); the best family scoring >= 3 wins (ties: first in the
-    catalogue). Within it, rows of the same package (and value, when present) are kept and each
-    missing rating takes the family's most conservative figure (lowest rating, highest
+    (3), the part's value inside the family's range (2) and its stated ratings among the
+    family's rows (1 each; temperature class 2); the best family scoring >= 3 wins (ties: first
+    in the catalogue). Within it, rows of the same package (and value, when present) are kept
+    and each missing rating takes the family's most conservative figure (lowest rating, highest
     tolerance). Returns the family's name, or None when nothing matched (the ratings stay
     unknown, and the rules will warn). Records each filled field in ``ratings.assumed``.
     """
