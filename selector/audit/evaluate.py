@@ -71,6 +71,9 @@ _FILL_LOW: Final[tuple[str, ...]] = (
     "derate_start_c",
     "derate_end_c",
 )
+#: reservoir tolerance when the BOM states none (aluminium electrolytics are commonly +/-20 %,
+#: common practice, no source; the design solver uses the same default)
+_RESERVOIR_TOL: Final[float] = 0.2
 _FILL_HIGH: Final[tuple[str, ...]] = ("tolerance",)
 
 #: search words for a family, from what the line says
@@ -666,21 +669,34 @@ def _audit_board(table: BomTable, rm: RoleMap, **kw: Any) -> BoardAudit:
         parts_by_role["bleeder"] = [RatedPart(role="bleeder", ref=None, description="none fitted")]
         placeholder_bleeder = True
         notes.append("no bleeder fitted (no resistor >= 100 kohm); the discharge rule decides")
-    context = {
-        "ambient_c": kw["conditions"].ambient_c,
-        "mains_max_v": kw["mains"].high_v,
-        "mains_min_v": kw["mains"].low_v,
-        "load_a": kw["load"].current_a,
-        "series_resistance_ohm": series_r,
-        "burst_current_a": kw["load"].burst_current_a,
-        "burst_duration_s": kw["load"].burst_duration_s,
-        "reservoir_min_f": res * 0.8,
-        "zener_voltage_v": vz,
-    }
-    # the engine's own figures win where it gives them
-    raw = kw["rules_evaluate"](
-        parts_by_role, analysis, kw["policy"], context=_missing_only(analysis, context)
+    # the same context keys, computed the same way, as the design solver passes
+    load = kw["load"]
+    res_tol = max(
+        (a.ratings.tolerance for a in by_role["reservoir"] if a.ratings.tolerance is not None),
+        default=_RESERVOIR_TOL,
     )
+    avg_a = load.current_a + (kw["regulator"].quiescent_a if kw["regulator"] else 0.0)
+    if load.burst_current_a > 0 and load.burst_period_s > 0:
+        avg_a += load.burst_current_a * load.burst_duration_s / load.burst_period_s
+    context = {
+        "mains_max_v": float(kw["mains"].high_v),
+        "mains_min_v": float(kw["mains"].low_v),
+        "ambient_c": float(kw["conditions"].ambient_c),
+        "surge_level_v": float(kw["conditions"].surge_v),
+        "load_a": avg_a,
+        # fault current with a shorted X capacitor: series resistance at its upper tolerance
+        "series_resistance_ohm": series_r * (1 + tol.r_tol),
+        "zener_voltage_v": vz,
+        "reservoir_min_f": res * (1 - res_tol),
+    }
+    if load.burst_current_a > 0:
+        context["burst_current_a"] = (
+            load.burst_current_a
+            + avg_a
+            - (load.burst_current_a * load.burst_duration_s / load.burst_period_s)
+        )
+        context["burst_duration_s"] = load.burst_duration_s
+    raw = kw["rules_evaluate"](parts_by_role, analysis, kw["policy"], context=context)
     findings: list[AuditFinding] = []
     for f in raw:
         if placeholder_bleeder and f.part == "bleeder" and f.rule != "bleeder.discharge":
@@ -725,11 +741,3 @@ def _audit_board(table: BomTable, rm: RoleMap, **kw: Any) -> BoardAudit:
             )
         )
     return BoardAudit(board, rm, circuit, findings, assumed=assumed, notes=notes)
-
-
-def _missing_only(analysis: Any, context: Mapping[str, Any]) -> dict[str, Any]:
-    """Context keys the analysis does not already carry (its figures take precedence)."""
-    from ..rules import stresses_from_analysis
-
-    have, _ = stresses_from_analysis(analysis)
-    return {k: v for k, v in context.items() if have.get(k) is None}
