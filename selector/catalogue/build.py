@@ -730,7 +730,7 @@ def _expand_resistor(ctx: _Context, fam: Family) -> list[dict]:
                     body_mm=f"{size.body_l_mm:g}x{size.body_w_mm:g}",
                     area_mm2=area,
                     unit_price=price,
-                    rated_voltage_v=round(u, 3),
+                    rated_voltage_v=float(u),
                     limiting_voltage_v=size.lev_v,
                     power_w=size.power_w,
                     derate_start_c=size.derate_start_c,
