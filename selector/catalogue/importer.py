@@ -597,8 +597,50 @@ def _price_at(breaks: Sequence[tuple[int, float]], qty: int) -> float:
     return applicable[-1] if applicable else ordered[0][1]
 
 
+@dataclass
+class _Lookup:
+    """Per-import caches: the families, each family's built-in parts, recognised texts and
+    templates (a few thousand rows need few database queries)."""
+
+    session: Session
+    families: Sequence[FamilyInfo]
+    parts: dict[str, list[Mapping[str, Any]]] = field(default_factory=dict)
+    recognised: dict[str, FamilyInfo | BadValueError] = field(default_factory=dict)
+    templates: dict[tuple[Any, ...], dict[str, Any]] = field(default_factory=dict)
+    grouped: dict[str, dict[str, list[Mapping[str, Any]]]] = field(default_factory=dict)
+
+    def family(self, text: str) -> FamilyInfo:
+        got = self.recognised.get(text)
+        if got is None:
+            try:
+                got = recognise_family(text, self.families)
+            except BadValueError as exc:
+                got = exc
+            self.recognised[text] = got
+        if isinstance(got, BadValueError):
+            raise got
+        return got
+
+    def family_parts(self, family: FamilyInfo) -> list[Mapping[str, Any]]:
+        if family.name not in self.parts:
+            t = Part.__table__
+            stmt = select(t).where(t.c.source == "builtin", t.c.family == family.name)
+            self.parts[family.name] = list(self.session.execute(stmt).mappings().all())
+        return self.parts[family.name]
+
+    def by_package(self, family: FamilyInfo) -> dict[str, list[Mapping[str, Any]]]:
+        key = f"{family.name}\0package"
+        if key not in self.grouped:
+            groups: dict[str, list[Mapping[str, Any]]] = {}
+            for p in self.family_parts(family):
+                if p["package"]:
+                    groups.setdefault(_norm(p["package"]), []).append(p)
+            self.grouped[key] = groups
+        return self.grouped[key]
+
+
 def _template(
-    session: Session,
+    lookup: _Lookup,
     family: FamilyInfo,
     value: float,
     package: str | None,
@@ -608,32 +650,34 @@ def _template(
     """Ratings of the built-in part of ``family`` most like the row: same package if any, then
     same power rating if any, then a voltage rating >= the row's, then nearest in value (log)
     and in voltage."""
-    stmt = select(Part).where(Part.source == "builtin", Part.family == family.name)
-    parts = session.scalars(stmt).all()
+    key = (family.name, round(math.log10(value), 3), package, voltage, power)
+    if key in lookup.templates:
+        return lookup.templates[key]
+    parts = lookup.family_parts(family)
     if not parts:
         raise CatalogueError(f"the catalogue has no built-in parts of family {family.name!r}")
     pool = parts
     if package:
-        same = [p for p in pool if p.package and _norm(p.package) == _norm(package)]
-        pool = same or pool
+        pool = lookup.by_package(family).get(_norm(package)) or pool
     if power is not None:
-        same_p = [p for p in pool if p.power_w and math.isclose(p.power_w, power, rel_tol=1e-6)]
+        same_p = [
+            p for p in pool if p["power_w"] and math.isclose(p["power_w"], power, rel_tol=1e-6)
+        ]
         pool = same_p or pool
-    if voltage is not None:
-        col = _VOLTAGE_COLUMN.get(family.kind)
-        if col:
-            ok = [p for p in pool if getattr(p, col) is not None and getattr(p, col) >= voltage]
-            pool = ok or pool
+    col = _VOLTAGE_COLUMN.get(family.kind)
+    if voltage is not None and col:
+        ok = [p for p in pool if p[col] is not None and p[col] >= voltage]
+        pool = ok or pool
 
-    def distance(p: Part) -> tuple[float, float]:
-        v = p.value if p.value and p.value > 0 else value
+    def distance(p: Mapping[str, Any]) -> tuple[float, float]:
+        v = p["value"] if p["value"] and p["value"] > 0 else value
         vd = abs(math.log(v / value))
-        col = _VOLTAGE_COLUMN.get(family.kind)
-        pv = getattr(p, col) if col and voltage is not None else None
+        pv = p[col] if col and voltage is not None else None
         return (vd, abs(pv - voltage) if pv is not None else 0.0)
 
     best = min(pool, key=distance)
-    return {c: getattr(best, c) for c in _RATING_COLUMNS}
+    lookup.templates[key] = {c: best[c] for c in _RATING_COLUMNS}
+    return lookup.templates[key]
 
 
 def _validate_row(
@@ -642,12 +686,10 @@ def _validate_row(
     cells: Sequence[Any],
     columns: Mapping[str, int],
     break_columns: Sequence[tuple[int, int, str]],
-    families: Sequence[FamilyInfo],
-    session: Session,
+    lookup: _Lookup,
     supplier: str,
     qty: int,
     currency: str,
-    template_cache: dict[tuple[Any, ...], dict[str, Any]],
     headers: Sequence[str],
 ) -> StockRow:
     def cell(fld: str) -> Any:
@@ -672,7 +714,7 @@ def _validate_row(
     if not fam_text:
         raise fail("family" if "family" in columns else None, "no family (nor description)")
     try:
-        family = recognise_family(fam_text, families)
+        family = lookup.family(fam_text)
     except BadValueError as exc:
         raise fail(fam_field, str(exc)) from None
     unit = VALUE_UNITS[family.kind]
@@ -699,12 +741,7 @@ def _validate_row(
             raise fail("power", str(exc)) from None
         if power <= 0:
             raise fail("power", "the power rating must be > 0")
-    key = (family.name, round(math.log10(value), 2), package, voltage, power)
-    tpl = template_cache.get(key)
-    if tpl is None:
-        tpl = _template(session, family, value, package, voltage, power)
-        template_cache[key] = tpl
-    values: dict[str, Any] = dict(tpl)
+    values: dict[str, Any] = dict(_template(lookup, family, value, package, voltage, power))
     values.update(
         code=stock_code(supplier, code_text),
         kind=family.kind,
@@ -730,11 +767,6 @@ def _validate_row(
             raise fail("tolerance", str(exc)) from None
     if power is not None:
         values["power_w"] = power
-    if family.kind == "resistor" and values.get("power_w") and values.get("limiting_voltage_v"):
-        # the working voltage depends on the resistance: min(sqrt(P R), LEV)
-        values["rated_voltage_v"] = resistor_working_voltage(
-            values["power_w"], value, values["limiting_voltage_v"]
-        )
     if _text(cell("safety_class")):
         sc = _text(cell("safety_class")).upper()
         if family.kind == "x_capacitor" and sc != (family.safety_class or "").upper():
@@ -870,12 +902,12 @@ def import_stock(
         families = catalogue_families(session)
         if not families:
             raise CatalogueError("the catalogue holds no built-in families; run `parts build`")
-        cache: dict[tuple[Any, ...], dict[str, Any]] = {}
+        lookup = _Lookup(session, families)
         for n, (number, cells) in enumerate(body, start=1):
             try:
                 row = _validate_row(
-                    str(p), number, cells, columns, break_columns, families, session, name, qty,
-                    currency, cache, headers,
+                    str(p), number, cells, columns, break_columns, lookup, name, qty, currency,
+                    headers,
                 )  # fmt: skip
                 first = seen_codes.get(row.values["code"])
                 if first is not None:
@@ -896,8 +928,35 @@ def import_stock(
     if result.problems and not partial:
         result.families = {}
         return result
+    _working_voltages(good)
     _write(engine, name, currency, good, result, dry_run, progress, len(body), total, _fail_after)
     return result
+
+
+def _working_voltages(rows: Sequence[StockRow]) -> None:
+    """Resistors: the working voltage depends on the resistance, min(sqrt(P R), LEV)
+    (:func:`selector.catalogue.build.resistor_working_voltage`), so it is computed for the
+    row's own value, not taken from the template (one vectorised call for all rows)."""
+    import numpy as np
+
+    res = [
+        r.values
+        for r in rows
+        if r.values["kind"] == "resistor"
+        and r.values.get("power_w")
+        and r.values.get("limiting_voltage_v")
+    ]
+    if not res:
+        return
+    volts = np.atleast_1d(
+        resistor_working_voltage(
+            np.array([v["power_w"] for v in res]),
+            np.array([v["value"] for v in res]),
+            np.array([v["limiting_voltage_v"] for v in res]),
+        )
+    )
+    for v, u in zip(res, volts, strict=True):
+        v["rated_voltage_v"] = float(u)
 
 
 def _write(
