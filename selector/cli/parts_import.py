@@ -1,0 +1,147 @@
+"""`dropper parts import`: a stock list or distributor export into the catalogue.
+
+Thin command over :func:`selector.catalogue.importer.import_stock`; registered on the ``parts``
+sub-command group of :mod:`selector.cli.parts`.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from ..errors import EXIT_BAD_INPUT, EXIT_FINDINGS, BadValueError
+from ._app import print_json
+from .parts import DbOption, JsonOption, _Bar, _open, parts_app
+
+#: imports with more data rows than this show a progress bar (on stderr)
+PROGRESS_ROWS = 2000
+
+
+def _parse_maps(items: list[str] | None) -> dict[str, str]:
+    out: dict[str, str] = {}
+    for item in items or []:
+        header, sep, field = item.rpartition("=")
+        if not sep or not header.strip() or not field.strip():
+            raise BadValueError(f"--map {item!r}: write it as COLUMN=FIELD, e.g. 'Part No=sku'")
+        out[header.strip()] = field.strip()
+    return out
+
+
+def _count_rows(path: Path) -> int:
+    """Rough count of data rows, only to decide whether a progress bar is worth showing."""
+    if path.suffix.lower() in (".xlsx", ".xlsm"):
+        try:
+            import openpyxl
+
+            wb = openpyxl.load_workbook(path, read_only=True)
+            try:
+                return max((wb.worksheets[0].max_row or 1) - 1, 0)
+            finally:
+                wb.close()
+        except Exception:  # the import itself reports an unreadable file properly
+            return 0
+    try:
+        with path.open("rb") as fh:
+            return max(sum(1 for _ in fh) - 1, 0)
+    except OSError:
+        return 0
+
+
+@parts_app.command("import")
+def import_(
+    file: Annotated[Path, typer.Argument(help="Stock list or distributor export: CSV, TSV, XLSX.")],
+    supplier: Annotated[
+        str | None,
+        typer.Option(help="Name the rows are filed under (default: the file name without suffix)."),
+    ] = None,
+    dry_run: Annotated[
+        bool, typer.Option("--dry-run", help="Validate and count; write nothing.")
+    ] = False,
+    partial: Annotated[
+        bool,
+        typer.Option("--partial", help="Write the good rows even when some rows are refused."),
+    ] = False,
+    map_: Annotated[
+        list[str] | None,
+        typer.Option(
+            "--map",
+            help="COLUMN=FIELD: map a column by hand (FIELD 'ignore' drops it). Repeatable.",
+        ),
+    ] = None,
+    qty: Annotated[
+        int, typer.Option(help="Order quantity whose price break becomes the unit price.")
+    ] = 1000,
+    currency: Annotated[str, typer.Option(help="Currency when the file has no column.")] = "EUR",
+    sheet: Annotated[str | None, typer.Option(help="XLSX sheet (default: the first).")] = None,
+    db: DbOption = None,
+    json: JsonOption = False,
+) -> None:
+    """Import your own stock list (parts, prices with quantity breaks, stock counts).
+
+    Columns are recognised by their headers (the mapping is shown); each row is validated and
+    every refused row is listed with file, row and column. Nothing is written when a row is
+    refused, unless --partial. Importing the same list again updates rows in place.
+    Exit code: 0 imported, 1 imported with refused rows (--partial), 2 nothing written.
+    """
+    from ..catalogue.importer import import_stock
+
+    column_map = _parse_maps(map_)
+    engine = _open(db)
+    bar = None
+    if not json and _count_rows(file) > PROGRESS_ROWS:
+        bar = _Bar(f"importing {file.name}")
+    try:
+        result = import_stock(
+            engine,
+            file,
+            supplier,
+            dry_run=dry_run,
+            partial=partial,
+            column_map=column_map,
+            qty=qty,
+            currency=currency,
+            sheet=sheet,
+            progress=bar,
+        )
+    finally:
+        if bar is not None:
+            bar.close()
+        engine.dispose()
+    code = 0
+    if result.problems:
+        code = EXIT_FINDINGS if result.written else EXIT_BAD_INPUT
+    if json:
+        print_json(result.to_dict())
+        raise typer.Exit(code)
+    typer.echo(f"Columns of {file.name}:")
+    width = max(len(m.header) for m in result.mapping)
+    for m in result.mapping:
+        if m.field is None:
+            target = "(ignored)"
+        elif m.min_qty is not None:
+            target = f"price at {m.min_qty}+ pcs"
+        else:
+            target = m.field + ("" if m.how == "given" else f"  (match {m.score:.0f})")
+            if m.how == "given":
+                target += "  (--map)"
+        typer.echo(f"  {m.header:<{width}}  ->  {target}")
+    for p in result.problems:
+        typer.echo(f"refused: {p}", err=True)
+    verb = "would be" if dry_run else "were"
+    summary = (
+        f"{result.rows} rows: {result.inserted} new, {result.updated} updated, "
+        f"{result.unchanged} unchanged, {len(result.problems)} refused"
+    )
+    if result.written:
+        typer.echo(f"{summary}; supplier '{result.supplier}' (source import:{result.supplier}).")
+    elif dry_run and not result.problems:
+        typer.echo(f"{summary}; dry run: nothing written (the counts are what {verb} written).")
+    else:
+        typer.echo(
+            f"{summary}; nothing written. Fix the rows above, or use --partial to write the "
+            "good rows only.",
+            err=True,
+        )
+    raise typer.Exit(code)
