@@ -34,6 +34,7 @@ from .roles import Assigned, RoleMap, infer_roles, load_roles_file
 
 __all__ = [
     "AuditFinding",
+    "CatalogueIndex",
     "AuditResult",
     "BoardAudit",
     "audit_bom",
@@ -238,92 +239,157 @@ def _norm(text: Any) -> str:
     return re.sub(r"[^0-9a-z]+", "", str(text or "").lower())
 
 
-def fill_from_catalogue(ratings: Ratings, fields: Sequence[str], frame: Any) -> str | None:
-    """Fill the ``fields`` that ``ratings`` lacks from the best-matching catalogue family.
+@dataclass
+class _Family:
+    name: str
+    kind: str
+    text: str
+    ntext: str
+    cols: dict[str, Any]  # column -> numpy array over the family's rows
+    packages: Any  # numpy array of normalised package names
+    safety: frozenset[str]
 
-    ``frame`` is a ``selector.catalogue.parts_frame`` DataFrame (columns per DEVELOPERS.md).
-    Families of the part's kind are scored on package (4), class words (3 each), safety class
-    (3), the part's value inside the family's range (2) and its stated ratings among the
-    family's rows (1 each; temperature class 2); the best family scoring >= 3 wins (ties: first
-    in the catalogue). Within it, rows of the same package (and value, when present) are kept
-    and each missing rating takes the family's most conservative figure (lowest rating, highest
-    tolerance). Returns the family's name, or None when nothing matched (the ratings stay
-    unknown, and the rules will warn). Records each filled field in ``ratings.assumed``.
+
+class CatalogueIndex:
+    """A catalogue DataFrame prepared for repeated family look-ups (built once per audit).
+
+    Look-ups are memoised on what the BOM line says, so a BOM of many equal boards costs one
+    look-up per distinct line.
     """
-    kind = _CATALOGUE_KIND.get(ratings.kind)
-    missing = [f for f in fields if getattr(ratings, f, None) is None]
-    if kind is None or not missing or frame is None or len(frame) == 0:
-        return None
-    rows = frame[frame["kind"] == kind]
-    if len(rows) == 0:
-        return None
-    best: tuple[float, str] | None = None
-    terms = [t for w in ratings.words for t in _WORD_TERMS.get(w, ())]
-    if ratings.technology:
-        terms += list(_WORD_TERMS.get(ratings.technology, ()))
-    if ratings.dielectric:
-        terms += list(_WORD_TERMS.get(ratings.dielectric, ()))
-    pkg_terms = _PACKAGE_TERMS.get(
-        ratings.package or "", (ratings.package,) if ratings.package else ()
-    )
-    for family, sub in rows.groupby("family", sort=False):
-        text = " ".join(
-            [str(family)]
-            + [str(x) for x in sub["description"].head(1)]
-            + [str(x) for x in sub["package"].unique()[:20]]
-        ).lower()
-        ntext = _norm(text)
+
+    def __init__(self, frame: Any) -> None:
+        import numpy as np
+
+        self.by_kind: dict[str, list[_Family]] = {}
+        self._memo: dict[Any, tuple[str | None, dict[str, float]]] = {}
+        if frame is None or len(frame) == 0:
+            return
+        wanted = ("value",) + _FILL_LOW + _FILL_HIGH + tuple(c for c, _ in _STATED_MATCH)
+        for (kind, family), sub in frame.groupby(["kind", "family"], sort=False):
+            pk = [str(x) for x in sub["package"].unique()[:20]] if "package" in sub else []
+            desc = [str(x) for x in sub["description"].head(1)] if "description" in sub else []
+            text = " ".join([str(family)] + desc + pk).lower()
+            cols = {c: sub[c].to_numpy(dtype=float) for c in dict.fromkeys(wanted) if c in sub}
+            packages = np.array([_norm(x) for x in sub["package"]]) if "package" in sub else None
+            safety = (
+                frozenset(str(x).upper() for x in sub["safety_class"].dropna().unique())
+                if "safety_class" in sub
+                else frozenset()
+            )
+            self.by_kind.setdefault(str(kind), []).append(
+                _Family(str(family), str(kind), text, _norm(text), cols, packages, safety)
+            )
+
+
+def _best_family(r: Ratings, families: list[_Family]) -> _Family | None:
+    import numpy as np
+
+    terms = [t for w in r.words for t in _WORD_TERMS.get(w, ())]
+    for attr in (r.technology, r.dielectric):
+        if attr:
+            terms += list(_WORD_TERMS.get(attr, ()))
+    pkg_terms = _PACKAGE_TERMS.get(r.package or "", (r.package,) if r.package else ())
+    best: tuple[float, _Family] | None = None
+    for fam in families:
         score = 0.0
-        if pkg_terms and any(_norm(t) in ntext for t in pkg_terms):
+        if pkg_terms and any(_norm(t) in fam.ntext for t in pkg_terms):
             score += 4
         for t in dict.fromkeys(terms):
-            if t in text or _norm(t) in ntext:
+            if t in fam.text or _norm(t) in fam.ntext:
                 score += 3
-        if ratings.safety_class and "safety_class" in sub:
-            x = _x_subclass(ratings.safety_class)
-            if x and (sub["safety_class"].astype(str).str.upper() == x).any():
-                score += 3
-        if ratings.value is not None and "value" in sub:
-            if sub["value"].min() * 0.999 <= ratings.value <= sub["value"].max() * 1.001:
+        x = _x_subclass(r.safety_class)
+        if x and x in fam.safety:
+            score += 3
+        v = fam.cols.get("value")
+        if r.value is not None and v is not None and len(v):
+            if np.nanmin(v) * 0.999 <= r.value <= np.nanmax(v) * 1.001:
                 score += 2
         for col, points in _STATED_MATCH:
-            mine = getattr(ratings, col, None)
-            if mine is not None and col in sub:
-                if ((sub[col] - mine).abs() <= 1e-9 * max(abs(mine), 1.0)).any():
+            mine = getattr(r, col, None)
+            arr = fam.cols.get(col)
+            if mine is not None and arr is not None:
+                if np.any(np.abs(arr - mine) <= 1e-9 * max(abs(mine), 1.0)):
                     score += points
         if best is None or score > best[0]:
-            best = (score, str(family))
+            best = (score, fam)
     if best is None or best[0] < 3:
         return None
-    family = best[1]
-    sub = rows[rows["family"] == family]
-    if pkg_terms and "package" in sub:
-        keep = sub[sub["package"].map(lambda p: any(_norm(t) in _norm(p) for t in pkg_terms))]
-        if len(keep):
-            sub = keep
-    if ratings.value is not None and "value" in sub:
-        keep = sub[(sub["value"] - ratings.value).abs() <= 1e-6 * ratings.value]
-        if len(keep):
-            sub = keep
-    if ratings.power_w is not None and "power_w" in sub:
-        keep = sub[(sub["power_w"] - ratings.power_w).abs() < 1e-9]
-        if len(keep):
-            sub = keep
+    return best[1]
+
+
+def _family_fill(r: Ratings, fam: _Family, missing: Sequence[str]) -> dict[str, float]:
+    import numpy as np
+
+    n = len(next(iter(fam.cols.values()))) if fam.cols else 0
+    keep = np.ones(n, dtype=bool)
+    pkg_terms = _PACKAGE_TERMS.get(r.package or "", (r.package,) if r.package else ())
+
+    def narrow(mask: Any) -> None:
+        nonlocal keep
+        if np.any(keep & mask):
+            keep = keep & mask
+
+    if pkg_terms and fam.packages is not None:
+        narrow(np.array([any(_norm(t) in p for t in pkg_terms) for p in fam.packages]))
+    if r.value is not None and "value" in fam.cols:
+        narrow(np.abs(fam.cols["value"] - r.value) <= 1e-6 * r.value)
+    if r.power_w is not None and "power_w" in fam.cols:
+        narrow(np.abs(fam.cols["power_w"] - r.power_w) < 1e-9)
+    out: dict[str, float] = {}
     for f in missing:
-        if f not in sub:
+        arr = fam.cols.get(f)
+        if arr is None:
             continue
-        col = sub[f].dropna()
-        if len(col) == 0:
+        vals = arr[keep]
+        vals = vals[~np.isnan(vals)]
+        if len(vals) == 0:
             continue
         if f in _FILL_LOW:
-            v = float(col.min())
+            out[f] = float(vals.min())
         elif f in _FILL_HIGH:
-            v = float(col.max())
-        else:
-            continue
+            out[f] = float(vals.max())
+    return out
+
+
+def fill_from_catalogue(ratings: Ratings, fields: Sequence[str], catalogue: Any) -> str | None:
+    """Fill the ``fields`` that ``ratings`` lacks from the best-matching catalogue family.
+
+    ``catalogue`` is a ``selector.catalogue.parts_frame`` DataFrame (columns per DEVELOPERS.md)
+    or a :class:`CatalogueIndex` built from one. Families of the part's kind are scored on
+    package (4), class words (3 each), safety class (3), the part's value inside the family's
+    range (2) and its stated ratings among the family's rows (1 each; temperature class 2); the
+    best family scoring >= 3 wins (ties: first in the catalogue). Within it, rows of the same
+    package (and value and power, when present) are kept and each missing rating takes the
+    family's most conservative figure (lowest rating, highest tolerance). The safety class and
+    the value are never filled. Returns the family's name, or None when nothing matched (the
+    ratings stay unknown and the rules warn). Records each filled field in ``ratings.assumed``.
+    """
+    kind = _CATALOGUE_KIND.get(ratings.kind)
+    missing = tuple(
+        f for f in fields if f in _FILL_LOW + _FILL_HIGH and getattr(ratings, f, None) is None
+    )
+    if kind is None or not missing or catalogue is None:
+        return None
+    index = catalogue if isinstance(catalogue, CatalogueIndex) else CatalogueIndex(catalogue)
+    families = index.by_kind.get(kind)
+    if not families:
+        return None
+    key = (
+        kind,
+        missing,
+        _ratings_key(ratings),
+        tuple(ratings.words),
+    )
+    hit = index._memo.get(key)
+    if hit is None:
+        fam = _best_family(ratings, families)
+        hit = (None, {}) if fam is None else (fam.name, _family_fill(ratings, fam, missing))
+        index._memo[key] = hit
+    name, values = hit
+    for f, v in values.items():
         setattr(ratings, f, v)
-        ratings.assumed[f] = family
-    return family if ratings.assumed else None
+        ratings.assumed[f] = name  # type: ignore[assignment]
+    return name if values else None
 
 
 # ---------------------------------------------------------------------------------------------
@@ -398,11 +464,7 @@ def _groups(assigned: Sequence[Assigned]) -> list[list[Assigned]]:
     out: dict[tuple, list[Assigned]] = {}
     for a in assigned:
         r = a.ratings
-        key = tuple(
-            (k, v)
-            for k, v in sorted(dataclasses.asdict(r).items())
-            if k not in ("notes", "words", "assumed")
-        ) + ((a.part.description, a.part.value, a.also_fuse),)
+        key = _ratings_key(r) + (a.part.description, a.part.value, a.also_fuse)
         out.setdefault(key, []).append(a)
     return list(out.values())
 
@@ -411,7 +473,33 @@ def _groups(assigned: Sequence[Assigned]) -> list[list[Assigned]]:
 # the audit
 
 
-def _ratings_of(table: BomTable, part: BomPart) -> Ratings:
+def _ratings_key(r: Ratings) -> tuple:
+    return tuple(getattr(r, f) for f in _RATINGS_SCALARS)
+
+
+_RATINGS_SCALARS: Final[tuple[str, ...]] = tuple(
+    f.name for f in dataclasses.fields(Ratings) if f.name not in ("words", "notes", "assumed")
+)
+
+
+def _ratings_of(table: BomTable, part: BomPart, memo: dict | None = None) -> Ratings:
+    """The part's ratings; equal lines (same designator letters and texts) are read once."""
+    if memo is not None:
+        key = (
+            re.match(r"[A-Za-z]*", part.ref).group(0).upper(),  # type: ignore[union-attr]
+            part.value,
+            part.description,
+            part.package,
+            part.voltage,
+            part.power,
+            part.tolerance,
+        )
+        hit = memo.get(key)
+        if hit is None:
+            hit = memo[key] = _ratings_of(table, part)
+        return dataclasses.replace(
+            hit, words=list(hit.words), notes=list(hit.notes), assumed=dict(hit.assumed)
+        )
     try:
         return read_ratings(
             part.ref,
@@ -504,14 +592,17 @@ def audit_bom(
             )
     cli = {k.upper(): v for k, v in (roles or {}).items()}
     fields_by_role = _rule_fields()
+    if catalogue is not None and not isinstance(catalogue, CatalogueIndex):
+        catalogue = CatalogueIndex(catalogue)
     cache: dict[Any, Any] = {}
+    ratings_memo: dict[Any, Ratings] = {}
     results: list[BoardAudit] = []
     by_board: dict[str, list[BomPart]] = {}
     for p in table.parts:
         by_board.setdefault(p.board, []).append(p)
     for i, board in enumerate(boards):
         parts = by_board[board]
-        items = [(p, _ratings_of(table, p)) for p in parts]
+        items = [(p, _ratings_of(table, p, ratings_memo)) for p in parts]
         explicit: dict[str, str] = {}
         explicit.update(common_file)
         explicit.update(per_board_file.get(board, {}))
