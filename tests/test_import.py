@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import csv
 import math
-import shutil
 import subprocess
 import sys
 import textwrap
@@ -20,7 +19,7 @@ from pathlib import Path
 import pytest
 from sqlalchemy import func, select
 
-from selector.catalogue import open_catalogue, parts_frame
+from selector.catalogue import parts_frame
 from selector.catalogue.db import make_engine
 from selector.catalogue.importer import (
     FIELDS,
@@ -39,20 +38,10 @@ DEMO_CSV = DATA / "demo_stock.csv"
 DEMO_ROWS = 38
 
 
-@pytest.fixture(scope="module")
-def built_file(tmp_path_factory) -> Path:
-    """A catalogue file with the built-in parts, built once per module."""
-    path = tmp_path_factory.mktemp("catalogue") / "built.sqlite"
-    open_catalogue(f"sqlite:///{path}").dispose()
-    return path
-
-
 @pytest.fixture
-def engine(built_file, tmp_path):
-    """A fresh copy of the built catalogue for each test."""
-    path = tmp_path / "catalogue.sqlite"
-    shutil.copy(built_file, path)
-    eng = make_engine(f"sqlite:///{path}")
+def engine(catalogue_copy_url):
+    """A private copy of the built catalogue (tests/conftest.py) for each test."""
+    eng = make_engine(catalogue_copy_url)
     yield eng
     eng.dispose()
 
