@@ -47,8 +47,11 @@ __all__ = [
     "Design",
     "DesignPart",
     "Requirement",
+    "bom_rows",
     "design",
+    "design_to_dict",
     "objective_key",
+    "write_bom",
 ]
 
 #: relative widening of the closed-form screen (their error against the exact periodic solution
@@ -457,11 +460,12 @@ class _Setup:
     ro: _Options
     bo: _Options
     rect: dict[str, _Options]
-    zo: dict[float, _Options]  # effective Vz -> options
+    zo: dict[tuple[str, float], _Options]  # (topology, effective Vz) -> options
     co: _Options
     fo: _Options
     topologies: tuple[str, ...]
     bus_need_v: float
+    analyse: Callable[..., Any] | None = None
 
 
 def _filter_frame(df: pd.DataFrame, req: Requirement) -> pd.DataFrame:
@@ -583,31 +587,32 @@ def _prepare(df_all: pd.DataFrame, req: Requirement, policy: Policy) -> _Setup:
     # topologies and the bus voltage the Zener must hold
     tops = ("bridge", "half-wave") if req.topology == "any" else (req.topology,)
     bus_need = req.vout_v + (req.regulator_dropout_v if req.regulator else 0.0)
-    # Zeners by effective voltage: one part, or two equal in series
+    # Zeners by (topology, effective voltage): one part, or two equal in series
     zi = _idx(df, ["zener"])
     zv = _col(df, "value")[zi]
-    zo: dict[float, _Options] = {}
-    if len(zi):
-        volts = np.unique(zv[~np.isnan(zv)])
+    zo: dict[tuple[str, float], _Options] = {}
+    volts = np.unique(zv[~np.isnan(zv)]) if len(zi) else np.zeros(0)
+    if req.zener_v is not None and not np.any(np.isclose(volts, req.zener_v, rtol=1e-3)):
+        raise BadValueError(
+            f"--zener {req.zener_v:g} V: no such Zener voltage in the catalogue; available: "
+            + ", ".join(f"{v:g}" for v in volts)
+        )
+    for top in tops:
+        if len(volts) == 0:
+            break
         if req.zener_v is not None:
-            vz0 = req.zener_v
-            if not np.any(np.isclose(volts, vz0, rtol=1e-3)):
-                raise BadValueError(
-                    f"--zener {vz0:g} V: no such Zener voltage in the catalogue; available: "
-                    + ", ".join(f"{v:g}" for v in volts)
-                )
-            vz0 = float(volts[np.argmin(abs(volts - vz0))])
+            vz0 = float(volts[np.argmin(abs(volts - req.zener_v))])
         else:
-            cand = volts[volts >= bus_need - 1e-9]
+            # half-wave: the bus is Vz minus the diode's drop (the largest in the catalogue)
+            drop = 0.0
+            if top == "half-wave" and len(rect["half-wave"]):
+                drop = float(np.nanmax(rect["half-wave"].attrs["vf_v"]))
+            cand = volts[volts >= bus_need + drop - 1e-9]
             if len(cand) == 0:
-                raise InfeasibleError(
-                    f"no Zener of {bus_need:g} V or more in the catalogue",
-                    rule="zener.voltage",
-                    relaxation=f"a lower output voltage (largest Zener {volts.max():g} V)",
-                )
+                continue
             vz0 = float(cand[0])
         sel1 = zi[np.isclose(zv, vz0, rtol=1e-3)]
-        zo[vz0] = _single_options(df, sel1, "zener", mz, [1], "single")
+        zo[(top, vz0)] = _single_options(df, sel1, "zener", mz, [1], "single")
         half = volts[(2 * volts >= vz0 - 1e-9) & (2 * volts <= vz0 * 1.05)]
         if len(half):
             vh = float(half[0])
@@ -615,9 +620,15 @@ def _prepare(df_all: pd.DataFrame, req: Requirement, policy: Policy) -> _Setup:
             pairs = _single_options(df, selh, "zener", mz, [2], "series")
             vz2 = round(2 * vh, 6)
             if math.isclose(vz2, vz0, rel_tol=1e-3):
-                zo[vz0] = _concat([zo[vz0], pairs])
+                zo[(top, vz0)] = _concat([zo[(top, vz0)], pairs])
             else:
-                zo[vz2] = pairs
+                zo[(top, vz2)] = pairs
+    if len(volts) and not zo:
+        raise InfeasibleError(
+            f"no Zener of {bus_need:g} V or more (plus the half-wave diode drop) in the catalogue",
+            rule="zener.voltage",
+            relaxation=f"a lower output voltage (largest Zener {volts.max():g} V)",
+        )
     # reservoirs: intrinsic temperature rule; the voltage rule per Zener group later
     ci = _idx(df, ["electrolytic"])
     co = _single_options(df, ci, "reservoir", mz, [1], "single")
@@ -773,22 +784,19 @@ def _screen(setup: _Setup, progress: Callable[[int, int], None] | None) -> tuple
     if nx == 0 or nr == 0:
         return grid, stats
     chunk = max(1, 400_000 // max(nr, 1))
-    groups = [(t, vz) for t in setup.topologies for vz in setup.zo]
+    groups = list(setup.zo)
     total = len(groups) * ((nx + chunk - 1) // chunk)
     done = 0
     xtol = np.nan_to_num(xo.attrs["tolerance"], nan=0.2)
     rtol = np.nan_to_num(ro.attrs["tolerance"], nan=0.05)
     for topology, vz in groups:
         rect = setup.rect.get(topology)
-        zo = setup.zo[vz]
+        zo = setup.zo[(topology, vz)]
         if rect is None or len(rect) == 0 or len(zo) == 0:
             continue
         vf = rect.attrs["vf_v"]
         vf_lo = float(np.nanmin(vf)) if np.any(~np.isnan(vf)) else 0.0
         vf_hi = float(np.nanmax(vf)) if np.any(~np.isnan(vf)) else 0.0
-        bus_v = vz if topology == "bridge" else vz - vf_hi
-        if bus_v < setup.bus_need_v - 1e-9 and req.zener_v is None:
-            continue
         # reservoir candidates for this bus (voltage rule at the Zener's upper tolerance)
         co = setup.co
         if len(co):
@@ -1001,9 +1009,17 @@ def _x_rated(setup: _Setup, i: int) -> list[R.RatedPart]:
 
 
 def _engine():
-    from . import engine as E
+    """The engine's dataclasses (selector.engine.circuit) plus its analyse()."""
+    from .engine import circuit as C
 
-    return E
+    ns = SimpleNamespace(**{k: getattr(C, k) for k in C.__all__})
+    try:
+        from .engine import analyse
+
+        ns.analyse = analyse
+    except ImportError:  # pragma: no cover - the engine is a dependency of the package
+        ns.analyse = None
+    return ns
 
 
 def _circuit_for(setup, topology, vz, xi, ri, zi, di, ci, bi):
@@ -1016,7 +1032,7 @@ def _circuit_for(setup, topology, vz, xi, ri, zi, di, ci, bi):
     r_tot = float(sum(float(df.at[r, "value"]) for r in rr))
     rect = setup.rect[topology]
     drow = df.iloc[rect.rows[di][0]]
-    zo = setup.zo[vz]
+    zo = setup.zo[(topology, vz)]
     zrows = zo.rows[zi]
     zrow = df.iloc[zrows[0]]
     z_v = float(sum(float(df.at[r, "value"]) for r in zrows))
@@ -1096,21 +1112,26 @@ def _verify(setup, topology, vz, xi, ri, scr):
 
     Returns (key, parts indices, analysis, findings) or None when no completion passes.
     """
-    E = _engine()
     pol = setup.policy
     req = setup.req
-    zo, rect, co, bo, fo = setup.zo[vz], setup.rect[topology], setup.co, setup.bo, setup.fo
+    zo, rect, co, bo, fo = (
+        setup.zo[(topology, vz)],
+        setup.rect[topology],
+        setup.co,
+        setup.bo,
+        setup.fo,
+    )
     zi, di, ci, bi = scr
     for _ in range(4):
         circ, tol = _circuit_for(setup, topology, vz, xi, ri, zi, di, ci, bi)
-        an = E.analyse(circ, req.mains, tol, req.conditions)
+        an = setup.analyse(circ, req.mains, tol, req.conditions)
         ctx = _context_for(setup, circ, vz, ci, float(setup.ro.attrs["tolerance"][ri]))
         s, corners = R.stresses_from_analysis(an, ctx)
         new = (
             _best_passing(setup, zo, "zener", s),
             _best_passing(setup, rect, "rectifier", s),
             _best_passing(setup, co, "reservoir", {**s, "reservoir_min_f": 0.0}),
-            _best_passing(setup, bo, "bleeder", s),
+            _best_passing(setup, bo, "bleeder", s, rb_now=circ.bleeder_resistance_ohm),
         )
         if any(v < 0 for v in new):
             return None
@@ -1141,12 +1162,31 @@ def _verify(setup, topology, vz, xi, ri, scr):
     return int(key), (topology, vz, xi, ri, zi, di, ci, bi, fsel), an, findings, circ, parts
 
 
-def _best_passing(setup, opts: _Options, role: str, s: dict[str, Any]) -> int:
-    """Cheapest option of ``opts`` that passes every rule of ``role`` under stresses ``s``."""
+def _best_passing(
+    setup, opts: _Options, role: str, s: dict[str, Any], rb_now: float | None = None
+) -> int:
+    """Cheapest option of ``opts`` that passes every rule of ``role`` under stresses ``s``.
+
+    For the bleeder the stresses that depend on its own resistance are rescaled per candidate:
+    discharge time (and time constant) in proportion to R, power in inverse proportion (RC
+    discharge, P = V^2 / R [S]), and the no-load power changes by the bleeder's difference.
+    """
     if len(opts) == 0:
         return -1
     ns = opts.ns()
     ok = np.ones(len(opts), dtype=bool)
+    if role == "bleeder" and rb_now is not None and "total_ohm" in opts.attrs:
+        ratio = opts.attrs["total_ohm"] / rb_now
+        s = dict(s)
+        for k in ("discharge_time_s", "discharge_time_constant_s"):
+            if not _missing(s.get(k)):
+                s[k] = s[k] * ratio
+        pb = s.get("max_bleeder_power_w")
+        if not _missing(pb):
+            s["max_bleeder_power_w"] = pb / ratio
+            nl = s.get("no_load_real_power_w")
+            if not _missing(nl):
+                ok &= nl + pb * (1 / ratio - 1) <= setup.policy.standby_limit_w
     for rule in R.rules_for(role):
         if rule.role == "whole" or rule.applies is not None:
             continue
@@ -1193,7 +1233,7 @@ def _parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, fi):
     out: dict[str, Any] = {
         "x_capacitor": _x_rated(setup, xi),
         "series_resistor": _rated(setup, setup.ro, ri, "series_resistor"),
-        "zener": _rated(setup, setup.zo[vz], zi, "zener"),
+        "zener": _rated(setup, setup.zo[(topology, vz)], zi, "zener"),
         "rectifier": _rated(setup, setup.rect[topology], di, "rectifier"),
         "reservoir": _rated(setup, setup.co, ci, "reservoir"),
         "bleeder": _rated(setup, setup.bo, bi, "bleeder"),
@@ -1209,7 +1249,7 @@ def _parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, fi):
 def _screen_completion(setup, topology, vz, xi, ri):
     """The completion the screen would pick for one point (a starting guess for _verify)."""
     req, pol = setup.req, setup.policy
-    rect, zo, co, bo = setup.rect[topology], setup.zo[vz], setup.co, setup.bo
+    rect, zo, co, bo = setup.rect[topology], setup.zo[(topology, vz)], setup.co, setup.bo
     di = int(np.argmin(rect.key))
     zi = int(np.argmin(zo.key))
     ci = int(np.argmin(co.key))
@@ -1224,13 +1264,18 @@ def design(
     policy: Policy | None = None,
     progress: Callable[[int, int], None] | None = None,
     max_verify: int = 400,
+    analyse: Callable[..., Any] | None = None,
 ) -> list[Design]:
     """The ``req.top`` best compliant designs over the catalogue ``frame`` (parts_frame).
 
-    Raises InfeasibleError naming the blocking rule and the smallest relaxation.
+    ``analyse(circuit, mains, tolerances, conditions)`` defaults to the engine's. Raises
+    InfeasibleError naming the blocking rule and the smallest relaxation.
     """
     pol = policy or Policy()
     setup = _prepare(frame, req, pol)
+    setup.analyse = analyse or _engine().analyse
+    if setup.analyse is None:
+        raise RuntimeError("selector.engine.analyse is not available")
     _precheck(setup)
     grid, stats = _screen(setup, progress)
     if not grid.key:
@@ -1287,7 +1332,7 @@ def _precheck(setup: _Setup) -> None:
     best = 0.0
     best_top = ""
     for t in setup.topologies:
-        vz = min(setup.zo)
+        vz = min(v for _, v in setup.zo)
         b = _screen_bounds(
             req,
             t,
@@ -1307,7 +1352,7 @@ def _precheck(setup: _Setup) -> None:
         m = req.mains
         vpk = _SQRT2 * m.low_v
         f = min(m.frequencies_hz)
-        c_need = need / (4 * f * (vpk - min(setup.zo))) / (1 - req.cap_loss) / 0.8
+        c_need = need / (4 * f * (vpk - min(v for _, v in setup.zo))) / (1 - req.cap_loss) / 0.8
         relax = [
             f"X capacitance of about {c_need * 1e6:.3g} uF, more than any catalogue pair "
             f"({cmax * 1e6:.3g} uF)",
@@ -1438,7 +1483,7 @@ def _to_design(setup: _Setup, rank: int, res) -> Design:
         ("series_resistor", setup.ro, ri),
         ("bleeder", setup.bo, bi),
         ("rectifier", setup.rect[topology], di),
-        ("zener", setup.zo[vz], zi),
+        ("zener", setup.zo[(topology, vz)], zi),
         ("reservoir", setup.co, ci),
     ):
         arr = opts.arrangement[i]
@@ -1449,13 +1494,14 @@ def _to_design(setup: _Setup, rank: int, res) -> Design:
     total_area = float(sum(p.area_mm2 for p in parts))
     count = int(sum(p.qty for p in parts))
     binding = _binding(findings)
-    zrow = setup.df.iloc[setup.zo[vz].rows[zi][0]]
+    zopt = setup.zo[(topology, vz)]
+    zrow = setup.df.iloc[zopt.rows[zi][0]]
     effective = {
         "x_capacitance_f": float(circ.x_capacitance_f),
         "series_resistance_ohm": float(circ.series_resistance_ohm),
         "bleeder_resistance_ohm": float(circ.bleeder_resistance_ohm),
         "zener_voltage_v": float(circ.zener_voltage_v),
-        "zener_power_rating_w": _nz(zrow.get("power_w"), float("nan")) * setup.zo[vz].qty[zi],
+        "zener_power_rating_w": _nz(zrow.get("power_w"), float("nan")) * zopt.qty[zi],
         "reservoir_f": float(circ.reservoir_f),
     }
     rp = {k: (v if isinstance(v, list) else [v]) for k, v in rparts.items()}
@@ -1481,3 +1527,142 @@ def _binding(findings: Sequence[R.Finding], n: int = 3) -> list[str]:
     ms = [f for f in findings if f.margin is not None]
     ms.sort(key=lambda f: f.margin)
     return [f.rule for f in ms[:n]]
+
+
+# ---------------------------------------------------------------------------------------------
+# JSON and BOM
+
+
+def design_to_dict(d: Design) -> dict[str, Any]:
+    """The JSON shape of one design (issue 4): SI numbers, snake_case keys with unit suffixes."""
+    return {
+        "rank": d.rank,
+        "topology": d.topology,
+        "total_price": d.total_price,
+        "total_area_mm2": d.total_area_mm2,
+        "part_count": d.part_count,
+        "price_note": next((p.price_note for p in d.parts if p.price_note), None),
+        "parts": [
+            {
+                "role": p.role,
+                "code": p.code,
+                "family": p.family,
+                "description": p.description,
+                "value": p.value,
+                "qty": p.qty,
+                "arrangement": p.arrangement,
+                "unit_price": p.unit_price,
+                "line_price": p.line_price,
+                "area_mm2": p.area_mm2,
+                "mount": p.mount,
+                "package": p.package,
+                **{k: v for k, v in p.ratings.items()},
+            }
+            for p in d.parts
+        ],
+        "effective": d.effective,
+        "worst_case": d.worst_case,
+        "binding": d.binding,
+        "checks": [
+            {
+                "rule": f.rule,
+                "part": f.part,
+                "stress": f.stress,
+                "limit": f.limit,
+                "unit": f.unit,
+                "margin": f.margin,
+                "ok": f.ok,
+                "severity": f.severity,
+                "source": f.source,
+                "corner": f.corner,
+            }
+            for f in d.checks
+        ],
+    }
+
+
+_REF_PREFIX: Final[dict[str, str]] = {
+    "x_capacitor": "C",
+    "series_resistor": "R",
+    "bleeder": "R",
+    "rectifier": "D",
+    "zener": "D",
+    "reservoir": "C",
+    "fuse": "F",
+}
+_FORMULA_START: Final[tuple[str, ...]] = ("=", "+", "-", "@")
+
+
+def _cell(text: Any) -> str:
+    """A CSV cell a spreadsheet will not run as a formula (leading = + - @ get a quote)."""
+    s = "" if text is None else str(text)
+    if s.startswith(_FORMULA_START):
+        return "'" + s
+    return s
+
+
+def bom_rows(d: Design) -> list[dict[str, str]]:
+    """BOM lines of a design: Reference, Value, Qty, Description, Footprint, Role.
+
+    Descriptions are the catalogue's, which carry the ratings in text (class, voltage, power,
+    limiting voltage), so that `dropper audit` can read them back.
+    """
+    from .units import format_value
+
+    unit = {
+        "x_capacitor": "F",
+        "reservoir": "F",
+        "series_resistor": "ohm",
+        "bleeder": "ohm",
+        "zener": "V",
+        "fuse": "A",
+        "rectifier": "A",
+    }
+    counters: dict[str, int] = {}
+    rows = []
+    for p in d.parts:
+        prefix = "BR" if p.kind == "bridge" else _REF_PREFIX[p.role]
+        refs = []
+        for _ in range(p.qty):
+            counters[prefix] = counters.get(prefix, 0) + 1
+            refs.append(f"{prefix}{counters[prefix]}")
+        value = format_value(p.value, unit[p.role], ascii=True)
+        if p.role == "rectifier":
+            value = p.code
+        rows.append(
+            {
+                "Reference": ", ".join(refs),
+                "Value": value,
+                "Qty": str(p.qty),
+                "Description": p.description,
+                "Footprint": p.package or "",
+                "Role": p.role,
+            }
+        )
+    return rows
+
+
+def write_bom(d: Design, path: str | Any) -> None:
+    """Write the BOM of ``d`` as CSV atomically (temporary file, then rename)."""
+    import csv
+    import os
+    import tempfile
+    from pathlib import Path
+
+    target = Path(path)
+    rows = bom_rows(d)
+    cols = ["Reference", "Value", "Qty", "Description", "Footprint", "Role"]
+    fd, tmp = tempfile.mkstemp(prefix=".bom-", suffix=".csv", dir=target.parent or Path("."))
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
+            w = csv.writer(fh)
+            w.writerow(cols)
+            for r in rows:
+                w.writerow([_cell(r[c]) for c in cols])
+        os.replace(tmp, target)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise

@@ -250,6 +250,11 @@ def margin(stress: Any, limit: Any) -> Any:
     With limit <= 0 the margin is 0 when stress <= limit (nothing allowed, nothing there) and -1
     otherwise. Example: stress 0.3 W against a limit of 0.5 W -> margin 0.4.
     """
+    if isinstance(stress, (int, float)) and isinstance(limit, (int, float)):
+        s_, l_ = float(stress), float(limit)
+        if l_ > 0:
+            return (l_ - s_) / l_
+        return 0.0 if s_ <= l_ else -1.0
     s = np.asarray(stress, dtype=float)
     lim = np.asarray(limit, dtype=float)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -267,6 +272,12 @@ def derated_power(rated_w: Any, ambient_c: Any, start_c: Any, end_c: Any) -> Any
     power to 70 C and zero at 155 C (DOMAIN.md table 5) [S]; Zeners from 25 C to Tj max [S].
     Example: a 0.25 W 1206 resistor at 100 C: 0.25 * (155 - 100) / (155 - 70) = 0.162 W.
     """
+    if all(isinstance(v, (int, float)) for v in (rated_w, ambient_c, start_c, end_c)):
+        if end_c <= start_c:
+            raise OutOfRangeError(
+                f"derating end ({end_c} C) must lie above its start ({start_c} C)"
+            )
+        return float(rated_w) * min(max((end_c - ambient_c) / (end_c - start_c), 0.0), 1.0)
     start = np.asarray(start_c, dtype=float)
     end = np.asarray(end_c, dtype=float)
     if np.any(end <= start):
