@@ -20,6 +20,15 @@ def test_x2_330n_305_ranks_the_305_vac_x2_first(catalogue_engine):
     assert all(p["value"] == pytest.approx(330e-9) and p["safety_class"] == "X2" for p in found)
 
 
+def test_voltage_with_unit_ranks_the_exact_rating_first(catalogue_engine):
+    found = find_parts(catalogue_engine, "330n x2 310vac", limit=50)
+    assert all(p["rated_voltage_ac_v"] >= 310.0 for p in found)
+    assert found[0]["rated_voltage_ac_v"] == 310.0 and found[0]["value"] == pytest.approx(330e-9)
+    film = find_parts(catalogue_engine, "polyester 100n 400vdc", limit=50)
+    assert {p["rated_voltage_v"] for p in film} == {400.0, 630.0}
+    assert film[0]["rated_voltage_v"] == 400.0
+
+
 def test_class_word_filters(catalogue_engine):
     found = find_parts(catalogue_engine, "x1", limit=500)
     assert found and {p["safety_class"] for p in found} == {"X1"}

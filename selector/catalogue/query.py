@@ -7,8 +7,10 @@ Free text (:func:`find_parts`) is split into words; each word is one of
   ``film``, ...): only parts of those kinds;
 * a value with a prefix, unit or IEC 60062 letter (``330n``, ``4k7``, ``4R7``, ``100uF``):
   only parts of that value (read per kind: farads for capacitors, ohms for resistors, ...);
-  with a unit ``V`` (``305V``, ``305vac``) it asks for a voltage rating >= it (or a Zener of it),
-  with ``W`` for a power rating >= it; a percentage (``5%``) for that tolerance;
+  with a unit ``V`` it asks for a voltage rating >= it (``305vac``: AC rating, ``400vdc``: DC
+  rating or VRRM, ``305V``: the main rating, AC where the part has one) or a Zener of it,
+  with ``W`` for a power rating >= it, an exact rating ranking first; a percentage (``5%``) for
+  that tolerance;
 * anything else, bare numbers included, is matched fuzzily (rapidfuzz) against code, family and
   description; a bare number equal to a part's value or to one of its ratings ranks it higher.
 
@@ -119,14 +121,20 @@ def _is_bare_number(token: str) -> bool:
         return False
 
 
-def _voltage_clause(v: float):
+def _voltage_clause(v: float, token: str):
+    """A voltage word: ``...vac`` asks for an AC rating, ``...vdc`` for a DC rating or VRRM,
+    plain ``V`` for the part's main rating (AC where it has one, else DC, else VRRM); a Zener
+    of that voltage always matches."""
     t = Part.__table__.c
-    return or_(
-        t.rated_voltage_ac_v >= v * (1 - _REL),
-        t.rated_voltage_v >= v * (1 - _REL),
-        t.vrrm_v >= v * (1 - _REL),
-        and_(t.kind == "zener", _near(t.value, v)),
-    )
+    low = v * (1 - _REL)
+    word = token.lower()
+    if word.endswith("vac"):
+        rating = t.rated_voltage_ac_v >= low
+    elif word.endswith("vdc"):
+        rating = or_(t.rated_voltage_v >= low, t.vrrm_v >= low)
+    else:
+        rating = func.coalesce(t.rated_voltage_ac_v, t.rated_voltage_v, t.vrrm_v) >= low
+    return or_(rating, and_(t.kind == "zener", _near(t.value, v)))
 
 
 def _row_dict(row: Any) -> dict[str, Any]:
@@ -202,9 +210,13 @@ def find_parts(
         if not units:
             words.append(low)
         elif units == {"V"}:
-            where.append(_voltage_clause(parse_value(token, "V")))
+            volts = parse_value(token, "V")
+            where.append(_voltage_clause(volts, token))
+            numbers.append(volts)  # an exact rating ranks first
         elif units == {"W"}:
-            where.append(t.power_w >= parse_value(token, "W") * (1 - _REL))
+            watts = parse_value(token, "W")
+            where.append(t.power_w >= watts * (1 - _REL))
+            numbers.append(watts)
         elif len(units) == 1:
             (unit,) = units
             clause = _value_clause(token, tuple(k for k in kinds if VALUE_UNITS[k] == unit))
