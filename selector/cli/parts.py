@@ -128,7 +128,7 @@ def _ratings(p: dict[str, Any]) -> str:
         temp = f" {p['temp_max_c']:g} °C" if p["temp_max_c"] else ""
         return f"{p['rated_voltage_v'] or 0:g} V{temp}{ripple}"
     if kind == "fuse":
-        i2t = f", I²t {format_value(p['i2t_a2s'], 'A2s')}" if p["i2t_a2s"] else ""
+        i2t = f", I²t {p['i2t_a2s']:.3g} A²s" if p["i2t_a2s"] else ""
         return f"{p['rated_voltage_ac_v'] or 0:g} VAC{i2t}"
     return ""
 
