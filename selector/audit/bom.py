@@ -21,6 +21,9 @@ What this module does, in order:
    with cells but no reference, a duplicate reference on one board, a bad range or quantity is
    an error naming file, row and column. Rows marked not fitted are dropped (noted).
 
+A ``Role`` column (as ``dropper design --bom`` writes it) names each part's role; ``--role`` and
+a roles file still win over it.
+
 Several boards in one file are told apart by a column recognised as ``board`` (``Board``,
 ``Assembly``, ``PCB``, ``Project``); references need only be unique within a board.
 """
@@ -131,6 +134,7 @@ HEADER_SPELLINGS: Final[dict[str, tuple[tuple[str, float], ...]]] = {
         ("pcb", 0.95),
         ("project", 0.9),
     ),
+    "role": (("role", 1.0), ("dropper role", 1.0), ("function", 0.9)),
     "dnp": (
         ("dnp", 1.0),
         ("dnf", 1.0),
@@ -165,6 +169,7 @@ class BomPart:
     voltage: str = ""
     power: str = ""
     tolerance: str = ""
+    role: str = ""
 
 
 @dataclass
@@ -644,6 +649,7 @@ def read_bom(
                     voltage=cell(cells, "voltage"),
                     power=cell(cells, "power"),
                     tolerance=cell(cells, "tolerance"),
+                    role=cell(cells, "role"),
                 )
             )
     if blank:

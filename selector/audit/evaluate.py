@@ -604,21 +604,24 @@ def audit_bom(
         parts = by_board[board]
         items = [(p, _ratings_of(table, p, ratings_memo)) for p in parts]
         explicit: dict[str, str] = {}
-        explicit.update(common_file)
-        explicit.update(per_board_file.get(board, {}))
-        how = "roles file" if explicit else "given"
-        for key, role in cli.items():
+        how: dict[str, str] = {}
+        for source, mapping in (
+            ("roles file", common_file),
+            ("roles file", per_board_file.get(board, {})),
+        ):
+            for ref, role_name in mapping.items():
+                explicit[ref] = role_name
+                how[ref] = source
+        for key, role_name in cli.items():
             b, sep, ref = key.rpartition(":")
             if not sep:
-                explicit[key] = role
+                explicit[key], how[key] = role_name, "given"
             elif b == board.upper():
-                explicit[ref] = role
-        if explicit:
+                explicit[ref], how[ref] = role_name, "given"
+        if explicit and len(boards) > 1:
             refs = {p.ref.upper() for p in parts}
-            missing = [r for r in explicit if r not in refs]
-            if missing and len(boards) > 1:
-                for r in missing:
-                    explicit.pop(r)  # a common role names a part another board has
+            for r in [r for r in explicit if r not in refs]:
+                explicit.pop(r)  # a role for every board names a part this board lacks
         roles_map = infer_roles(board, items, explicit, explicit_how=how)
         results.append(
             _audit_board(

@@ -174,11 +174,12 @@ def infer_roles(
     board: str,
     items: Sequence[tuple[BomPart, Ratings]],
     explicit: Mapping[str, str] | None = None,
-    explicit_how: str = "given",
+    explicit_how: str | Mapping[str, str] = "given",
 ) -> RoleMap:
     """Assign a role to every part of one board (see the module docstring for the rules).
 
-    ``explicit`` maps upper-case designators to roles and wins over inference. Raises
+    ``explicit`` maps upper-case designators to roles and wins over a role the BOM's own role
+    column gives (``how`` = 'BOM'), which wins over inference. Raises
     :class:`BadValueError` naming the parts when the BOM is ambiguous.
     """
     explicit = dict(explicit or {})
@@ -193,7 +194,14 @@ def infer_roles(
     for p, r in items:
         role = explicit.get(p.ref.upper())
         if role is not None:
-            out.append(Assigned(p, r, role, explicit_how))
+            how = (
+                explicit_how
+                if isinstance(explicit_how, str)
+                else explicit_how.get(p.ref.upper(), "given")
+            )
+            out.append(Assigned(p, r, role, how))
+        elif p.role:
+            out.append(Assigned(p, r, _role_name(p.role, f"row {p.row}, role of {p.ref}: "), "BOM"))
         else:
             rest.append((p, r))
 
