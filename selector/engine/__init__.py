@@ -1,0 +1,76 @@
+"""The worst-case circuit engine: circuit description, periodic steady state, transients, corners.
+
+Public surface (SI floats throughout)::
+
+    from selector.engine import Circuit, Load, Mains, Tolerances, Conditions, analyse
+    a = analyse(Circuit(...), Mains(230, 0.1, (50, 60)), Tolerances(), Conditions())
+    a.nominal.dc_current_a, a.worst_case.max_zener_power_w, a.worst_case.max_zener_power_corner
+
+``selector.engine.closed_form`` holds the numpy-broadcasting closed forms (the design screen).
+"""
+
+from __future__ import annotations
+
+from . import closed_form
+from .analysis import Analysis, Corner, Nominal, WorstCase, analyse, corner_circuit, corners
+from .circuit import (
+    DISCHARGE_PROFILES,
+    TOPOLOGIES,
+    Circuit,
+    Conditions,
+    Load,
+    Mains,
+    Regulator,
+    Tolerances,
+)
+from .steady_state import SteadyState, solve_steady_state
+from .transients import (
+    DISCHARGE_RULES,
+    Discharge,
+    Holdup,
+    Inrush,
+    Startup,
+    Surge,
+    discharge,
+    holdup,
+    inrush,
+    startup,
+    surge,
+    surge_wave,
+)
+from .waveforms import switch_on_waveform, waveforms
+
+__all__ = [
+    "DISCHARGE_PROFILES",
+    "DISCHARGE_RULES",
+    "TOPOLOGIES",
+    "Analysis",
+    "Circuit",
+    "Conditions",
+    "Corner",
+    "Discharge",
+    "Holdup",
+    "Inrush",
+    "Load",
+    "Mains",
+    "Nominal",
+    "Regulator",
+    "Startup",
+    "SteadyState",
+    "Surge",
+    "Tolerances",
+    "WorstCase",
+    "analyse",
+    "closed_form",
+    "corner_circuit",
+    "corners",
+    "discharge",
+    "holdup",
+    "inrush",
+    "solve_steady_state",
+    "startup",
+    "surge",
+    "surge_wave",
+    "switch_on_waveform",
+    "waveforms",
+]

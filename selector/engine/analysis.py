@@ -1,0 +1,407 @@
+"""Worst-case analysis of one dropper: nominal point, corners, transients.
+
+Corners (DOMAIN.md section 3): mains low/high x every frequency of the set x X capacitance
+(min = C (1 - tol)(1 - end-of-life loss), max = C (1 + tol)) x series resistance and bleeder
+(+/- r_tol) x Zener voltage (+/- zener_tol). Ambient does not move the circuit's stresses; it is
+carried in the conditions for the rules that derate ratings.
+
+Every corner is first screened with the vectorised closed forms (:mod:`.closed_form`), which are
+monotonic in each corner variable as the exact solution is; the corner that is extreme for each
+quantity is then solved exactly (:mod:`.steady_state`). The stresses follow DOMAIN.md section 2:
+Zener power is worst at high line, +C, the higher frequency and ZERO load; the available current
+is least at low line, -C -loss, the lower frequency, +R and +Vz, with the actual load.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import closed_form as cf
+from .circuit import Circuit, Conditions, Mains, Tolerances
+from .steady_state import SteadyState, solve_steady_state
+from .transients import (
+    Discharge,
+    Holdup,
+    Inrush,
+    Startup,
+    Surge,
+    discharge,
+    inrush,
+    startup,
+    surge,
+)
+
+__all__ = [
+    "Analysis",
+    "Corner",
+    "Nominal",
+    "WorstCase",
+    "analyse",
+    "corner_circuit",
+    "corners",
+]
+
+
+@dataclass(frozen=True)
+class Corner:
+    """One corner: mains rms [V], frequency [Hz], total X capacitance [F], series R [ohm],
+    bleeder [ohm], Zener voltage [V], and whether the load is connected."""
+
+    mains_v: float
+    freq_hz: float
+    cap_f: float
+    r_ohm: float
+    bleeder_ohm: float
+    vz_v: float
+    loaded: bool = True
+
+    def record(self, circuit: Circuit) -> dict:
+        """The corner as a JSON-ready dict (keys with SI unit suffixes)."""
+        load = circuit.bus_demand_a() if self.loaded else 0.0
+        return {
+            "mains_v": self.mains_v,
+            "freq_hz": self.freq_hz,
+            "cap_f": self.cap_f,
+            "r_ohm": self.r_ohm,
+            "vz_v": self.vz_v,
+            "load_a": load,
+        }
+
+
+@dataclass
+class Nominal:
+    """Nominal mains (first frequency of the set), nominal values, the actual load (JSON keys)."""
+
+    freq_hz: float
+    dc_current_a: float
+    zener_power_w: float
+    zener_power_no_load_w: float
+    zener_current_a: float
+    output_voltage_v: float
+    ripple_v: float
+    line_current_rms_a: float
+    line_current_peak_a: float
+    series_r_power_w: float
+    bleeder_power_w: float
+    real_power_w: float
+    reactive_power_var: float
+    apparent_power_va: float
+    power_factor: float
+    load_current_a: float
+    regulator_power_w: float | None
+
+
+@dataclass
+class WorstCase:
+    """Extremes over the corners, each with the corner that produced it (JSON keys)."""
+
+    min_dc_current_a: float
+    min_dc_current_corner: dict
+    max_dc_current_a: float
+    max_dc_current_corner: dict
+    max_zener_power_w: float
+    max_zener_power_corner: dict
+    max_zener_current_a: float
+    max_zener_current_corner: dict
+    max_series_r_power_w: float
+    max_series_r_power_corner: dict
+    max_bleeder_power_w: float
+    max_bleeder_power_corner: dict
+    max_bleeder_voltage_v: float
+    max_bleeder_voltage_corner: dict
+    max_x_cap_voltage_v: float
+    max_x_cap_voltage_corner: dict
+    max_line_voltage_v: float
+    max_output_voltage_v: float
+    max_output_voltage_corner: dict
+    min_output_voltage_v: float
+    min_output_voltage_corner: dict
+    max_rectifier_avg_current_a: float
+    max_rectifier_peak_current_a: float
+    max_rectifier_reverse_voltage_v: float
+    rectifier_corner: dict
+    max_line_current_rms_a: float
+    max_line_current_rms_corner: dict
+    max_reservoir_ripple_current_a: float
+    max_reservoir_ripple_current_corner: dict
+    no_load_real_power_w: float
+    no_load_real_power_corner: dict
+    load_demand_a: float
+    load_met: bool
+    load_margin_a: float
+    in_regulation: bool
+    max_regulator_power_w: float | None
+    min_regulator_headroom_v: float | None
+    regulator_ok: bool | None
+
+
+@dataclass
+class Analysis:
+    """Everything ``dropper check`` reports; each attribute's fields are JSON keys."""
+
+    nominal: Nominal
+    worst_case: WorstCase
+    inrush: Inrush
+    surge: Surge
+    discharge: Discharge
+    startup: Startup
+    holdup: Holdup | None
+    ambient_c: float
+    topology: str
+    exact_solves: int
+
+    @property
+    def ok(self) -> bool:
+        """True when the load is met at every corner and the discharge rule holds."""
+        return bool(self.worst_case.load_met and self.discharge.ok)
+
+
+def corners(circuit: Circuit, mains: Mains, tol: Tolerances) -> list[Corner]:
+    """Every corner of the worst-case grid (2 x n_f x 2 x 2 x 2; the bleeder follows R)."""
+    c = circuit.x_capacitance_f
+    cs = sorted({c * (1 - tol.cap_tol) * (1 - tol.cap_loss), c * (1 + tol.cap_tol)})
+    r = circuit.series_resistance_ohm
+    rb = circuit.bleeder_resistance_ohm
+    rs = sorted({r * (1 - tol.r_tol), r * (1 + tol.r_tol)})
+    vz = circuit.zener_voltage_v
+    vzs = sorted({vz * (1 - tol.zener_tol), vz * (1 + tol.zener_tol)})
+    vs = sorted({mains.low_v, mains.high_v})
+    out = []
+    for v, f, cc, rr, z in itertools.product(vs, sorted(set(mains.frequencies_hz)), cs, rs, vzs):
+        out.append(Corner(v, f, cc, rr, rb * (rr / r), z))
+    return out
+
+
+def corner_circuit(circuit: Circuit, k: Corner) -> Circuit:
+    """The circuit with the corner's values (the capacitance as one part)."""
+    return circuit.with_values(
+        x_capacitors_f=(k.cap_f,),
+        series_resistance_ohm=k.r_ohm,
+        bleeder_resistance_ohm=k.bleeder_ohm,
+        zener_voltage_v=k.vz_v,
+    )
+
+
+def _regulator_figures(circuit: Circuit, st: SteadyState):
+    reg = circuit.regulator
+    if reg is None:
+        return None, None
+    i_out = circuit.load.demand_a(reg.output_v)
+    power = (st.output_max_v - reg.output_v) * i_out + st.output_max_v * reg.quiescent_a
+    headroom = st.output_min_v - reg.output_v - reg.dropout_v
+    return power, headroom
+
+
+def analyse(
+    circuit: Circuit,
+    mains: Mains,
+    tolerances: Tolerances | None = None,
+    conditions: Conditions | None = None,
+    progress: Callable[[int, int], None] | None = None,
+) -> Analysis:
+    """Worst-case analysis of ``circuit`` on ``mains`` (SI throughout). See module docstring.
+
+    The closed forms pick the extreme corner of each quantity; those corners (usually 4-6
+    distinct ones) and the nominal point are solved exactly.
+    """
+    tol = tolerances or Tolerances()
+    cond = conditions or Conditions()
+    grid = corners(circuit, mains, tol)
+    top = circuit.topology
+    vf = circuit.diode_drop_v
+    V = np.array([k.mains_v for k in grid])
+    F = np.array([k.freq_hz for k in grid])
+    C = np.array([k.cap_f for k in grid])
+    R = np.array([k.r_ohm for k in grid])
+    Z = np.array([k.vz_v for k in grid])
+    i_cf = cf.dc_current(top, V, C, F, Z, vf, R)
+    pz_cf = cf.zener_power_no_load(top, V, C, F, Z, vf, R)
+    pr_cf = cf.series_r_power(V, C, F, R)
+    k_min = grid[int(np.argmin(i_cf))]
+    k_max_i = grid[int(np.argmax(i_cf))]
+    k_max_pz = grid[int(np.argmax(pz_cf))]
+    k_max_pr = grid[int(np.argmax(pr_cf))]
+
+    cache: dict[tuple, SteadyState] = {}
+    total = 6
+    done = [0]
+
+    def solve(k: Corner, loaded: bool) -> SteadyState:
+        key = (k, loaded)
+        if key not in cache:
+            cc = corner_circuit(circuit, k)
+            kw = {} if loaded else {"load_a": 0.0, "load_g": 0.0}
+            cache[key] = solve_steady_state(cc, k.mains_v, k.freq_hz, **kw)
+            done[0] += 1
+            if progress is not None:
+                progress(min(done[0], total), total)
+        return cache[key]
+
+    f0 = mains.frequencies_hz[0]
+    k_nom = Corner(
+        mains.nominal_v,
+        f0,
+        circuit.x_capacitance_f,
+        circuit.series_resistance_ohm,
+        circuit.bleeder_resistance_ohm,
+        circuit.zener_voltage_v,
+    )
+    loaded = not circuit.load.is_zero or circuit.regulator is not None
+    nom = solve(k_nom, True)
+    nom0 = solve(k_nom, False) if loaded else nom
+    s_min = solve(k_min, True)
+    s_pz = solve(k_max_pz, False)
+    s_imax = solve(k_max_i, True)
+    solve(k_max_pr, True)
+
+    rec = {id(s): k.record(circuit) for (k, ld), s in cache.items() if ld}
+    rec0 = {id(s): {**k.record(circuit), "load_a": 0.0} for (k, ld), s in cache.items() if not ld}
+    rec.update(rec0)
+
+    def corner_of(s: SteadyState) -> dict:
+        return rec[id(s)]
+
+    solved = list(cache.values())
+
+    def extreme(attr: str, fn=max, among=None) -> tuple[float, dict]:
+        pool = among or solved
+        s = fn(pool, key=lambda x: getattr(x, attr))
+        return getattr(s, attr), corner_of(s)
+
+    demand_avg = circuit.load.average_demand_a(circuit.bus_voltage_v)
+    if circuit.regulator is not None:
+        reg = circuit.regulator
+        demand_avg = circuit.load.average_demand_a(reg.output_v) + reg.quiescent_a
+    # in regulation: the clamp still takes current at the weakest corner. Out of regulation the
+    # delivered current is read at the collapsed bus, so the available current is taken from the
+    # same corner with the bus held at the clamp (no load) instead.
+    in_reg = s_min.zener_current_a > 1e-9 or circuit.load.is_zero
+    min_i = s_min.dc_current_a if in_reg else solve(k_min, False).dc_current_a
+    margin = min_i - demand_avg
+    load_met = bool(margin >= 0 and in_reg)
+
+    rb_min = min(k.bleeder_ohm for k in grid)
+    s_vc = max(solved, key=lambda s: s.x_cap_voltage_rms_v)
+    vc_rms = s_vc.x_cap_voltage_rms_v
+    vc_pk_s = max(solved, key=lambda s: s.x_cap_voltage_peak_v)
+    bleed_corner = {**corner_of(s_vc), "bleeder_ohm": rb_min}
+    max_pr_s = max(solved, key=lambda s: s.series_r_power_w)
+    rect_s = max(solved, key=lambda s: s.rectifier_peak_current_a)
+    reg_p, reg_h = None, None
+    if circuit.regulator is not None:
+        figs = [
+            _regulator_figures(corner_circuit(circuit, k), s) for (k, ld), s in cache.items() if ld
+        ]
+        reg_p = max(p for p, _ in figs)
+        reg_h = min(h for _, h in figs)
+    worst = WorstCase(
+        min_dc_current_a=min_i,
+        min_dc_current_corner=corner_of(s_min),
+        max_dc_current_a=s_imax.dc_current_a,
+        max_dc_current_corner=corner_of(s_imax),
+        max_zener_power_w=s_pz.zener_power_w,
+        max_zener_power_corner=corner_of(s_pz),
+        max_zener_current_a=s_pz.zener_current_a,
+        max_zener_current_corner=corner_of(s_pz),
+        max_series_r_power_w=max_pr_s.series_r_power_w,
+        max_series_r_power_corner=corner_of(max_pr_s),
+        max_bleeder_power_w=vc_rms * vc_rms / rb_min if circuit.has_bleeder else 0.0,
+        max_bleeder_power_corner=bleed_corner,
+        max_bleeder_voltage_v=vc_pk_s.x_cap_voltage_peak_v,
+        max_bleeder_voltage_corner=corner_of(vc_pk_s),
+        max_x_cap_voltage_v=vc_rms,
+        max_x_cap_voltage_corner=corner_of(s_vc),
+        max_line_voltage_v=mains.high_v,
+        max_output_voltage_v=s_pz.output_max_v,
+        max_output_voltage_corner=corner_of(s_pz),
+        min_output_voltage_v=s_min.output_min_v,
+        min_output_voltage_corner=corner_of(s_min),
+        max_rectifier_avg_current_a=max(s.rectifier_avg_current_a for s in solved),
+        max_rectifier_peak_current_a=rect_s.rectifier_peak_current_a,
+        # design basis [P]: a shorted X capacitor or an open clamp puts the full crest across it
+        max_rectifier_reverse_voltage_v=math.sqrt(2.0) * mains.high_v,
+        rectifier_corner=corner_of(rect_s),
+        max_line_current_rms_a=max(s.line_current_rms_a for s in solved),
+        max_line_current_rms_corner=corner_of(max(solved, key=lambda s: s.line_current_rms_a)),
+        max_reservoir_ripple_current_a=max(s.reservoir_ripple_current_a for s in solved),
+        max_reservoir_ripple_current_corner=corner_of(
+            max(solved, key=lambda s: s.reservoir_ripple_current_a)
+        ),
+        no_load_real_power_w=s_pz.real_power_w,
+        no_load_real_power_corner=corner_of(s_pz),
+        load_demand_a=demand_avg,
+        load_met=load_met,
+        load_margin_a=margin,
+        in_regulation=bool(in_reg),
+        max_regulator_power_w=reg_p,
+        min_regulator_headroom_v=reg_h,
+        regulator_ok=None if reg_h is None else bool(reg_h >= 0),
+    )
+    nom_reg_p, _ = _regulator_figures(circuit, nom)
+    nominal = Nominal(
+        freq_hz=f0,
+        dc_current_a=nom.dc_current_a,
+        zener_power_w=nom.zener_power_w,
+        zener_power_no_load_w=nom0.zener_power_w,
+        zener_current_a=nom.zener_current_a,
+        output_voltage_v=nom.output_voltage_v,
+        ripple_v=nom.ripple_v,
+        line_current_rms_a=nom.line_current_rms_a,
+        line_current_peak_a=nom.line_current_peak_a,
+        series_r_power_w=nom.series_r_power_w,
+        bleeder_power_w=nom.bleeder_power_w,
+        real_power_w=nom.real_power_w,
+        reactive_power_var=nom.reactive_power_var,
+        apparent_power_va=nom.apparent_power_va,
+        power_factor=nom.power_factor,
+        load_current_a=nom.load_current_a,
+        regulator_power_w=nom_reg_p,
+    )
+
+    # transients at their own worst corners
+    c_max = max(k.cap_f for k in grid)
+    r_min = min(k.r_ohm for k in grid)
+    f_hi = max(mains.frequencies_hz)
+    k_in = Corner(mains.high_v, f_hi, c_max, r_min, rb_min, circuit.zener_voltage_v, False)
+    cin = corner_circuit(circuit, k_in)
+    ins = inrush(cin, mains.high_v, f_hi, k_in.record(circuit))
+    sur = (
+        surge(cin, cond.surge_v, k_in.record(circuit)) if cond.surge_v > 0 else surge(cin, 0.0, {})
+    )
+    rb_max = max(k.bleeder_ohm for k in grid)
+    k_dis = Corner(mains.high_v, f_hi, c_max, r_min, rb_max, circuit.zener_voltage_v, False)
+    dis = discharge(
+        cond.profile,
+        math.sqrt(2.0) * mains.high_v,
+        c_max,
+        rb_max,
+        circuit.x_capacitance_f,
+        {**k_dis.record(circuit), "bleeder_ohm": rb_max},
+    )
+    k_su = grid[int(np.argmin(i_cf))]
+    su = startup(
+        corner_circuit(circuit, k_su),
+        k_su.mains_v,
+        k_su.freq_hz,
+        s_min.dc_current_a,
+        k_su.record(circuit),
+    )
+    if progress is not None:
+        progress(total, total)
+    return Analysis(
+        nominal=nominal,
+        worst_case=worst,
+        inrush=ins,
+        surge=sur,
+        discharge=dis,
+        startup=su,
+        holdup=su.holdup,
+        ambient_c=cond.ambient_c,
+        topology=top,
+        exact_solves=len(cache),
+    )

@@ -1,0 +1,240 @@
+"""The circuit description: plain dataclasses in SI units (V, A, F, ohm, s, Hz).
+
+Topologies (DOMAIN.md section 2; the names are the trade's):
+
+* ``bridge``: line - series resistor - X capacitor (bleeder across it) - full bridge - DC bus with
+  the reservoir, the Zener clamp and the load;
+* ``half-wave``: line - series resistor - X capacitor (bleeder across it) - node A; a Zener from A
+  to neutral (reverse breakdown on the positive half cycle, forward conduction on the negative);
+  a diode from A to the reservoir and the load.
+
+Either may feed a linear post-regulator (:class:`Regulator`); the load then sits on the regulator
+output and the bus sees the load current plus the regulator's quiescent current.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+
+from ..errors import OutOfRangeError
+
+__all__ = [
+    "DISCHARGE_PROFILES",
+    "TOPOLOGIES",
+    "Circuit",
+    "Conditions",
+    "Load",
+    "Mains",
+    "Regulator",
+    "Tolerances",
+]
+
+TOPOLOGIES = ("bridge", "half-wave")
+DISCHARGE_PROFILES = ("iec60335", "iec62368", "iec60950")
+
+
+def _need(ok: bool, what: str) -> None:
+    if not ok:
+        raise OutOfRangeError(what)
+
+
+@dataclass(frozen=True)
+class Mains:
+    """The supply: nominal rms voltage [V], relative tolerance (0.1 = +/-10 %), frequencies [Hz].
+
+    ``v_min``/``v_max`` override the tolerance when given (e.g. 207 V .. 253 V).
+    """
+
+    nominal_v: float = 230.0
+    tolerance: float = 0.10
+    frequencies_hz: tuple[float, ...] = (50.0,)
+    v_min: float | None = None
+    v_max: float | None = None
+
+    def __post_init__(self) -> None:
+        _need(20.0 <= self.nominal_v <= 440.0, f"mains {self.nominal_v} V outside 20..440 V rms")
+        _need(0.0 <= self.tolerance < 0.5, f"mains tolerance {self.tolerance} outside 0..0.5")
+        _need(len(self.frequencies_hz) > 0, "at least one mains frequency is needed")
+        for f in self.frequencies_hz:
+            _need(16.0 <= f <= 400.0, f"mains frequency {f} Hz outside 16..400 Hz")
+
+    @property
+    def low_v(self) -> float:
+        """Lowest rms mains voltage [V]."""
+        return self.v_min if self.v_min is not None else self.nominal_v * (1 - self.tolerance)
+
+    @property
+    def high_v(self) -> float:
+        """Highest rms mains voltage [V]."""
+        return self.v_max if self.v_max is not None else self.nominal_v * (1 + self.tolerance)
+
+
+@dataclass(frozen=True)
+class Load:
+    """DC load on the bus (or on the regulator output when there is one).
+
+    Either a constant current ``current_a`` [A] or a resistor ``resistance_ohm`` [ohm]; a burst
+    profile adds ``burst_current_a`` for ``burst_duration_s`` every ``burst_period_s``.
+    """
+
+    current_a: float = 0.0
+    resistance_ohm: float | None = None
+    burst_current_a: float = 0.0
+    burst_duration_s: float = 0.0
+    burst_period_s: float = 0.0
+
+    def __post_init__(self) -> None:
+        _need(self.current_a >= 0, f"load current {self.current_a} A is negative")
+        _need(
+            self.resistance_ohm is None or self.resistance_ohm > 0,
+            f"load resistance {self.resistance_ohm} ohm must be positive",
+        )
+        _need(self.burst_current_a >= 0, "burst current must not be negative")
+        if self.burst_current_a > 0:
+            _need(
+                0 < self.burst_duration_s < self.burst_period_s,
+                "a burst needs 0 < duration < period",
+            )
+
+    @property
+    def has_burst(self) -> bool:
+        return self.burst_current_a > 0 and self.burst_duration_s > 0
+
+    def demand_a(self, voltage_v: float) -> float:
+        """Steady (base) current [A] the load draws at ``voltage_v`` (bursts excluded)."""
+        if self.resistance_ohm is not None:
+            return self.current_a + voltage_v / self.resistance_ohm
+        return self.current_a
+
+    def average_demand_a(self, voltage_v: float) -> float:
+        """Base current plus the burst current averaged over its period [A]."""
+        extra = 0.0
+        if self.has_burst:
+            extra = self.burst_current_a * self.burst_duration_s / self.burst_period_s
+        return self.demand_a(voltage_v) + extra
+
+    @property
+    def is_zero(self) -> bool:
+        return self.current_a == 0 and self.resistance_ohm is None and not self.has_burst
+
+    def describe(self) -> float:
+        """A number for the corner record: the load current [A] (resistor: None-safe 0)."""
+        return self.current_a
+
+
+@dataclass(frozen=True)
+class Regulator:
+    """Linear post-regulator: output voltage [V], dropout [V], quiescent current [A]."""
+
+    output_v: float
+    dropout_v: float = 1.0
+    quiescent_a: float = 0.005
+
+    def __post_init__(self) -> None:
+        _need(self.output_v > 0, "regulator output voltage must be positive")
+        _need(self.dropout_v >= 0 and self.quiescent_a >= 0, "dropout and Iq must be >= 0")
+
+
+@dataclass(frozen=True)
+class Circuit:
+    """Component values of one dropper [SI]. ``x_capacitors_f`` are in parallel.
+
+    ``bleeder_resistance_ohm`` may be ``math.inf`` (no bleeder). ``diode_drop_v`` and
+    ``diode_resistance_ohm`` describe one rectifier diode (bridge: two conduct in series) and the
+    Zener's forward direction; ``zener_impedance_ohm`` is the dynamic resistance in breakdown.
+    """
+
+    topology: str = "bridge"
+    x_capacitors_f: tuple[float, ...] = (330e-9,)
+    series_resistance_ohm: float = 470.0
+    bleeder_resistance_ohm: float = 1e6
+    diode_drop_v: float = 0.8
+    diode_resistance_ohm: float = 0.1
+    zener_voltage_v: float = 12.0
+    zener_impedance_ohm: float = 0.0
+    reservoir_f: float = 220e-6
+    load: Load = field(default_factory=Load)
+    regulator: Regulator | None = None
+
+    def __post_init__(self) -> None:
+        _need(
+            self.topology in TOPOLOGIES,
+            f"unknown topology {self.topology!r}; one of {', '.join(TOPOLOGIES)}",
+        )
+        _need(len(self.x_capacitors_f) > 0, "at least one X capacitor is needed")
+        for c in self.x_capacitors_f:
+            _need(1e-9 <= c <= 20e-6, f"X capacitance {c} F outside 1 nF..20 uF")
+        _need(
+            1.0 <= self.series_resistance_ohm <= 1e5,
+            f"series resistance {self.series_resistance_ohm} ohm outside 1 ohm..100 kohm",
+        )
+        _need(self.bleeder_resistance_ohm >= 1e3, "bleeder below 1 kohm is not a bleeder")
+        _need(0 <= self.diode_drop_v <= 3, f"diode drop {self.diode_drop_v} V outside 0..3 V")
+        _need(0 <= self.diode_resistance_ohm <= 100, "diode resistance outside 0..100 ohm")
+        _need(1.0 <= self.zener_voltage_v <= 200, f"Zener {self.zener_voltage_v} V out of 1..200 V")
+        _need(0 <= self.zener_impedance_ohm <= 1e3, "Zener impedance outside 0..1 kohm")
+        _need(1e-7 <= self.reservoir_f <= 0.1, f"reservoir {self.reservoir_f} F out of range")
+        if self.regulator is not None:
+            _need(
+                self.regulator.output_v < self.bus_voltage_v,
+                "regulator output must be below the bus voltage",
+            )
+
+    @property
+    def x_capacitance_f(self) -> float:
+        """Total X capacitance [F] (parts in parallel)."""
+        return float(sum(self.x_capacitors_f))
+
+    @property
+    def bus_voltage_v(self) -> float:
+        """Nominal regulated DC voltage on the reservoir [V]: Vz (bridge) or Vz - Vf (half-wave)."""
+        if self.topology == "half-wave":
+            return self.zener_voltage_v - self.diode_drop_v
+        return self.zener_voltage_v
+
+    def bus_demand_a(self) -> float:
+        """Base current the bus must supply at regulation [A] (regulator Iq included)."""
+        if self.regulator is not None:
+            return self.load.demand_a(self.regulator.output_v) + self.regulator.quiescent_a
+        return self.load.demand_a(self.bus_voltage_v)
+
+    def with_values(self, **changes) -> Circuit:
+        """A copy with some fields changed (``dataclasses.replace``)."""
+        return replace(self, **changes)
+
+    @property
+    def has_bleeder(self) -> bool:
+        return math.isfinite(self.bleeder_resistance_ohm)
+
+
+@dataclass(frozen=True)
+class Tolerances:
+    """Relative tolerances: X capacitor (+/-), end-of-life capacitance loss, resistors, Zener."""
+
+    cap_tol: float = 0.10
+    cap_loss: float = 0.10
+    r_tol: float = 0.05
+    zener_tol: float = 0.05
+
+    def __post_init__(self) -> None:
+        for name in ("cap_tol", "cap_loss", "r_tol", "zener_tol"):
+            v = getattr(self, name)
+            _need(0 <= v < 0.9, f"{name} {v} outside 0..0.9")
+
+
+@dataclass(frozen=True)
+class Conditions:
+    """Ambient temperature [C], discharge profile, IEC 61000-4-5 surge level [V] (0: none)."""
+
+    ambient_c: float = 40.0
+    profile: str = "iec60335"
+    surge_v: float = 1000.0
+
+    def __post_init__(self) -> None:
+        _need(
+            self.profile in DISCHARGE_PROFILES,
+            f"unknown discharge profile {self.profile!r}; one of {', '.join(DISCHARGE_PROFILES)}",
+        )
+        _need(-40 <= self.ambient_c <= 125, f"ambient {self.ambient_c} C outside -40..125 C")
+        _need(0 <= self.surge_v <= 10e3, f"surge level {self.surge_v} V outside 0..10 kV")
