@@ -65,7 +65,16 @@ _TITLES = {
 }
 
 # sections of the JSON that describe what was asked (shown first, as given)
-_INPUT_KEYS = ("requirement", "circuit", "inputs", "mains", "tolerances", "conditions", "policy")
+_INPUT_KEYS = (
+    "requirement",
+    "circuit",
+    "inputs",
+    "mains",
+    "tolerances",
+    "conditions",
+    "boards",
+    "effective",
+)
 # sections holding computed figures (worst-case table); other numeric sections are added after
 _FIGURE_KEYS = (
     "worst_case",
@@ -78,7 +87,7 @@ _FIGURE_KEYS = (
     "power",
     "performance",
 )
-_PART_KEYS = ("parts", "bom", "selection", "lines")
+_PART_KEYS = ("parts", "bom", "selection", "lines", "roles")
 _CHECK_KEYS = ("findings", "checks")
 _SKIP_KEYS = frozenset({"cautions", "waveforms", *_PART_KEYS, *_CHECK_KEYS})
 
@@ -109,6 +118,8 @@ def _show(key: str, value: Any) -> str:
     if isinstance(value, bool):
         return "yes" if value else "no"
     if _is_number(value):
+        if key == "margin":
+            return f"{float(value) * 100:+.1f} %"
         unit = _unit_of(key)
         if not math.isfinite(float(value)):
             return str(value)
@@ -219,7 +230,11 @@ def _input_rows(result: Mapping[str, Any]) -> list[dict[str, Any]]:
         if data is None:
             continue
         flat: list[tuple[str, Any]] = []
-        _flatten(section, data, flat)
+        if isinstance(data, list) and all(isinstance(d, Mapping) for d in data):
+            for i, item in enumerate(data):
+                _flatten(f"{section}[{i}]", item, flat)
+        else:
+            _flatten(section, data, flat)
         for path, leaf in flat:
             name = path.split(".", 1)[1] if "." in path else path
             rows.append(
@@ -232,8 +247,53 @@ def _input_rows(result: Mapping[str, Any]) -> list[dict[str, Any]]:
     return rows
 
 
+#: columns of a findings/parts row whose unit is named by the row's own ``unit`` field
+_UNIT_FIELD_COLUMNS = frozenset({"stress", "rating", "limit", "value"})
+_UNIT_FIELD_NAMES = {
+    "V": "_v",
+    "A": "_a",
+    "W": "_w",
+    "J": "_j",
+    "s": "_s",
+    "F": "_f",
+    "ohm": "_ohm",
+    "Hz": "_hz",
+    "A2s": "_a2s",
+    "C": "_c",
+    "V/s": "_v_per_s",
+}
+
+
+#: unit of a part's ``value`` by its kind or role (as in the catalogue's VALUE_UNITS)
+_ROLE_UNITS = {
+    "x_capacitor": "F",
+    "film_capacitor": "F",
+    "electrolytic": "F",
+    "reservoir": "F",
+    "resistor": "ohm",
+    "series_resistor": "ohm",
+    "bleeder": "ohm",
+    "zener": "V",
+    "fuse": "A",
+    "diode": "A",
+    "bridge": "A",
+    "rectifier": "A",
+}
+
+
+def _ok_of(item: Mapping[str, Any]) -> bool | None:
+    """Pass/fail of a row: its ``ok`` field, else ``severity`` (fail = not ok)."""
+    if isinstance(item.get("ok"), bool):
+        return item["ok"]
+    severity = item.get("severity")
+    if isinstance(severity, str):
+        return severity.lower() != "fail"
+    return None
+
+
 def _table(items: Sequence[Any], prefix: str) -> dict[str, Any]:
-    """Column headers and cells of a list of flat dicts (parts, findings)."""
+    """Column headers and cells of a list of flat dicts (parts, findings). A row's ``unit``
+    field (``"V"``, ``"W"``, ...) gives the unit of its stress/rating/limit/value columns."""
     columns: list[str] = []
     for item in items:
         if isinstance(item, Mapping):
@@ -243,12 +303,15 @@ def _table(items: Sequence[Any], prefix: str) -> dict[str, Any]:
     body = []
     for i, item in enumerate(items):
         item = item if isinstance(item, Mapping) else {"item": item}
-        body.append(
-            {
-                "ok": item.get("ok"),
-                "cells": [_Cell.of(c, item.get(c), f"{prefix}[{i}].{c}") for c in columns],
-            }
-        )
+        suffix = _UNIT_FIELD_NAMES.get(str(item.get("unit")), "")
+        role_unit = _ROLE_UNITS.get(str(item.get("kind") or item.get("role") or ""))
+        cells = []
+        for c in columns:
+            unit_key = c + suffix if c in _UNIT_FIELD_COLUMNS else c
+            if c == "value" and not suffix and role_unit:
+                unit_key = "value" + _UNIT_FIELD_NAMES[role_unit]
+            cells.append(_Cell.of(unit_key, item.get(c), f"{prefix}[{i}].{c}"))
+        body.append({"ok": _ok_of(item), "severity": item.get("severity"), "cells": cells})
     return {"columns": [_quantity_name(c) for c in columns], "rows": body}
 
 
@@ -314,7 +377,10 @@ def render_report(
     if not isinstance(result, Mapping):
         raise BadValueError("the report needs the command's JSON document (a mapping)")
     # the exact document the command prints with --json, so the page and the JSON agree
-    doc = json.loads(json.dumps(result, default=_json_default, allow_nan=False))
+    # (NaN / inf become null, as print_json writes them)
+    doc = json.loads(json.dumps(_finite(result), default=_json_default, allow_nan=False))
+    full = doc
+    doc = _focus(doc)
     topo = topology or _find_topology(doc, circuit)
     schematic = ""
     if topo is not None:
@@ -334,7 +400,7 @@ def render_report(
     ]
     pkey, parts = _first_list(doc, _PART_KEYS)
     ckey, checks = _collect_checks(doc)
-    failed = sum(1 for c in checks if isinstance(c, Mapping) and c.get("ok") is False)
+    failed = sum(1 for c in checks if isinstance(c, Mapping) and _ok_of(c) is False)
     cautions = doc.get("cautions") or list(CAUTIONS)
     stamp = (now or (lambda: _dt.datetime.now(_dt.UTC)))().strftime("%Y-%m-%d %H:%M UTC")
     html = (
@@ -356,7 +422,8 @@ def render_report(
             failed=failed,
             n_checks=len(checks),
             cautions=cautions,
-            document=doc,
+            document=full,
+            focus=_focus_path(full),
         )
     )
     return html
@@ -416,11 +483,46 @@ def _json_default(obj: Any) -> Any:
     raise TypeError(f"cannot put {type(obj).__name__} into the report")
 
 
+def _finite(obj: Any) -> Any:
+    """Like cli._app.to_jsonable: dataclasses and numpy to plain types, NaN/inf to None."""
+    if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
+        obj = dataclasses.asdict(obj)
+    if isinstance(obj, Mapping):
+        return {str(k): _finite(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_finite(v) for v in obj]
+    if hasattr(obj, "tolist"):
+        return _finite(obj.tolist())
+    if isinstance(obj, float) and not math.isfinite(obj):
+        return None
+    return obj
+
+
+def _focus(doc: dict[str, Any]) -> dict[str, Any]:
+    """A design document holding several ranked ``designs``: the first one, with the
+    document's other keys (requirement, cautions, ...) kept beside it."""
+    designs = doc.get("designs")
+    if isinstance(designs, list) and designs and isinstance(designs[0], Mapping):
+        merged = {k: v for k, v in doc.items() if k != "designs"}
+        merged.update(designs[0])
+        return merged
+    return doc
+
+
+def _focus_path(doc: Mapping[str, Any]) -> str:
+    """Where the shown design sits in the JSON (``designs[0]``), or empty."""
+    designs = doc.get("designs")
+    return "designs[0]" if isinstance(designs, list) and designs else ""
+
+
 def _find_topology(doc: Mapping[str, Any], circuit: Any) -> str | None:
     candidates = [getattr(circuit, "topology", None), doc.get("topology")]
     for section in _INPUT_KEYS:
-        if isinstance(doc.get(section), Mapping):
-            candidates.append(doc[section].get("topology"))
+        data = doc.get(section)
+        if isinstance(data, list) and data and isinstance(data[0], Mapping):
+            data = data[0]
+        if isinstance(data, Mapping):
+            candidates.append(data.get("topology"))
     for c in candidates:
         if isinstance(c, str) and c.strip().lower().replace("_", "-") in TOPOLOGIES:
             return c.strip().lower().replace("_", "-")
@@ -451,7 +553,7 @@ def _labels_from(doc: Mapping[str, Any]) -> dict[str, str]:
         if target is None or target in labels:
             continue
         bits = [str(part.get("ref") or part.get("designator") or "")]
-        desc = part.get("description") or part.get("code")
+        desc = part.get("description") or part.get("text") or part.get("code")
         if desc:
             bits.append(str(desc))
         elif part.get("value") is not None:

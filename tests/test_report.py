@@ -1,0 +1,412 @@
+"""The HTML report (selector.report): parses, carries inline SVG only, shows the JSON's numbers.
+
+The documents below have the shapes of the check / design / audit JSON documents; their values
+are invented for the test (demo). The plotted line current is the textbook current of an ideal
+capacitor across a sine source, i(t) = Vpk * 2 pi f C * cos(2 pi f t) (any circuits textbook),
+only so that the plot has a real waveform to draw.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import re
+import shutil
+import subprocess
+from html.parser import HTMLParser
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pytest
+
+from selector.cautions import CAUTIONS
+from selector.errors import BadValueError
+from selector.report import render_report, write_report
+from selector.report.plots import Trace, waveform_svg
+from selector.report.schematic import schematic_svg
+from selector.units import parse_value
+
+CHROMIUM = shutil.which("chromium") or (
+    "/usr/bin/chromium" if Path("/usr/bin/chromium").exists() else None
+)
+
+
+class _Page(HTMLParser):
+    """Collects what the tests look at: tags in order, numeric cells, scripts, SVGs, links."""
+
+    def __init__(self) -> None:
+        super().__init__(convert_charrefs=True)
+        self.stack: list[str] = []
+        self.cells: list[dict[str, str]] = []
+        self._cell: dict[str, str] | None = None
+        self.svgs = 0
+        self.scripts: list[tuple[dict[str, str | None], str]] = []
+        self._script: dict[str, str | None] | None = None
+        self._script_text: list[str] = []
+        self.urls: list[str] = []
+        self.text: list[str] = []
+        self.body_focus: str | None = None
+        self.sections: list[str] = []
+        self.li: list[str] = []
+        self._in_li = False
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        if tag == "svg":
+            self.svgs += 1
+        if tag == "body":
+            self.body_focus = a.get("data-focus")
+        if tag == "section":
+            self.sections.append(a.get("id") or "")
+        if tag == "td" and a.get("data-si"):
+            self._cell = {"key": a["data-key"] or "", "si": a["data-si"], "text": ""}
+        if tag == "script":
+            self._script, self._script_text = a, []
+        if tag == "li":
+            self._in_li = True
+            self.li.append("")
+        for k in ("src", "href", "xlink:href"):
+            if a.get(k):
+                self.urls.append(a[k])
+        if tag not in ("br", "meta", "img", "input", "link", "hr"):
+            self.stack.append(tag)
+
+    def handle_endtag(self, tag):
+        if tag == "td" and self._cell is not None:
+            self.cells.append(self._cell)
+            self._cell = None
+        if tag == "script" and self._script is not None:
+            self.scripts.append((self._script, "".join(self._script_text)))
+            self._script = None
+        if tag == "li":
+            self._in_li = False
+        if self.stack and self.stack[-1] == tag:
+            self.stack.pop()
+
+    def handle_data(self, data):
+        if self._cell is not None:
+            self._cell["text"] += data
+        if self._script is not None:
+            self._script_text.append(data)
+        if self._in_li:
+            self.li[-1] += data
+        self.text.append(data)
+
+
+def _parse(html: str) -> _Page:
+    page = _Page()
+    page.feed(html)
+    page.close()
+    return page
+
+
+def _lookup(doc: Any, path: str) -> Any:
+    """Value at a dotted path with [i] indexes, e.g. ``checks[2].stress``."""
+    cur = doc
+    for part in re.findall(r"[^.\[\]]+|\[\d+\]", path):
+        if part.startswith("["):
+            cur = cur[int(part[1:-1])]
+        else:
+            cur = cur[part]
+    return cur
+
+
+def _waveforms() -> dict[str, Any]:
+    f, c, vpk = 50.0, 330e-9, 230.0 * 1.1 * math.sqrt(2.0)
+    t = np.linspace(0.0, 2.0 / f, 801)
+    i = vpk * 2 * math.pi * f * c * np.cos(2 * math.pi * f * t)
+    v = np.full_like(t, 12.0) - 0.1 * np.sin(4 * math.pi * f * t)
+    ts = np.linspace(0.0, 5e-3, 300)
+    inrush = (vpk / 470.0) * np.exp(-ts / (470.0 * c))
+    return {
+        "line current over two mains cycles (253 V, 50 Hz)": ("A", [Trace("253 V 50 Hz", t, i)]),
+        "output voltage over two mains cycles": ("V", [("207 V 50 Hz, full load", t, v)]),
+        "switch-on current at the crest": ("A", [("crest, discharged", ts, inrush)]),
+    }
+
+
+CHECK_DOC = {
+    "circuit": {
+        "topology": "bridge",
+        "x_capacitors_f": [330e-9],
+        "series_resistance_ohm": 470.0,
+        "bleeder_resistance_ohm": 1e6,
+        "zener_voltage_v": 12.0,
+        "reservoir_f": 220e-6,
+    },
+    "mains": {"nominal_v": 230.0, "tolerance": 0.1, "frequencies_hz": [50.0, 60.0]},
+    "worst_case": {
+        "zener_power_w": 0.2518,
+        "zener_power_w_corner": "253 V, 60 Hz, C +10 %, no load",
+        "min_output_current_a": 0.01513,
+        "min_output_current_a_corner": "207 V, 50 Hz, C -10 % -10 % loss",
+        "series_r_power_w": 0.0893,
+        "corners": {"series_r_power_w": "253 V, 60 Hz, C +10 %"},
+    },
+    "inrush": {"peak_current_a": 0.761, "energy_j": 0.0116, "i2t_a2s": 1.3e-4},
+    "findings": [
+        {
+            "rule": "zener_power",
+            "part": "zener",
+            "stress": 0.2518,
+            "limit": 0.5,
+            "unit": "W",
+            "margin": 0.496,
+            "ok": True,
+            "source": "common practice [P]",
+            "corner": "253 V 60 Hz",
+        },
+        {
+            "rule": "x_cap_voltage",
+            "part": "x_capacitor",
+            "stress": 253.0,
+            "limit": 250.0,
+            "unit": "V",
+            "margin": -0.012,
+            "ok": False,
+            "source": "IEC 60384-14",
+            "corner": "253 V",
+        },
+    ],
+    "cautions": list(CAUTIONS),
+}
+
+DESIGN_DOC = {
+    "requirement": {"load_a": 0.012, "vout_v": 5.1, "mains_v": 230.0, "topology": "bridge"},
+    "designs": [
+        {
+            "rank": 1,
+            "topology": "bridge",
+            "total_price": 0.4123,
+            "parts": [
+                {
+                    "role": "x_capacitor",
+                    "code": "XF2-330N-305-K",
+                    "description": "X2 330 nF 305 V",
+                    "value": 3.3e-7,
+                    "qty": 1,
+                    "unit_price": 0.14,
+                },
+                {
+                    "role": "series_resistor",
+                    "code": "RFU-100R",
+                    "description": "fusible 100 ohm 1 W",
+                    "value": 100.0,
+                    "qty": 1,
+                    "unit_price": 0.05,
+                },
+                {
+                    "role": "zener",
+                    "code": "ZD1-5V1",
+                    "description": "Zener 5.1 V 1 W",
+                    "value": 5.1,
+                    "qty": 1,
+                    "unit_price": 0.022,
+                },
+            ],
+            "worst_case": {"zener_power_w": 0.1203, "min_output_current_a": 0.01391},
+            "checks": [
+                {
+                    "rule": "zener_power",
+                    "part": "zener",
+                    "stress": 0.1203,
+                    "limit": 0.5,
+                    "unit": "W",
+                    "margin": 0.759,
+                    "ok": True,
+                    "severity": "pass",
+                    "source": "common practice [P]",
+                    "corner": "253 V 60 Hz no load",
+                }
+            ],
+        },
+        {"rank": 2, "topology": "bridge", "total_price": 0.5, "parts": [], "checks": []},
+    ],
+    "cautions": list(CAUTIONS),
+}
+
+AUDIT_DOC = {
+    "file": "board.csv",
+    "roles": [
+        {
+            "ref": "C1",
+            "role": "x_capacitor",
+            "kind": "x_capacitor",
+            "value": 4.7e-7,
+            "text": "470n X2 275V",
+        },
+        {
+            "ref": "R1",
+            "role": "series_resistor",
+            "kind": "resistor",
+            "value": 220.0,
+            "text": "220R 1206",
+        },
+    ],  # fmt: skip
+    "boards": [
+        {
+            "board": "",
+            "topology": "half-wave",
+            "x_capacitance_f": 4.7e-7,
+            "series_resistance_ohm": 220.0,
+            "zener_voltage_v": 12.0,
+        }
+    ],
+    "findings": [
+        {
+            "ref": "R1",
+            "role": "series_resistor",
+            "rule": "series_r_power",
+            "stress": 0.61,
+            "rating": 0.25,
+            "unit": "W",
+            "margin": -1.44,
+            "severity": "fail",
+            "source": "common practice [P]",
+            "corner": "253 V 60 Hz",
+        },
+        {
+            "ref": "C1",
+            "role": "x_capacitor",
+            "rule": "x_cap_class",
+            "stress": None,
+            "rating": None,
+            "unit": "class",
+            "margin": None,
+            "severity": "pass",
+            "source": "IEC 60384-14",
+            "corner": None,
+        },
+    ],
+    "summary": {"fail": 1, "warn": 0, "pass": 1},
+    "cautions": list(CAUTIONS),
+}
+
+
+@pytest.mark.parametrize(
+    ("kind", "doc", "topology"),
+    [("check", CHECK_DOC, "bridge"), ("design", DESIGN_DOC, "bridge"),
+     ("audit", AUDIT_DOC, "half-wave")],
+)  # fmt: skip
+def test_report_parses_and_holds_every_section(tmp_path, kind, doc, topology):
+    path = write_report(tmp_path / f"{kind}.html", kind, doc, waveforms=_waveforms())
+    html = path.read_text(encoding="utf-8")
+    page = _parse(html)
+    assert html.startswith("<!DOCTYPE html>")
+    assert page.stack == [], f"unclosed tags: {page.stack}"
+    assert page.sections == [
+        "inputs", "schematic", "worst-case", "waveforms", "parts", "checks", "cautions"
+    ]  # fmt: skip
+    # the schematic and three plots, all inline: no external URL anywhere (self-contained)
+    assert page.svgs == 4
+    assert not [u for u in page.urls if re.match(r"^(https?:)?//", u)]
+    assert "<img" not in html and "<link" not in html and "@import" not in html
+    assert f"topology: {topology}" in html
+    # every caution, in full, at the end
+    assert [li.strip() for li in page.li] == list(CAUTIONS)
+    assert html.rfind("Safety cautions") > html.rfind('id="checks"')
+
+
+@pytest.mark.parametrize(
+    ("kind", "doc"), [("check", CHECK_DOC), ("design", DESIGN_DOC), ("audit", AUDIT_DOC)]
+)
+def test_numbers_in_the_page_equal_the_json(tmp_path, kind, doc):
+    html = render_report(kind, doc, waveforms=_waveforms())
+    page = _parse(html)
+    (attrs, text), *_ = [s for s in page.scripts if s[0].get("id") == "dropper-result"]
+    assert attrs.get("type") == "application/json"
+    assert json.loads(text) == json.loads(json.dumps(doc))  # the whole document, verbatim
+    focus = _lookup(doc, page.body_focus) if page.body_focus else doc
+    numeric = [c for c in page.cells if c["si"]]
+    assert len(numeric) >= 8
+    for cell in numeric:
+        key = cell["key"]
+        try:
+            want = _lookup(focus, key)
+        except (KeyError, IndexError):
+            want = _lookup(doc, key)
+        assert float(cell["si"]) == float(want), key  # exact, as in the JSON
+        shown = cell["text"].strip()
+        if re.fullmatch(r"[-+0-9.eE]+ ?[pnµmkMG]?(F|Ω|V|A|W|J|s|Hz)", shown):
+            got = parse_value(shown.replace("Ω", "ohm").replace("µ", "u"))
+            assert math.isclose(got, float(want), rel_tol=5e-4), (key, shown, want)
+
+
+def test_shown_values_in_engineering_notation():
+    page = _parse(render_report("check", CHECK_DOC))
+    shown = {c["key"]: c["text"].strip() for c in page.cells}
+    assert shown["worst_case.zener_power_w"] == "251.8 mW"
+    assert shown["worst_case.min_output_current_a"] == "15.13 mA"
+    assert shown["circuit.series_resistance_ohm"] == "470 Ω"
+    assert shown["findings[1].stress"] == "253 V"  # the row's own unit field
+    html = render_report("check", CHECK_DOC)
+    # the corner behind each extreme, next to it
+    assert "253 V, 60 Hz, C +10 %, no load" in html
+    assert "207 V, 50 Hz, C -10 % -10 % loss" in html
+    assert "253 V, 60 Hz, C +10 %" in html
+
+
+def test_failing_checks_are_counted_and_marked():
+    html = render_report("check", CHECK_DOC)
+    assert "1 of 2 checks fail" in html
+    assert html.count('class="bad"') == 1
+    audit = render_report("audit", AUDIT_DOC)
+    assert "1 of 2 checks fail" in audit
+
+
+def test_autoescape_keeps_markup_out():
+    doc = dict(CHECK_DOC, cautions=["<script>alert(1)</script> & more"])
+    html = render_report("check", doc)
+    assert "<script>alert(1)" not in html
+    assert "&lt;script&gt;alert(1)&lt;/script&gt; &amp; more" in html
+
+
+def test_design_report_shows_the_first_design_and_its_prices():
+    page = _parse(render_report("design", DESIGN_DOC))
+    assert page.body_focus == "designs[0]"
+    shown = {c["key"]: c["text"].strip() for c in page.cells}
+    assert shown["parts[0].unit_price"] == "0.14"
+    assert shown["parts[0].value"] == "330 nF"  # unit from the part's role
+    assert shown["parts[1].value"] == "100 Ω"
+    assert shown["checks[0].margin"] == "+75.9 %"
+    assert "XF2-330N-305-K" in "".join(page.text)
+
+
+def test_schematics_carry_the_values():
+    for topology in ("bridge", "half-wave"):
+        svg = schematic_svg(topology, {"x_capacitor": "C1 330 nF X2", "zener": "DZ1 12 V"})
+        assert svg.startswith("<svg") and "330 nF" in svg and "DZ1 12 V" in svg
+    with pytest.raises(BadValueError, match="one of bridge, half-wave"):
+        schematic_svg("forward")
+
+
+def test_plot_errors_and_scaling():
+    t = np.linspace(0, 0.04, 50)
+    svg = waveform_svg("small", "A", [Trace("x", t, 1e-3 * np.sin(t))])
+    assert "[µA]" in svg or "[mA]" in svg
+    with pytest.raises(BadValueError, match="nothing to plot"):
+        waveform_svg("empty", "A", [])
+    with pytest.raises(BadValueError, match="empty or ragged"):
+        waveform_svg("ragged", "A", [Trace("x", t, t[:-1])])
+
+
+def test_unknown_kind_is_refused():
+    with pytest.raises(BadValueError, match="one of check, design, audit"):
+        render_report("summary", CHECK_DOC)
+
+
+def test_renders_headless_in_chromium(tmp_path):
+    if CHROMIUM is None:
+        pytest.skip("Debian's chromium is not installed here: the headless render test is skipped")
+    path = write_report(tmp_path / "r.html", "check", CHECK_DOC, waveforms=_waveforms())
+    png = tmp_path / "r.png"
+    proc = subprocess.run(
+        [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--hide-scrollbars",
+         "--window-size=1100,2600", f"--screenshot={png}", path.as_uri()],
+        capture_output=True, text=True, timeout=120,
+    )  # fmt: skip
+    assert png.exists(), proc.stderr[-2000:]
+    data = png.read_bytes()
+    assert data[:8] == b"\x89PNG\r\n\x1a\n"
+    assert len(data) > 50_000  # a rendered page with figures, not a blank one
