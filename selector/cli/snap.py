@@ -7,7 +7,6 @@ from typing import Annotated
 
 import typer
 
-from .. import snapping
 from ..units import format_value
 from ._app import app, print_json
 
@@ -36,6 +35,8 @@ def snap(
     json: Annotated[bool, typer.Option("--json", help="Print one JSON document.")] = False,
 ) -> None:
     """Snap values to the nearest, next-up or next-down preferred value (IEC 60063)."""
+    from .. import snapping  # lazy: keeps numpy out of `dropper --help`
+
     if column is not None:
         if len(values) != 1:
             raise typer.BadParameter("with --column give exactly one CSV file", param_hint="VALUES")
