@@ -1,1 +1,305 @@
-"""`dropper check`: registered here when built (see DEVELOPERS.md)."""
+"""`dropper check`: worst-case stresses and margins of a given set of values."""
+
+from __future__ import annotations
+
+import math
+
+import typer
+
+from ..cautions import CAUTIONS
+from ..engine import Analysis, analyse
+from ..errors import EXIT_FINDINGS
+from ..units import format_value
+from ._app import app, echo_cautions, print_json
+from ._circuit import (
+    AmbientOpt,
+    BleederOpt,
+    BurstOpt,
+    BurstPeriodOpt,
+    BurstTimeOpt,
+    CapLossOpt,
+    CapOpt,
+    CapTolOpt,
+    DbOpt,
+    DiodeDropOpt,
+    DiodeROpt,
+    DropoutOpt,
+    FreqOpt,
+    JsonOpt,
+    LoadOpt,
+    LoadROpt,
+    MainsOpt,
+    MainsTolOpt,
+    ProfileOpt,
+    QuiescentOpt,
+    RegulatorOpt,
+    ReservoirOpt,
+    RTolOpt,
+    SeriesROpt,
+    SurgeOpt,
+    TopologyOpt,
+    ZenerOpt,
+    ZenerTolOpt,
+    ZenerZOpt,
+    circuit_from_options,
+    conditions_from_options,
+    describe_corner,
+    load_from_options,
+    mains_from_options,
+    tolerances_from_options,
+)
+
+
+@app.command()
+def check(
+    cap: CapOpt = None,
+    topology: TopologyOpt = "bridge",
+    mains: MainsOpt = "230",
+    mains_tol: MainsTolOpt = "10",
+    freq: FreqOpt = "50",
+    cap_tol: CapTolOpt = "10",
+    cap_loss: CapLossOpt = "10",
+    series_r: SeriesROpt = "470",
+    r_tol: RTolOpt = "5",
+    bleeder: BleederOpt = "1M",
+    zener: ZenerOpt = "12",
+    zener_tol: ZenerTolOpt = "5",
+    zener_z: ZenerZOpt = "0",
+    reservoir: ReservoirOpt = "220u",
+    load: LoadOpt = "0",
+    load_r: LoadROpt = None,
+    burst: BurstOpt = None,
+    burst_time: BurstTimeOpt = None,
+    burst_period: BurstPeriodOpt = None,
+    regulator: RegulatorOpt = None,
+    dropout: DropoutOpt = "1",
+    quiescent: QuiescentOpt = "5m",
+    diode_drop: DiodeDropOpt = "0.8",
+    diode_r: DiodeROpt = "0.1",
+    ambient: AmbientOpt = "40",
+    profile: ProfileOpt = "iec60335",
+    surge: SurgeOpt = "1k",
+    json: JsonOpt = False,
+    db: DbOpt = None,
+) -> None:
+    """Worst-case stresses, margins and transients of given values (exit 1: load not met at
+    some corner, or the discharge rule fails)."""
+    del db  # accepted for uniformity with the other commands; check needs no catalogue
+    circuit = circuit_from_options(
+        cap,
+        topology=topology,
+        series_r=series_r,
+        bleeder=bleeder,
+        zener=zener,
+        zener_z=zener_z,
+        reservoir=reservoir,
+        diode_drop=diode_drop,
+        diode_r=diode_r,
+        load=load_from_options(load, load_r, burst, burst_time, burst_period),
+        regulator=regulator,
+        dropout=dropout,
+        quiescent=quiescent,
+    )
+    result = analyse(
+        circuit,
+        mains_from_options(mains, mains_tol, freq),
+        tolerances_from_options(cap_tol, cap_loss, r_tol, zener_tol),
+        conditions_from_options(ambient, profile, surge),
+    )
+    if json:
+        print_json(
+            {
+                "topology": result.topology,
+                "ambient_c": result.ambient_c,
+                "ok": result.ok,
+                "nominal": result.nominal,
+                "worst_case": result.worst_case,
+                "inrush": result.inrush,
+                "surge": result.surge,
+                "discharge": result.discharge,
+                "startup": result.startup,
+                "holdup": result.holdup,
+                "cautions": list(CAUTIONS),
+            }
+        )
+    else:
+        typer.echo(render_table(result))
+        echo_cautions()
+    if not result.ok:
+        raise typer.Exit(EXIT_FINDINGS)
+
+
+def _f(value: float | None, unit: str) -> str:
+    if value is None:
+        return "-"
+    if isinstance(value, float) and math.isinf(value):
+        return "never"
+    return format_value(value, unit)
+
+
+def render_table(a: Analysis) -> str:
+    """The human report: one aligned table (quantity, nominal, worst, corner) and verdicts."""
+    n, w, i, s, d = a.nominal, a.worst_case, a.inrush, a.surge, a.discharge
+    rows: list[tuple[str, str, str, str]] = [
+        (
+            "DC current, least",
+            _f(n.dc_current_a, "A"),
+            _f(w.min_dc_current_a, "A"),
+            describe_corner(w.min_dc_current_corner),
+        ),
+        (
+            "DC current, most",
+            "",
+            _f(w.max_dc_current_a, "A"),
+            describe_corner(w.max_dc_current_corner),
+        ),
+        ("Load demand (average)", _f(n.load_current_a, "A"), _f(w.load_demand_a, "A"), ""),
+        ("Load margin", "", _f(w.load_margin_a, "A"), "met" if w.load_met else "NOT MET"),
+        (
+            "Zener power",
+            _f(n.zener_power_w, "W"),
+            _f(w.max_zener_power_w, "W"),
+            describe_corner(w.max_zener_power_corner),
+        ),
+        (
+            "Zener current",
+            _f(n.zener_current_a, "A"),
+            _f(w.max_zener_current_a, "A"),
+            describe_corner(w.max_zener_current_corner),
+        ),
+        (
+            "Output voltage, most",
+            _f(n.output_voltage_v, "V"),
+            _f(w.max_output_voltage_v, "V"),
+            describe_corner(w.max_output_voltage_corner),
+        ),
+        (
+            "Output voltage, least",
+            "",
+            _f(w.min_output_voltage_v, "V"),
+            describe_corner(w.min_output_voltage_corner),
+        ),
+        ("Output ripple p-p", _f(n.ripple_v, "V"), "", ""),
+        (
+            "Line current rms",
+            _f(n.line_current_rms_a, "A"),
+            _f(w.max_line_current_rms_a, "A"),
+            describe_corner(w.max_line_current_rms_corner),
+        ),
+        (
+            "Series R power",
+            _f(n.series_r_power_w, "W"),
+            _f(w.max_series_r_power_w, "W"),
+            describe_corner(w.max_series_r_power_corner),
+        ),
+        (
+            "Bleeder power",
+            _f(n.bleeder_power_w, "W"),
+            _f(w.max_bleeder_power_w, "W"),
+            describe_corner(w.max_bleeder_power_corner),
+        ),
+        (
+            "Bleeder peak voltage",
+            "",
+            _f(w.max_bleeder_voltage_v, "V"),
+            describe_corner(w.max_bleeder_voltage_corner),
+        ),
+        (
+            "X capacitor voltage rms",
+            "",
+            _f(w.max_x_cap_voltage_v, "V"),
+            describe_corner(w.max_x_cap_voltage_corner),
+        ),
+        (
+            "Rectifier avg / peak",
+            "",
+            f"{_f(w.max_rectifier_avg_current_a, 'A')} / {_f(w.max_rectifier_peak_current_a, 'A')}",
+            describe_corner(w.rectifier_corner),
+        ),
+        (
+            "Reservoir ripple current",
+            "",
+            _f(w.max_reservoir_ripple_current_a, "A"),
+            describe_corner(w.max_reservoir_ripple_current_corner),
+        ),
+        (
+            "Real power",
+            _f(n.real_power_w, "W"),
+            _f(w.no_load_real_power_w, "W"),
+            describe_corner(w.no_load_real_power_corner),
+        ),
+        (
+            "Reactive / apparent",
+            f"{_f(n.reactive_power_var, 'var')} / {_f(n.apparent_power_va, 'VA')}",
+            "",
+            "",
+        ),
+        ("Power factor", f"{n.power_factor:.3f}", "", ""),
+    ]
+    if w.max_regulator_power_w is not None:
+        rows += [
+            ("Regulator power", _f(n.regulator_power_w, "W"), _f(w.max_regulator_power_w, "W"), ""),
+            (
+                "Regulator headroom",
+                "",
+                _f(w.min_regulator_headroom_v, "V"),
+                "ok" if w.regulator_ok else "DROPS OUT",
+            ),
+        ]
+    ic = describe_corner(i.corner)
+    rows += [
+        ("Switch-on peak current", "", _f(i.peak_current_a, "A"), ic),
+        ("Switch-on energy in R", "", _f(i.series_r_energy_j, "J"), ic),
+        ("Switch-on I²t", "", f"{i.i2t_a2s:.3g} A²s", ic),
+        ("Switch-on X cap dV/dt", "", _f(i.x_cap_dvdt_v_per_s, "V/s"), ic),
+    ]
+    if s.peak_current_a is not None:
+        sc = f"{format_value(s.level_v, 'V')} IEC 61000-4-5, 2 Ω"
+        rows += [
+            ("Surge peak current", "", _f(s.peak_current_a, "A"), sc),
+            ("Surge peak voltage on R", "", _f(s.series_r_peak_voltage_v, "V"), sc),
+            ("Surge energy in R", "", _f(s.series_r_energy_j, "J"), sc),
+            ("Surge step on X cap", "", _f(s.x_cap_voltage_step_v, "V"), sc),
+        ]
+    dis_note = "exempt (C <= 0.1 µF)" if d.exempt else ("ok" if d.ok else "FAILS")
+    rows += [
+        (
+            f"Discharge to {format_value(d.limit_v, 'V')}",
+            "",
+            _f(d.time_s, "s"),
+            f"allowed {format_value(d.allowed_s, 's')}: {dis_note}",
+        ),
+        (
+            "Start-up to regulation",
+            "",
+            _f(a.startup.time_s, "s"),
+            describe_corner(a.startup.corner),
+        ),
+    ]
+    if a.holdup is not None:
+        h = a.holdup
+        rows.append(
+            (
+                "Burst droop",
+                "",
+                _f(h.droop_v, "V"),
+                f"allowed {format_value(h.allowed_droop_v, 'V')}: " + ("ok" if h.ok else "FAILS"),
+            )
+        )
+    head = ("quantity", "nominal", "worst", "worst corner / note")
+    widths = [max(len(r[k]) for r in [head, *rows]) for k in range(3)]
+    lines = [f"{head[0]:<{widths[0]}}  {head[1]:>{widths[1]}}  {head[2]:>{widths[2]}}  {head[3]}"]
+    lines.append("-" * (sum(widths) + 6 + len(head[3])))
+    for r in rows:
+        lines.append(f"{r[0]:<{widths[0]}}  {r[1]:>{widths[1]}}  {r[2]:>{widths[2]}}  {r[3]}")
+    verdict = "ACCEPTED" if a.ok else "NOT ACCEPTED"
+    reasons = []
+    if not w.load_met:
+        reasons.append("load not met at every corner")
+    if not d.ok:
+        reasons.append(f"discharge too slow ({d.rule})")
+    lines.append("")
+    lines.append(
+        f"{a.topology} dropper: {verdict}" + (f": {'; '.join(reasons)}" if reasons else "")
+    )
+    return "\n".join(lines)

@@ -1,0 +1,272 @@
+"""Circuit options shared by ``check``, ``design`` and ``audit``.
+
+Each option is an ``Annotated`` alias so a command declares it in one line::
+
+    def check(topology: TopologyOpt = "bridge", mains: MainsOpt = "230", ...): ...
+
+and the builders below turn the texts into engine dataclasses (values read only through
+``selector.units``). A command that computes some values itself (``design``) simply passes
+``None`` for them and builds the parts it needs.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Annotated
+
+import typer
+
+from ..engine import Circuit, Conditions, Load, Mains, Regulator, Tolerances
+from ..engine.circuit import DISCHARGE_PROFILES, TOPOLOGIES
+from ..errors import BadValueError
+from ..units import format_value, parse_tolerance, parse_value
+
+__all__ = [
+    "AmbientOpt",
+    "BleederOpt",
+    "BurstOpt",
+    "BurstPeriodOpt",
+    "BurstTimeOpt",
+    "CapLossOpt",
+    "CapOpt",
+    "CapTolOpt",
+    "DbOpt",
+    "DiodeDropOpt",
+    "DiodeROpt",
+    "DropoutOpt",
+    "FreqOpt",
+    "JsonOpt",
+    "LoadOpt",
+    "LoadROpt",
+    "MainsOpt",
+    "MainsTolOpt",
+    "ProfileOpt",
+    "QuiescentOpt",
+    "RegulatorOpt",
+    "ReservoirOpt",
+    "RTolOpt",
+    "SeriesROpt",
+    "SurgeOpt",
+    "TopologyOpt",
+    "ZenerOpt",
+    "ZenerTolOpt",
+    "ZenerZOpt",
+    "circuit_from_options",
+    "conditions_from_options",
+    "describe_corner",
+    "load_from_options",
+    "mains_from_options",
+    "parse_frequencies",
+    "tolerances_from_options",
+]
+
+
+TopologyOpt = Annotated[str, typer.Option("--topology", help=f"{' or '.join(TOPOLOGIES)}.")]
+MainsOpt = Annotated[str, typer.Option("--mains", help="Nominal mains, V rms (230, 120).")]
+MainsTolOpt = Annotated[str, typer.Option("--mains-tol", help="Mains tolerance, % (10).")]
+FreqOpt = Annotated[str, typer.Option("--freq", help="Mains frequency or set, Hz: 50 or 50,60.")]
+CapOpt = Annotated[
+    list[str] | None,
+    typer.Option("--cap", help="X capacitor (330n); repeat for parts in parallel."),
+]
+CapTolOpt = Annotated[str, typer.Option("--cap-tol", help="X capacitor tolerance, % or K/M.")]
+CapLossOpt = Annotated[
+    str, typer.Option("--cap-loss", help="X capacitor end-of-life capacitance loss, %.")
+]
+SeriesROpt = Annotated[str, typer.Option("--series-r", help="Series resistance, ohm (470).")]
+RTolOpt = Annotated[str, typer.Option("--r-tol", help="Resistor tolerance, % (series + bleeder).")]
+BleederOpt = Annotated[
+    str, typer.Option("--bleeder", help="Bleeder across the X capacitor, ohm; 'none' for none.")
+]
+ZenerOpt = Annotated[str, typer.Option("--zener", help="Zener voltage, V (12).")]
+ZenerTolOpt = Annotated[str, typer.Option("--zener-tol", help="Zener voltage tolerance, %.")]
+ZenerZOpt = Annotated[str, typer.Option("--zener-z", help="Zener dynamic impedance, ohm.")]
+ReservoirOpt = Annotated[str, typer.Option("--reservoir", help="Reservoir capacitor, F (220u).")]
+LoadOpt = Annotated[str, typer.Option("--load", help="DC load current, A (15m).")]
+LoadROpt = Annotated[
+    str | None, typer.Option("--load-r", help="Load as a resistor, ohm (instead of --load).")
+]
+BurstOpt = Annotated[
+    str | None, typer.Option("--burst", help="Extra burst current, A (relay, radio).")
+]
+BurstTimeOpt = Annotated[str | None, typer.Option("--burst-time", help="Burst duration, s.")]
+BurstPeriodOpt = Annotated[
+    str | None, typer.Option("--burst-period", help="Burst repetition period, s.")
+]
+DiodeDropOpt = Annotated[str, typer.Option("--diode-drop", help="Rectifier forward drop, V.")]
+DiodeROpt = Annotated[str, typer.Option("--diode-r", help="Rectifier series resistance, ohm.")]
+RegulatorOpt = Annotated[
+    str | None, typer.Option("--regulator", help="Linear post-regulator output, V (3.3).")
+]
+DropoutOpt = Annotated[str, typer.Option("--dropout", help="Regulator dropout, V.")]
+QuiescentOpt = Annotated[str, typer.Option("--quiescent", help="Regulator quiescent current, A.")]
+AmbientOpt = Annotated[str, typer.Option("--ambient", help="Maximum ambient temperature, C.")]
+ProfileOpt = Annotated[
+    str,
+    typer.Option("--profile", help=f"Discharge rule: {', '.join(DISCHARGE_PROFILES)}."),
+]
+SurgeOpt = Annotated[
+    str, typer.Option("--surge", help="IEC 61000-4-5 surge level, V peak (1k); 0 for none.")
+]
+JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON document.")]
+DbOpt = Annotated[str | None, typer.Option("--db", help="Catalogue database URL or file.")]
+
+
+def _num(text: str, quantity: str | None, what: str) -> float:
+    try:
+        return parse_value(text, quantity)
+    except BadValueError as exc:
+        raise BadValueError(f"{what}: {exc}") from None
+
+
+def _pct(text: str, what: str) -> float:
+    try:
+        return parse_tolerance(text)
+    except BadValueError as exc:
+        raise BadValueError(f"{what}: {exc}") from None
+
+
+def parse_frequencies(text: str) -> tuple[float, ...]:
+    """'50' -> (50.0,); '50,60' -> (50.0, 60.0) (order kept: the first is the nominal one)."""
+    parts = [p for p in text.replace(";", ",").split(",") if p.strip()]
+    if not parts:
+        raise BadValueError(f"--freq: cannot read {text!r}; write 50 or 50,60")
+    out: list[float] = []
+    for p in parts:
+        f = _num(p.strip(), "Hz", "--freq")
+        if f not in out:
+            out.append(f)
+    return tuple(out)
+
+
+def mains_from_options(mains: str = "230", mains_tol: str = "10", freq: str = "50") -> Mains:
+    """Mains from the option texts."""
+    return Mains(
+        nominal_v=_num(mains, "V", "--mains"),
+        tolerance=_pct(mains_tol, "--mains-tol"),
+        frequencies_hz=parse_frequencies(freq),
+    )
+
+
+def tolerances_from_options(
+    cap_tol: str = "10", cap_loss: str = "10", r_tol: str = "5", zener_tol: str = "5"
+) -> Tolerances:
+    """Tolerances from the option texts (percent or IEC 60062 letters)."""
+    return Tolerances(
+        cap_tol=_pct(cap_tol, "--cap-tol"),
+        cap_loss=_pct(cap_loss, "--cap-loss"),
+        r_tol=_pct(r_tol, "--r-tol"),
+        zener_tol=_pct(zener_tol, "--zener-tol"),
+    )
+
+
+def conditions_from_options(
+    ambient: str = "40", profile: str = "iec60335", surge: str = "1k"
+) -> Conditions:
+    """Ambient, discharge profile and surge level from the option texts."""
+    prof = profile.strip().lower().replace("-", "").replace(" ", "")
+    if prof not in DISCHARGE_PROFILES:
+        raise BadValueError(
+            f"--profile: unknown {profile!r}; one of {', '.join(DISCHARGE_PROFILES)}"
+        )
+    return Conditions(
+        ambient_c=_num(ambient, None, "--ambient"),
+        profile=prof,
+        surge_v=_num(surge, "V", "--surge"),
+    )
+
+
+def load_from_options(
+    load: str = "0",
+    load_r: str | None = None,
+    burst: str | None = None,
+    burst_time: str | None = None,
+    burst_period: str | None = None,
+) -> Load:
+    """The load: a current, or a resistor, plus an optional burst profile."""
+    burst_a = _num(burst, "A", "--burst") if burst else 0.0
+    bt = _num(burst_time, "s", "--burst-time") if burst_time else 0.0
+    bp = _num(burst_period, "s", "--burst-period") if burst_period else 0.0
+    if burst_a > 0 and not (0 < bt < bp):
+        raise BadValueError("--burst needs --burst-time and a longer --burst-period (e.g. 50m, 2)")
+    current = _num(load, "A", "--load")
+    r = _num(load_r, "ohm", "--load-r") if load_r else None
+    return Load(
+        current_a=current,
+        resistance_ohm=r,
+        burst_current_a=burst_a,
+        burst_duration_s=bt,
+        burst_period_s=bp,
+    )
+
+
+def circuit_from_options(
+    cap: list[str] | None,
+    topology: str = "bridge",
+    series_r: str = "470",
+    bleeder: str = "1M",
+    zener: str = "12",
+    zener_z: str = "0",
+    reservoir: str = "220u",
+    diode_drop: str = "0.8",
+    diode_r: str = "0.1",
+    load: Load | None = None,
+    regulator: str | None = None,
+    dropout: str = "1",
+    quiescent: str = "5m",
+) -> Circuit:
+    """The circuit from the option texts. ``cap`` must hold at least one value."""
+    if not cap:
+        raise BadValueError("give the X capacitor with --cap (e.g. --cap 330n; repeat for more)")
+    top = topology.strip().lower()
+    if top in ("halfwave", "half_wave", "half"):
+        top = "half-wave"
+    if top not in TOPOLOGIES:
+        raise BadValueError(f"--topology: unknown {topology!r}; one of {', '.join(TOPOLOGIES)}")
+    caps = tuple(_num(c, "F", "--cap") for c in cap)
+    if bleeder.strip().lower() in ("none", "no", "inf", "0"):
+        rb = math.inf
+    else:
+        rb = _num(bleeder, "ohm", "--bleeder")
+    reg = None
+    if regulator:
+        reg = Regulator(
+            output_v=_num(regulator, "V", "--regulator"),
+            dropout_v=_num(dropout, "V", "--dropout"),
+            quiescent_a=_num(quiescent, "A", "--quiescent"),
+        )
+    return Circuit(
+        topology=top,
+        x_capacitors_f=caps,
+        series_resistance_ohm=_num(series_r, "ohm", "--series-r"),
+        bleeder_resistance_ohm=rb,
+        diode_drop_v=_num(diode_drop, "V", "--diode-drop"),
+        diode_resistance_ohm=_num(diode_r, "ohm", "--diode-r"),
+        zener_voltage_v=_num(zener, "V", "--zener"),
+        zener_impedance_ohm=_num(zener_z, "ohm", "--zener-z"),
+        reservoir_f=_num(reservoir, "F", "--reservoir"),
+        load=load or Load(),
+        regulator=reg,
+    )
+
+
+def describe_corner(corner: dict | None) -> str:
+    """A corner record as short text: '253 V 60 Hz C=363 nF R=447 Ω Vz=12.6 V no load'."""
+    if not corner:
+        return ""
+    parts = []
+    if "mains_v" in corner:
+        parts.append(f"{corner['mains_v']:.4g} V")
+    if "freq_hz" in corner:
+        parts.append(f"{corner['freq_hz']:g} Hz")
+    if "cap_f" in corner:
+        parts.append("C=" + format_value(corner["cap_f"], "F"))
+    if "r_ohm" in corner:
+        parts.append("R=" + format_value(corner["r_ohm"], "ohm"))
+    if "bleeder_ohm" in corner:
+        parts.append("Rb=" + format_value(corner["bleeder_ohm"], "ohm"))
+    if "vz_v" in corner:
+        parts.append(f"Vz={corner['vz_v']:.3g} V")
+    if "load_a" in corner:
+        parts.append("no load" if corner["load_a"] == 0 else "loaded")
+    return " ".join(parts)
