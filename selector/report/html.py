@@ -160,12 +160,43 @@ def _flatten(prefix: str, obj: Any, rows: list[tuple[str, Any]]) -> None:
         rows.append((prefix, obj))
 
 
+_CORNER_NAMES = {"mains_v": "mains", "freq_hz": "", "cap_f": "C", "r_ohm": "R", "vz_v": "Vz",
+                 "load_a": "load", "bleeder_ohm": "bleeder"}  # fmt: skip
+
+
 def _corner_text(corner: Any) -> str:
+    """A corner for people: ``mains 253 V, 60 Hz, C 363 nF, R 423 Ω, Vz 12.6 V, load 0 A``."""
     if corner is None:
         return ""
     if isinstance(corner, Mapping):
-        return ", ".join(f"{k} {_show(str(k), v)}" for k, v in corner.items())
+        bits = []
+        for k, v in corner.items():
+            name = _CORNER_NAMES.get(str(k), _quantity_name(str(k)))
+            bits.append(f"{name} {_show(str(k), v)}".strip())
+        return ", ".join(bits)
     return str(corner)
+
+
+def _corner_for(key: str, data: Mapping[str, Any], corners: Mapping[str, Any]) -> Any:
+    """The corner of figure ``key``: ``corners[key]``, a sibling ``<key>_corner`` or
+    ``<key without unit suffix>_corner`` (``max_zener_power_w`` -> ``max_zener_power_corner``),
+    a sibling corner named by a word of the key (``rectifier_corner`` for
+    ``max_rectifier_peak_current_a``), else the section's own ``corner``."""
+    if key in corners:
+        return corners[key]
+    base = key
+    for suffix, _ in UNIT_SUFFIXES:
+        if key.endswith(suffix):
+            base = key[: -len(suffix)]
+            break
+    for cand in (f"{key}_corner", f"{base}_corner"):
+        if cand in data:
+            return data[cand]
+    words = base.split("_")
+    for ck in data:
+        if ck.endswith("_corner") and ck[: -len("_corner")] in words:
+            return data[ck]
+    return data.get("corner")
 
 
 def _figure_rows(section: str, data: Mapping[str, Any]) -> list[dict[str, Any]]:
@@ -182,7 +213,7 @@ def _figure_rows(section: str, data: Mapping[str, Any]) -> list[dict[str, Any]]:
         if k in ("corners", "corner_of", "corner") or k.endswith("_corner"):
             continue
         path = f"{section}.{k}"
-        corner = corners.get(k, data.get(f"{k}_corner"))
+        corner = _corner_for(k, data, corners)
         if isinstance(v, Mapping) and "corner" in v and any(_is_number(x) for x in v.values()):
             corner = v.get("corner")
             for vk, vv in v.items():
@@ -385,6 +416,10 @@ def render_report(
     schematic = ""
     if topo is not None:
         schematic = schematic_svg(topo, labels if labels is not None else _labels_from(doc))
+    if waveforms is None and circuit is not None:
+        from .figures import engine_waveforms
+
+        waveforms = engine_waveforms(circuit, doc)
     figures = []
     for section in (*_FIGURE_KEYS, *[k for k in doc if k not in _FIGURE_KEYS]):
         data = doc.get(section)

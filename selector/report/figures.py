@@ -1,0 +1,101 @@
+"""The report's waveforms, computed by the engine at the corners the analysis found worst.
+
+* line current over two mains cycles at the corner of the highest rms line current and at the
+  corner of the lowest DC current;
+* output voltage over two mains cycles at the corners of the lowest and the highest output
+  voltage;
+* the switch-on current at the crest of the highest mains, everything discharged, at the
+  inrush corner.
+
+Corners come from the command's JSON document (``worst_case.<name>_corner`` and
+``inrush.corner``: dicts with ``mains_v``, ``freq_hz``, ``cap_f``, ``r_ohm``, ``vz_v``,
+``load_a``), so the plots show exactly the corners the tables name.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Any
+
+from ..units import format_value
+from .plots import Trace
+
+__all__ = ["corner_label", "engine_waveforms"]
+
+_LINE = (("max_line_current_rms_corner", "highest line current"),
+         ("min_dc_current_corner", "lowest DC current"))  # fmt: skip
+_OUTPUT = (("min_output_voltage_corner", "lowest output"),
+           ("max_output_voltage_corner", "highest output"))  # fmt: skip
+
+
+def corner_label(corner: Mapping[str, Any]) -> str:
+    """Short legend text of a corner: ``253 V 60 Hz, C 363 nF, no load``."""
+    bits = [
+        f"{format_value(float(corner['mains_v']), 'V', 3)} {float(corner['freq_hz']):g} Hz",
+        f"C {format_value(float(corner['cap_f']), 'F', 3)}",
+    ]
+    if "load_a" in corner:
+        bits.append("no load" if not corner["load_a"] else "loaded")
+    return ", ".join(bits)
+
+
+def _corner_circuit(circuit: Any, corner: Mapping[str, Any]) -> Any:
+    r0 = circuit.series_resistance_ohm
+    r = float(corner.get("r_ohm", r0))
+    changes: dict[str, Any] = {
+        "x_capacitors_f": (float(corner["cap_f"]),),
+        "series_resistance_ohm": r,
+        "zener_voltage_v": float(corner.get("vz_v", circuit.zener_voltage_v)),
+    }
+    rb = circuit.bleeder_resistance_ohm
+    if rb is not None and r0:
+        changes["bleeder_resistance_ohm"] = rb * (r / r0)
+    return circuit.with_values(**changes)
+
+
+def engine_waveforms(circuit: Any, doc: Mapping[str, Any]) -> dict[str, tuple[str, list[Trace]]]:
+    """Plot title -> (unit, traces) for :func:`selector.report.write_report`, computed with
+    :func:`selector.engine.waveforms` / :func:`selector.engine.switch_on_waveform` at the
+    corners named in ``doc`` (the command's JSON document). Corners missing from the document
+    are left out; an empty dict when there are none."""
+    from ..engine import switch_on_waveform, waveforms
+
+    worst = doc.get("worst_case") or {}
+    out: dict[str, tuple[str, list[Trace]]] = {}
+    cache: dict[tuple, dict] = {}
+
+    def wave(corner: Mapping[str, Any]) -> dict:
+        loaded = bool(corner.get("load_a", 1.0))
+        key = (*(float(corner[k]) for k in ("mains_v", "freq_hz", "cap_f")), loaded,
+               float(corner.get("r_ohm", 0)), float(corner.get("vz_v", 0)))  # fmt: skip
+        if key not in cache:
+            cache[key] = waveforms(
+                _corner_circuit(circuit, corner),
+                float(corner["mains_v"]),
+                float(corner["freq_hz"]),
+                loaded=loaded,
+            )
+        return cache[key]
+
+    for title, unit, picks, signal in (
+        ("Line current over two mains cycles", "A", _LINE, "line_current_a"),
+        ("Output voltage over two mains cycles", "V", _OUTPUT, "output_voltage_v"),
+    ):
+        traces = []
+        for key, what in picks:
+            corner = worst.get(key)
+            if isinstance(corner, Mapping) and {"mains_v", "freq_hz", "cap_f"} <= set(corner):
+                w = wave(corner)
+                traces.append(Trace(f"{what}: {corner_label(corner)}", w["t_s"], w[signal]))
+        if traces:
+            out[title] = (unit, traces)
+    corner = (doc.get("inrush") or {}).get("corner")
+    if isinstance(corner, Mapping) and {"mains_v", "freq_hz", "cap_f"} <= set(corner):
+        w = switch_on_waveform(
+            _corner_circuit(circuit, corner), float(corner["mains_v"]), float(corner["freq_hz"])
+        )
+        out["Switch-on current at the crest, everything discharged"] = (
+            "A",
+            [Trace(corner_label(corner), w["t_s"], w["line_current_a"])],
+        )
+    return out
