@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import math
+from pathlib import Path
+from typing import Annotated
 
 import typer
 
@@ -10,7 +12,7 @@ from ..cautions import CAUTIONS
 from ..engine import Analysis, analyse
 from ..errors import EXIT_FINDINGS
 from ..units import format_value
-from ._app import app, echo_cautions, print_json
+from ._app import app, echo_cautions, print_json, to_jsonable
 from ._circuit import (
     AmbientOpt,
     BleederOpt,
@@ -81,6 +83,9 @@ def check(
     surge: SurgeOpt = "1k",
     json: JsonOpt = False,
     db: DbOpt = None,
+    report: Annotated[
+        Path | None, typer.Option("--report", help="Also write an HTML report to this file.")
+    ] = None,
 ) -> None:
     """Worst-case stresses, margins and transients of given values (exit 1: load not met at
     some corner, or the discharge rule fails)."""
@@ -106,22 +111,25 @@ def check(
         tolerances_from_options(cap_tol, cap_loss, r_tol, zener_tol),
         conditions_from_options(ambient, profile, surge),
     )
+    doc = {
+        "topology": result.topology,
+        "ambient_c": result.ambient_c,
+        "ok": result.ok,
+        "nominal": result.nominal,
+        "worst_case": result.worst_case,
+        "inrush": result.inrush,
+        "surge": result.surge,
+        "discharge": result.discharge,
+        "startup": result.startup,
+        "holdup": result.holdup,
+        "cautions": list(CAUTIONS),
+    }
+    if report is not None:
+        from ..report import write_report
+
+        write_report(report, "check", to_jsonable(doc), circuit)
     if json:
-        print_json(
-            {
-                "topology": result.topology,
-                "ambient_c": result.ambient_c,
-                "ok": result.ok,
-                "nominal": result.nominal,
-                "worst_case": result.worst_case,
-                "inrush": result.inrush,
-                "surge": result.surge,
-                "discharge": result.discharge,
-                "startup": result.startup,
-                "holdup": result.holdup,
-                "cautions": list(CAUTIONS),
-            }
-        )
+        print_json(doc)
     else:
         typer.echo(render_table(result))
         echo_cautions()
