@@ -39,6 +39,8 @@ __all__ = [
     "BoardAudit",
     "audit_bom",
     "audit_result_dict",
+    "corner_text",
+    "corners_of",
     "fill_from_catalogue",
     "rated_part",
 ]
@@ -648,6 +650,68 @@ def audit_bom(
     return AuditResult(table=table, boards=results)
 
 
+_SECTION_PREFIX: Final[tuple[tuple[str, str], ...]] = (
+    ("inrush", "inrush_"),
+    ("surge", "surge_"),
+    ("discharge", "discharge_"),
+    ("startup", "startup_"),
+)
+
+
+def corner_text(corner: Mapping[str, Any] | None) -> str:
+    """A corner record as short text: '253 V 60 Hz, C 242 nF, R 89.3 Ω, Vz 12.6 V, no load'."""
+    if not corner:
+        return ""
+    from ..units import format_value
+
+    bits = []
+    if "mains_v" in corner:
+        bits.append(f"{corner['mains_v']:.4g} V {corner.get('freq_hz', 0):g} Hz")
+    for key, label, unit in (
+        ("cap_f", "C", "F"),
+        ("r_ohm", "R", "ohm"),
+        ("bleeder_ohm", "Rb", "ohm"),
+        ("vz_v", "Vz", "V"),
+    ):
+        if corner.get(key) is not None:
+            bits.append(f"{label} {format_value(float(corner[key]), unit)}")
+    if "load_a" in corner:
+        bits.append(
+            "no load" if not corner["load_a"] else f"load {format_value(corner['load_a'], 'A')}"
+        )
+    return ", ".join(bits)
+
+
+def corners_of(analysis: Any) -> dict[str, str]:
+    """Stress key -> corner text, matching the engine's corner fields to the rule engine's
+    stress keys: ``worst_case.max_zener_power_corner`` belongs to ``max_zener_power_w``,
+    ``worst_case.rectifier_corner`` to every ``max_rectifier_*`` stress, a transient section's
+    ``corner`` to each of its figures (``inrush_series_r_energy_j``, ...)."""
+    out: dict[str, str] = {}
+    wc = getattr(analysis, "worst_case", None)
+    if wc is not None and dataclasses.is_dataclass(wc):
+        fields = [f.name for f in dataclasses.fields(wc)]
+        for name in fields:
+            if not name.endswith("_corner"):
+                continue
+            base = name[: -len("_corner")]
+            stem = "max_rectifier_" if base == "rectifier" else base + "_"
+            text = corner_text(getattr(wc, name))
+            for other in fields:
+                if other.startswith(stem) and not other.endswith("_corner"):
+                    out.setdefault(other, text)
+    for section, prefix in _SECTION_PREFIX:
+        sec = getattr(analysis, section, None)
+        if sec is None or not dataclasses.is_dataclass(sec):
+            continue
+        text = corner_text(getattr(sec, "corner", None))
+        if text:
+            for f in dataclasses.fields(sec):
+                if f.name != "corner":
+                    out[prefix + f.name] = text
+    return out
+
+
 def _where(table: BomTable, board: str) -> str:
     return f"{table.path}" + (f", board '{board}'" if board else "")
 
@@ -790,7 +854,9 @@ def _audit_board(table: BomTable, rm: RoleMap, **kw: Any) -> BoardAudit:
             - (load.burst_current_a * load.burst_duration_s / load.burst_period_s)
         )
         context["burst_duration_s"] = load.burst_duration_s
-    raw = kw["rules_evaluate"](parts_by_role, analysis, kw["policy"], context=context)
+    raw = kw["rules_evaluate"](
+        parts_by_role, analysis, kw["policy"], context=context, corners=corners_of(analysis)
+    )
     findings: list[AuditFinding] = []
     for f in raw:
         if placeholder_bleeder and f.part == "bleeder" and f.rule != "bleeder.discharge":
