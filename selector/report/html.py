@@ -410,12 +410,17 @@ def render_report(
     # the exact document the command prints with --json, so the page and the JSON agree
     # (NaN / inf become null, as print_json writes them)
     doc = json.loads(json.dumps(_finite(result), default=_json_default, allow_nan=False))
+    if circuit is not None and not any(k in doc for k in ("circuit", "requirement", "boards")):
+        # a check document does not repeat its input: the report shows the analysed circuit
+        doc = {"circuit": _finite(_circuit_dict(circuit)), **doc}
     full = doc
     doc = _focus(doc)
     topo = topology or _find_topology(doc, circuit)
     schematic = ""
     if topo is not None:
-        schematic = schematic_svg(topo, labels if labels is not None else _labels_from(doc))
+        if labels is None:
+            labels = _labels_from(doc) or (_labels_from_circuit(circuit) if circuit else {})
+        schematic = schematic_svg(topo, labels)
     if waveforms is None and circuit is not None:
         from .figures import engine_waveforms
 
@@ -498,6 +503,9 @@ def write_report(
     )
     target = Path(path)
     fd, tmp = tempfile.mkstemp(dir=target.parent or ".", prefix=".dropper-", suffix=".html")
+    mask = os.umask(0)
+    os.umask(mask)
+    os.chmod(tmp, 0o666 & ~mask)  # like any file the user writes, not mkstemp's 0600
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as fh:
             fh.write(html)
@@ -574,6 +582,38 @@ _ROLE_ALIASES = {
     "fuse": ("fuse",),
     "regulator": ("regulator",),
 }
+
+
+def _circuit_dict(circuit: Any) -> dict[str, Any]:
+    if dataclasses.is_dataclass(circuit) and not isinstance(circuit, type):
+        return dataclasses.asdict(circuit)
+    if isinstance(circuit, Mapping):
+        return dict(circuit)
+    return {"description": str(circuit)}
+
+
+def _labels_from_circuit(circuit: Any) -> dict[str, str]:
+    """Schematic labels from an engine Circuit's values (a check has no part list)."""
+    out: dict[str, str] = {}
+
+    def put(role: str, ref: str, attr: str, unit: str) -> None:
+        value = getattr(circuit, attr, None)
+        if isinstance(value, (int, float)) and math.isfinite(value) and value > 0:
+            out[role] = f"{ref} {format_value(float(value), unit, 3)}"
+
+    put("x_capacitor", "C1", "x_capacitance_f", "F")
+    put("series_resistor", "R1", "series_resistance_ohm", "ohm")
+    put("bleeder", "R2", "bleeder_resistance_ohm", "ohm")
+    put("zener", "DZ1", "zener_voltage_v", "V")
+    put("reservoir", "C2", "reservoir_f", "F")
+    load = getattr(circuit, "load", None)
+    current = getattr(load, "current_a", None)
+    if isinstance(current, (int, float)) and current > 0:
+        out["load"] = f"load {format_value(float(current), 'A', 3)}"
+    reg = getattr(circuit, "regulator", None)
+    if reg is not None and getattr(reg, "output_v", None):
+        out["regulator"] = f"U1 {format_value(float(reg.output_v), 'V', 3)}"
+    return out
 
 
 def _labels_from(doc: Mapping[str, Any]) -> dict[str, str]:

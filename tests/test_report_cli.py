@@ -1,0 +1,78 @@
+"""`--report FILE` on the commands: the page holds the same numbers as the command's --json.
+
+The circuit checked is the README's example values (330 nF, 470 ohm, 1 Mohm, 12 V, 220 uF,
+12 mA); the engine computes it, the report shows it. The comparison is exact: each number in
+the page carries its JSON key and SI value.
+"""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+from typer.testing import CliRunner
+
+from selector.cautions import CAUTIONS
+from selector.cli import app
+from selector.units import format_value
+from tests.test_report import _lookup, _parse
+
+runner = CliRunner()
+
+
+def invoke(*args: str):
+    return runner.invoke(app, list(args), catch_exceptions=False)
+
+
+def _compare(page, doc) -> int:
+    """Every numeric cell whose key is in the JSON document equals it; returns how many."""
+    focus = _lookup(doc, page.body_focus) if page.body_focus else doc
+    n = 0
+    for cell in page.cells:
+        if not cell["si"] or cell["key"].startswith("circuit."):
+            continue  # the circuit section is the report's addition to a check document
+        try:
+            want = _lookup(focus, cell["key"])
+        except (KeyError, IndexError, TypeError):
+            want = _lookup(doc, cell["key"])
+        assert float(cell["si"]) == float(want), cell["key"]
+        n += 1
+    return n
+
+
+def test_check_report_equals_check_json(tmp_path):
+    out = tmp_path / "check.html"
+    args = ["check", "--cap", "330n", "--series-r", "470", "--bleeder", "1M", "--zener", "12",
+            "--reservoir", "220u", "--load", "12m", "--freq", "50,60"]  # fmt: skip
+    result = invoke(*args, "--json", "--report", str(out))
+    assert result.exit_code in (0, 1), result.output
+    doc = json.loads(result.stdout)
+    html = out.read_text(encoding="utf-8")
+    page = _parse(html)
+    assert page.stack == []
+    assert page.svgs == 4  # schematic, line current, output voltage, switch-on current
+    assert _compare(page, doc) >= 40
+    assert [li.strip() for li in page.li] == list(CAUTIONS)
+    assert "C1 330 nF" in html and "DZ1 12 V" in html  # the schematic carries the values
+    # the worst-case figures come with their corners
+    wc = doc["worst_case"]
+    corner = wc["max_zener_power_corner"]
+    assert f"mains {format_value(corner['mains_v'], 'V', 4)}, {corner['freq_hz']:g} Hz" in html
+    assert "Line current over two mains cycles" in html
+    assert "Switch-on current at the crest" in html
+
+
+def test_report_path_error_is_one_line(tmp_path):
+    result = runner.invoke(
+        app, ["check", "--cap", "330n", "--report", str(tmp_path / "no" / "such" / "r.html")]
+    )
+    assert result.exit_code == 2
+    assert result.stderr.startswith("Error: ") and result.stderr.count("\n") == 1
+
+
+@pytest.mark.parametrize("command", ["check", "design", "audit"])
+def test_report_option_is_offered(command):
+    result = invoke(command, "--help")
+    if "--report" not in result.stdout:
+        pytest.skip(f"`dropper {command}` has no --report option yet")
+    assert "HTML report" in result.stdout
