@@ -1,0 +1,118 @@
+"""Benchmark: the whole corner analysis of one circuit against one ngspice corner.
+
+Run: ``python tests/bench/bench_engine.py`` (needs ngspice for the reference). Prints the time
+of ``selector.engine.analyse`` (all corners, transients), the time of one ngspice run of one
+corner to steady state (12 mains cycles from a pre-charged reservoir, maximum step 5 us, as in
+DOMAIN.md section 7), their ratio (goal: >= 100), and the agreement with ngspice over the
+scenarios of tests/test_ngspice.py (largest deviation per quantity).
+"""
+
+from __future__ import annotations
+
+import statistics
+import sys
+import time
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE.parent))
+
+import ngspice_util as nu  # noqa: E402
+from test_ngspice import SCENARIOS, engine_circuit  # noqa: E402
+
+from selector.engine import (  # noqa: E402
+    Circuit,
+    Conditions,
+    Load,
+    Mains,
+    Tolerances,
+    analyse,
+    solve_steady_state,
+)
+from selector.engine.transients import inrush  # noqa: E402
+
+
+def time_analysis(repeat: int = 15) -> tuple[float, int]:
+    circuit = Circuit(
+        x_capacitors_f=(330e-9,),
+        series_resistance_ohm=470,
+        bleeder_resistance_ohm=1e6,
+        zener_voltage_v=12,
+        reservoir_f=220e-6,
+        load=Load(current_a=0.010),
+    )
+    mains = Mains(230, 0.10, (50.0, 60.0))
+    analyse(circuit, mains, Tolerances(), Conditions())  # warm-up (imports, caches)
+    times = []
+    solves = 0
+    for _ in range(repeat):
+        t = time.perf_counter()
+        a = analyse(circuit, mains, Tolerances(), Conditions())
+        times.append(time.perf_counter() - t)
+        solves = a.exact_solves
+    return statistics.median(times), solves
+
+
+def time_ngspice(repeat: int = 3) -> float:
+    sc = nu.Scenario(
+        "bench", "bridge", 230, 50, 330e-9, 470, 12.0, reservoir_f=220e-6, load_a=0.010
+    )
+    period = 1 / sc.freq_hz
+    text = nu.netlist(sc, "OUT", 12 * period, 5e-6, False, sc.vz_v)
+    times = []
+    for _ in range(repeat):
+        t = time.perf_counter()
+        nu.run(text, "OUT")
+        times.append(time.perf_counter() - t)
+    return statistics.median(times)
+
+
+def agreement() -> dict[str, float]:
+    worst: dict[str, float] = {}
+
+    def note(name: str, a: float, b: float, scale: float | None = None) -> None:
+        d = abs(a - b) / abs(scale if scale is not None else b)
+        worst[name] = max(worst.get(name, 0.0), d)
+
+    for sc in SCENARIOS:
+        ref = nu.steady_metrics(sc)
+        st = solve_steady_state(engine_circuit(sc), sc.mains_v, sc.freq_hz)
+        note("dc_current_a", st.dc_current_a, ref["dc_current_a"])
+        note("line_current_rms_a", st.line_current_rms_a, ref["line_current_rms_a"])
+        scale = max(abs(ref["zener_power_w"]), 0.2 * sc.vz_v * ref["dc_current_a"])
+        note("zener_power_w", st.zener_power_w, ref["zener_power_w"], scale)
+        note("output_voltage_v", st.output_voltage_v, ref["output_voltage_v"])
+        c = engine_circuit(sc)
+        res = inrush(c, sc.mains_v, sc.freq_hz, {})
+        r_d = c.diode_resistance_ohm * (2 if c.topology == "bridge" else 1)
+        tau = (
+            (c.series_resistance_ohm + r_d)
+            * sc.cap_f
+            * sc.reservoir_f
+            / (sc.cap_f + sc.reservoir_f)
+        )
+        sw = nu.switch_on_metrics(sc, min(8 * tau, 0.25 / sc.freq_hz))
+        note("switch_on_peak_a", res.peak_current_a, sw["peak_current_a"])
+        note("switch_on_energy_j", res.series_r_energy_j, sw["series_r_energy_j"])
+    return worst
+
+
+def main() -> None:
+    t_an, solves = time_analysis()
+    print(
+        f"engine: whole corner analysis (16 corners, {solves} exact solves + transients): "
+        f"{t_an * 1e3:.2f} ms"
+    )
+    if nu.ngspice_path() is None:
+        print("ngspice not installed: no reference time")
+        return
+    t_ng = time_ngspice()
+    print(f"ngspice: one corner, 12 cycles, max step 5 us: {t_ng * 1e3:.1f} ms")
+    print(f"ratio (ngspice one corner / engine all corners): {t_ng / t_an:.1f}x  (goal >= 100x)")
+    print(f"agreement with ngspice over {len(SCENARIOS)} scenarios (largest deviation):")
+    for k, v in agreement().items():
+        print(f"  {k:<22} {v * 100:6.2f} %")
+
+
+if __name__ == "__main__":
+    main()
