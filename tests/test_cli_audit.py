@@ -182,14 +182,14 @@ def test_merged_row(tmp_path):
     p = tmp_path / "bom.csv"
     p.write_text(SOUND + ",,,1W,,\n", encoding="utf-8")
     line = _bad(invoke(str(p)))
-    assert "row 14, column 'Reference'" in line and "merged" in line
+    assert "row 12, column 'Reference'" in line and "merged" in line
 
 
 def test_duplicate_designators(tmp_path):
     p = tmp_path / "bom.csv"
     p.write_text(SOUND + "C2,1,100u,Electrolytic 25V,CP,DEMO\n", encoding="utf-8")
     line = _bad(invoke(str(p)))
-    assert "designator C2 appears twice (rows 11 and 14)" in line
+    assert "row 12, column 'Reference': designator C2 appears twice (rows 9 and 12)" in line
 
 
 def test_unparseable_value(tmp_path):

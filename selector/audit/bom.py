@@ -241,16 +241,21 @@ def _raise_decode(path: Path, raw: bytes, exc: UnicodeDecodeError, enc: str) -> 
     start = exc.start
     line_start = raw.rfind(b"\n", 0, start) + 1
     row = raw.count(b"\n", 0, start) + 1
-    head_line = raw.split(b"\n", 1)[0].decode(enc, errors="replace")
-    before = raw[line_start:start].decode(enc, errors="replace")
     column = None
-    try:
-        delim = _sniff(head_line)
-        headers = next(csv.reader([head_line], delimiter=delim))
-        index = before.count(delim)
-        if 0 <= index < len(headers):
-            column = headers[index].strip().lstrip("\ufeff") or None
-    except (csv.Error, StopIteration):
+    try:  # which column: find the header in the text read leniently, count cells before the byte
+        text = raw.decode(enc, errors="replace").removeprefix("\ufeff")
+        delim = "\t" if path.suffix.lower() == ".tsv" else _sniff(text[:65536])
+        rows = [
+            (i, next(csv.reader([ln], delimiter=delim), []))
+            for i, ln in enumerate(text.splitlines(), 1)
+        ]
+        _, _, mapping = _find_header(rows, None, "")
+        header = next(cells for i, cells in rows if cells and map_headers(cells) == mapping)
+        before = raw[line_start:start].decode(enc, errors="replace")
+        index = len(next(csv.reader([before], delimiter=delim), [""])) - 1
+        if 0 <= index < len(header):
+            column = header[index].strip() or None
+    except (csv.Error, StopIteration, BadRowError, BadValueError):
         pass
     byte = raw[start : start + 1].hex()
     raise BadRowError(

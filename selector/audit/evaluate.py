@@ -21,7 +21,7 @@ from __future__ import annotations
 import dataclasses
 import math
 import re
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Collection, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Final
@@ -552,6 +552,7 @@ def audit_bom(
     mains: Any,
     conditions: Any,
     tolerances: Any,
+    pinned_tolerances: Collection[str] = (),
     load: Any = None,
     regulator: Any = None,
     topology: str | None = None,
@@ -574,6 +575,8 @@ def audit_bom(
     (``"C1"`` or ``"BOARD:C1"``) to roles and wins over ``roles_file`` and inference.
     ``catalogue`` is a ``parts_frame`` DataFrame used to fill missing ratings (None: no fill).
     ``circuit_defaults`` gives engine values the BOM does not carry (``diode_drop_v``, ...).
+    A tolerance the BOM states replaces the one in ``tolerances`` unless its name
+    (``cap_tol``, ``r_tol``, ``zener_tol``) is in ``pinned_tolerances`` (the user set it).
     Identical boards are analysed once. Raises BadRowError / BadValueError for bad input.
     """
     from ..engine import Circuit, Load
@@ -639,6 +642,7 @@ def audit_bom(
                 catalogue=catalogue,
                 circuit_defaults=circuit_defaults or {},
                 fields_by_role=fields_by_role,
+                pinned=frozenset(pinned_tolerances),
                 cache=cache,
                 analyse=analyse_fn,
                 circuit_cls=Circuit,
@@ -777,6 +781,8 @@ def _audit_board(table: BomTable, rm: RoleMap, **kw: Any) -> BoardAudit:
         stated = [
             a.ratings.tolerance for a in by_role.get(role, []) if a.ratings.tolerance is not None
         ]
+        if name in kw["pinned"]:
+            continue
         if stated and "tolerance" not in {k for a in by_role[role] for k in a.ratings.assumed}:
             v = max(stated)
             if v != getattr(tol, name):

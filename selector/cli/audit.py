@@ -1,1 +1,294 @@
-"""`dropper audit`: registered here when built (see DEVELOPERS.md)."""
+"""`dropper audit`: a finished BOM against the stresses its circuit puts on each part."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated, Any
+
+import typer
+
+from ..engine.circuit import TOPOLOGIES
+from ..errors import EXIT_FINDINGS, EXIT_OK, BadValueError
+from ..units import format_value, parse_value
+from ._app import app, echo_cautions, print_json
+from ._circuit import (
+    AmbientOpt,
+    BurstOpt,
+    BurstPeriodOpt,
+    BurstTimeOpt,
+    CapLossOpt,
+    DbOpt,
+    DiodeDropOpt,
+    DiodeROpt,
+    DropoutOpt,
+    FreqOpt,
+    JsonOpt,
+    LoadOpt,
+    LoadROpt,
+    MainsOpt,
+    MainsTolOpt,
+    ProfileOpt,
+    QuiescentOpt,
+    RegulatorOpt,
+    SurgeOpt,
+    TopologyOpt,
+    ZenerZOpt,
+    conditions_from_options,
+    load_from_options,
+    mains_from_options,
+    tolerances_from_options,
+)
+
+_UNIT_NAMES = {"V": "V", "A": "A", "W": "W", "J": "J", "s": "s", "A2s": "A2s", "V/s": "V/s"}
+
+
+def _num(x: float | None, unit: str) -> str:
+    if x is None:
+        return "?"
+    if x == float("inf"):
+        return "never"
+    if unit == "V/s":
+        return format_value(x * 1e-6, "V/µs")
+    if unit == "C":
+        return f"{x:g} °C"
+    if unit in _UNIT_NAMES:
+        return format_value(x, unit)
+    return f"{x:g} {unit}".strip()
+
+
+def finding_line(f: dict[str, Any]) -> str:
+    """One line for one finding: severity, ref, role, rule, stress against rating, margin,
+    corner and source."""
+    ref = f["ref"] or "-"
+    board = f"[{f['board']}] " if f.get("board") else ""
+    head = f"{f['severity'].upper():<4}  {board}{ref:<10} {f['role']:<15} {f['rule']:<26}"
+    if f["stress"] is None or f["rating"] is None:
+        body = f["note"] or "not evaluated"
+    elif f["unit"] == "class":
+        body = (
+            "an X1/X2/X3 safety capacitor is needed; this part is not one"
+            if f["severity"] == "fail"
+            else "X subclass present"
+        )
+    else:
+        body = f"{_num(f['stress'], f['unit'])} against {_num(f['rating'], f['unit'])}"
+        if f["margin"] is not None:
+            body += f" (margin {f['margin'] * 100:+.0f} %)"
+        if f["note"]:
+            body += f"; {f['note']}"
+    tail = f"  at {f['corner']}" if f.get("corner") else ""
+    return f"{head} {body}{tail}  [{f['source']}]"
+
+
+def human_report(doc: dict[str, Any]) -> list[str]:
+    """The human output: what was read and decided, failures, warnings, passes count."""
+    lines = [f"Audit of {doc['file']}" + (f" (sheet {doc['sheet']})" if doc.get("sheet") else "")]
+    cmap = ", ".join(f"'{h}' -> {fld}" for fld, h in doc["column_map"].items())
+    lines.append(f"Columns: {cmap}")
+    if doc["ignored_columns"]:
+        lines.append(f"Columns not used: {', '.join(doc['ignored_columns'])}")
+    for note in doc["notes"]:
+        lines.append(f"Note: {note}")
+    for b in doc["boards"]:
+        name = f"Board '{b['board']}': " if b["board"] else ""
+        circ = (
+            f"{name}{b['topology']}, X {format_value(b['x_capacitance_f'], 'F')}, "
+            f"series {format_value(b['series_resistance_ohm'], 'ohm')}, bleeder "
+            + (
+                format_value(b["bleeder_resistance_ohm"], "ohm")
+                if b["bleeder_resistance_ohm"] not in (None, float("inf"))
+                else "none"
+            )
+            + f", Zener {format_value(b['zener_voltage_v'], 'V')}, reservoir "
+            f"{format_value(b['reservoir_f'], 'F')}"
+        )
+        lines.append(circ)
+        for n in b["inferred"]:
+            lines.append(f"  role {n}")
+        for n in b["assumed"]:
+            lines.append(f"  {n}")
+        for n in b["notes"]:
+            lines.append(f"  note: {n}")
+    given = [r for r in doc["roles"] if r["how"] != "inferred" and r["role"] != "other"]
+    for r in given:
+        lines.append(f"  role {r['role']}: {r['ref']} ({r['how']})")
+    lines.append("")
+    fails = [f for f in doc["findings"] if f["severity"] == "fail"]
+    warns = [f for f in doc["findings"] if f["severity"] == "warn"]
+    for f in fails + warns:
+        lines.append(finding_line(f))
+    s = doc["summary"]
+    lines.append(f"{s['pass']} checks pass, {s['warn']} warn, {s['fail']} fail.")
+    return lines
+
+
+@app.command()
+def audit(
+    bom: Annotated[Path, typer.Argument(help="BOM file: .csv, .tsv or .xlsx.", show_default=False)],
+    role: Annotated[
+        list[str] | None,
+        typer.Option(
+            "--role",
+            help="REF=ROLE (repeatable; BOARD:REF=ROLE for one board). Roles: x_capacitor, "
+            "series_resistor, bleeder, rectifier, zener, reservoir, fuse, other.",
+        ),
+    ] = None,
+    roles: Annotated[
+        Path | None,
+        typer.Option("--roles", help='TOML file: [roles] REF = "role"; [boards.NAME.roles].'),
+    ] = None,
+    sheet: Annotated[str | None, typer.Option(help="XLSX sheet holding the BOM.")] = None,
+    encoding: Annotated[
+        str | None, typer.Option(help="Text encoding when it is not UTF-8 (e.g. latin-1).")
+    ] = None,
+    column: Annotated[
+        list[str] | None,
+        typer.Option(
+            "--column",
+            help="FIELD=HEADER: pin a BOM field (ref, value, qty, description, package, mpn, "
+            "voltage, power, tolerance, board, role) to a column (repeatable).",
+        ),
+    ] = None,
+    topology: TopologyOpt = "auto",
+    mains: MainsOpt = "230",
+    mains_tol: MainsTolOpt = "10",
+    freq: FreqOpt = "50",
+    cap_tol: Annotated[
+        str | None,
+        typer.Option(
+            "--cap-tol", help="X capacitor tolerance, % or K/M [default: the BOM's, else 10]."
+        ),
+    ] = None,
+    cap_loss: CapLossOpt = "10",
+    r_tol: Annotated[
+        str | None,
+        typer.Option("--r-tol", help="Resistor tolerance, % [default: the BOM's, else 5]."),
+    ] = None,
+    zener_tol: Annotated[
+        str | None,
+        typer.Option(
+            "--zener-tol", help="Zener voltage tolerance, % [default: the BOM's, else 5]."
+        ),
+    ] = None,
+    zener_z: ZenerZOpt = "0",
+    load: LoadOpt = "0",
+    load_r: LoadROpt = None,
+    burst: BurstOpt = None,
+    burst_time: BurstTimeOpt = None,
+    burst_period: BurstPeriodOpt = None,
+    regulator: RegulatorOpt = None,
+    dropout: DropoutOpt = "1",
+    quiescent: QuiescentOpt = "5m",
+    diode_drop: DiodeDropOpt = "0.8",
+    diode_r: DiodeROpt = "0.1",
+    ambient: AmbientOpt = "40",
+    profile: ProfileOpt = "iec60335",
+    surge: SurgeOpt = "1k",
+    policy: Annotated[
+        Path | None, typer.Option(help="Derating policy TOML (flat key = number).")
+    ] = None,
+    db: DbOpt = None,
+    json: JsonOpt = False,
+) -> None:
+    """Find the under-rated parts of a finished BOM at every worst case (exit 1: a part fails).
+
+    Circuit values come from the BOM (X capacitors in parallel, series resistors and the bleeder
+    string in series, Zeners in series, reservoirs in parallel); the options give the mains, the
+    load and the conditions. --topology auto takes it from the BOM (bridge or one diode).
+    """
+    from ..audit.evaluate import audit_bom
+    from ..audit.roles import parse_role_options
+    from ..policy import load_policy
+
+    roles_given = parse_role_options(role or [])
+    columns = _columns(column)
+    pinned = {
+        name
+        for name, text in (("cap_tol", cap_tol), ("r_tol", r_tol), ("zener_tol", zener_tol))
+        if text is not None
+    }
+    tolerances = tolerances_from_options(
+        cap_tol if cap_tol is not None else "10",
+        cap_loss,
+        r_tol if r_tol is not None else "5",
+        zener_tol if zener_tol is not None else "5",
+    )
+    top = topology.strip().lower()
+    if top in ("halfwave", "half_wave", "half"):
+        top = "half-wave"
+    if top not in ("auto", *TOPOLOGIES):
+        raise BadValueError(
+            f"--topology: unknown {topology!r}; one of auto, {', '.join(TOPOLOGIES)}"
+        )
+    reg = None
+    if regulator:
+        from ..engine import Regulator
+
+        reg = Regulator(
+            output_v=_value(regulator, "V", "--regulator"),
+            dropout_v=_value(dropout, "V", "--dropout"),
+            quiescent_a=_value(quiescent, "A", "--quiescent"),
+        )
+    result = audit_bom(
+        bom,
+        mains=mains_from_options(mains, mains_tol, freq),
+        conditions=conditions_from_options(ambient, profile, surge),
+        tolerances=tolerances,
+        pinned_tolerances=pinned,
+        load=load_from_options(load, load_r, burst, burst_time, burst_period),
+        regulator=reg,
+        topology=None if top == "auto" else top,
+        policy=load_policy(policy),
+        sheet=sheet,
+        encoding=encoding,
+        columns=columns,
+        roles=roles_given,
+        roles_file=roles,
+        catalogue=_catalogue(db),
+        circuit_defaults={
+            "diode_drop_v": _value(diode_drop, "V", "--diode-drop"),
+            "diode_resistance_ohm": _value(diode_r, "ohm", "--diode-r"),
+            "zener_impedance_ohm": _value(zener_z, "ohm", "--zener-z"),
+        },
+    )
+    _finish(result.to_dict(), json)
+
+
+def _value(text: str, quantity: str, what: str) -> float:
+    try:
+        return parse_value(text, quantity)
+    except BadValueError as exc:
+        raise BadValueError(f"{what}: {exc}") from None
+
+
+def _catalogue(db: str | None):
+    """The catalogue as a DataFrame (the audit fills missing ratings from its families)."""
+    from ..catalogue import open_catalogue, parts_frame, resolve_url
+
+    engine = open_catalogue(resolve_url(db))
+    try:
+        return parts_frame(engine)
+    finally:
+        engine.dispose()
+
+
+def _columns(options: list[str] | None) -> dict[str, str]:
+    out: dict[str, str] = {}
+    for opt in options or []:
+        fld, sep, header = opt.partition("=")
+        if not sep or not fld.strip() or not header.strip():
+            raise BadValueError(
+                f"--column {opt!r}: write FIELD=HEADER, e.g. --column ref=Designator"
+            )
+        out[fld.strip().lower()] = header.strip()
+    return out
+
+
+def _finish(doc: dict[str, Any], as_json: bool) -> None:
+    if as_json:
+        print_json(doc)
+    else:
+        for line in human_report(doc):
+            typer.echo(line)
+        echo_cautions()
+    raise typer.Exit(EXIT_FINDINGS if doc["summary"]["fail"] else EXIT_OK)
