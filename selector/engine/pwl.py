@@ -80,6 +80,8 @@ class Mode:
         "Y",
         "omega",
         "key",
+        "_m",
+        "_cc",
     )
 
     def __init__(self, key, dvc, dvo, rows, guards, vpk: float, omega: float):
@@ -106,7 +108,9 @@ class Mode:
         m00, m01, m10, m11 = jw - a11, -a12, -a21, jw - a22
         d = m00 * m11 - m01 * m10
         b0, b1 = self.b * vpk
-        self.Y = ((m11 * b0 - m01 * b1) / d, (-m10 * b0 + m00 * b1) / d)
+        self.Y = (complex((m11 * b0 - m01 * b1) / d), complex((-m10 * b0 + m00 * b1) / d))
+        self._m = tuple(float(v) for v in self.M.ravel())
+        self._cc = (float(self.c[0]), float(self.c[1]), float(self.Mc[0]), float(self.Mc[1]))
 
     # --- exact solution -------------------------------------------------------------------
     def xs(self, t):
@@ -130,6 +134,34 @@ class Mode:
         vc = e2 * z0[0] + d_e * mz[0] + g2 * c[0] + d_f * mc[0] + s1[0]
         vo = e2 * z0[1] + d_e * mz[1] + g2 * c[1] + d_f * mc[1] + s1[1]
         return vc, vo
+
+    def advance_scalar(self, x0, t0: float, h: float) -> tuple[float, float]:
+        """:meth:`advance` for one scalar ``h`` with plain floats (the event-location hot path)."""
+        w = self.omega
+        y0, y1 = self.Y
+        c0, s0 = math.cos(w * t0), math.sin(w * t0)
+        c1, s1 = math.cos(w * (t0 + h)), math.sin(w * (t0 + h))
+        z0 = x0[0] - (y0.real * s0 + y0.imag * c0)
+        z1 = x0[1] - (y1.real * s0 + y1.imag * c0)
+        l1, l2 = self.l1, self.l2
+        e2 = math.exp(l2 * h)
+        g2 = math.expm1(l2 * h) / l2 if l2 != 0.0 else h
+        diff = l1 - l2
+        if diff > 1e-7 * (abs(l1) + abs(l2)) and diff > 0.0:
+            e1 = math.exp(l1 * h)
+            g1 = math.expm1(l1 * h) / l1 if l1 != 0.0 else h
+            d_e = (e1 - e2) / diff
+            d_f = (g1 - g2) / diff
+        else:
+            _, d_e, _, d_f = _phi_dd(l1, l2, h)
+        M = self._m
+        mz0 = M[0] * z0 + M[1] * z1
+        mz1 = M[2] * z0 + M[3] * z1
+        c = self._cc
+        return (
+            e2 * z0 + d_e * mz0 + g2 * c[0] + d_f * c[2] + y0.real * s1 + y0.imag * c1,
+            e2 * z1 + d_e * mz1 + g2 * c[1] + d_f * c[3] + y1.real * s1 + y1.imag * c1,
+        )
 
     def transition(self, h: float) -> np.ndarray:
         """E(h) = exp(A h): the sensitivity of the end state to the start state."""
@@ -215,7 +247,7 @@ class PwlSystem:
                     break
                 if gv <= self.tol:
                     if ahead is None:
-                        vc, vo = mode.advance(x, t, delta)
+                        vc, vo = mode.advance_scalar(x, t, delta)
                         ahead = gr @ np.array([vc, vo, self.u(t + delta), 1.0])
                     if ahead[j] < gv and ahead[j] < 0.0:
                         bad = j
@@ -283,7 +315,7 @@ class PwlSystem:
                         stuck = 0
             if collect:
                 self._sample(mode, x, t, h_end, qdt, ts, ws, outs)
-            vc1, vo1 = mode.advance(x, t, h_end)
+            vc1, vo1 = mode.advance_scalar(x, t, h_end)
             J = mode.transition(h_end) @ J
             x = np.array([vc1, vo1])
             t = t + h_end
@@ -304,7 +336,7 @@ class PwlSystem:
         return x, key, J, trace
 
     def _guard_at(self, mode: Mode, row, x, t: float, h: float) -> float:
-        vc, vo = mode.advance(x, t, h)
+        vc, vo = mode.advance_scalar(x, t, h)
         return row[0] * vc + row[1] * vo + row[2] * self.u(t + h) + row[3]
 
     def _locate(self, mode: Mode, row, x, t: float, a: float, b: float) -> float:
