@@ -8,6 +8,7 @@ the page carries its JSON key and SI value.
 from __future__ import annotations
 
 import json
+from pathlib import Path
 
 import pytest
 from typer.testing import CliRunner
@@ -17,7 +18,14 @@ from selector.cli import app
 from selector.units import format_value
 from tests.test_report import _lookup, _parse
 
+DATA = Path(__file__).parent / "data"
 runner = CliRunner()
+
+
+def _plain(obj):
+    from selector.cli._app import to_jsonable
+
+    return to_jsonable(obj)
 
 
 def invoke(*args: str):
@@ -76,3 +84,36 @@ def test_report_option_is_offered(command):
     if "--report" not in result.stdout:
         pytest.skip(f"`dropper {command}` has no --report option yet")
     assert "HTML report" in result.stdout
+
+
+def test_design_from_the_demo_stock_and_its_report(catalogue_copy_url, tmp_path):
+    """Library path of `dropper design --stock-only --report`: import the demo stock list
+    (DEMO data, invented), design from the stock-only frame, report the first design."""
+    from selector.catalogue import make_engine, parts_frame
+    from selector.catalogue.importer import import_stock
+    from selector.design import Requirement, design, design_to_dict
+    from selector.engine import Conditions, Mains
+    from selector.report import write_report
+
+    engine = make_engine(catalogue_copy_url)
+    try:
+        import_stock(engine, DATA / "demo_stock.xlsx", supplier="demo-shelf")
+        frame = parts_frame(engine, stock_only=True)
+    finally:
+        engine.dispose()
+    req = Requirement(
+        load_a=0.012, vout_v=5.1, mains=Mains(230.0, 0.1, (50.0, 60.0)), conditions=Conditions()
+    )
+    best = design(frame, req)[0]
+    doc = {"designs": [design_to_dict(best)], "cautions": list(CAUTIONS)}
+    # every chosen part comes from the imported stock list
+    assert {p["code"].split(":")[1] for p in doc["designs"][0]["parts"]} == {"demo-shelf"}
+    out = write_report(
+        tmp_path / "design.html", "design", doc, best.circuit, analysis=best.analysis
+    )
+    html = out.read_text(encoding="utf-8")
+    page = _parse(html)
+    assert page.stack == [] and page.svgs == 4
+    assert _compare(page, json.loads(json.dumps(doc, default=_plain))) >= 20
+    for p in doc["designs"][0]["parts"]:
+        assert p["code"] in html

@@ -53,14 +53,33 @@ def _corner_circuit(circuit: Any, corner: Mapping[str, Any]) -> Any:
     return circuit.with_values(**changes)
 
 
-def engine_waveforms(circuit: Any, doc: Mapping[str, Any]) -> dict[str, tuple[str, list[Trace]]]:
+def _records(analysis: Any) -> tuple[Mapping[str, Any], Mapping[str, Any] | None]:
+    """(worst_case as a dict, inrush corner) of an engine Analysis."""
+    import dataclasses
+
+    wc = getattr(analysis, "worst_case", None)
+    worst = dataclasses.asdict(wc) if dataclasses.is_dataclass(wc) else dict(wc or {})
+    inrush = getattr(analysis, "inrush", None)
+    return worst, getattr(inrush, "corner", None)
+
+
+def engine_waveforms(
+    circuit: Any, doc: Mapping[str, Any], analysis: Any = None
+) -> dict[str, tuple[str, list[Trace]]]:
     """Plot title -> (unit, traces) for :func:`selector.report.write_report`, computed with
     :func:`selector.engine.waveforms` / :func:`selector.engine.switch_on_waveform` at the
-    corners named in ``doc`` (the command's JSON document). Corners missing from the document
-    are left out; an empty dict when there are none."""
+    corners named in ``doc`` (the command's JSON document), else in ``analysis`` (an engine
+    Analysis). The switch-on corner is ``inrush.corner``, else the corner of the highest line
+    current (highest mains and capacitance, lowest resistance: where the inrush is worst).
+    Corners missing everywhere are left out; an empty dict when there are none."""
     from ..engine import switch_on_waveform, waveforms
 
     worst = doc.get("worst_case") or {}
+    inrush_corner = (doc.get("inrush") or {}).get("corner")
+    if analysis is not None and not worst:
+        worst, inrush_corner = _records(analysis)
+    if inrush_corner is None:
+        inrush_corner = worst.get("max_line_current_rms_corner")
     out: dict[str, tuple[str, list[Trace]]] = {}
     cache: dict[tuple, dict] = {}
 
@@ -89,7 +108,7 @@ def engine_waveforms(circuit: Any, doc: Mapping[str, Any]) -> dict[str, tuple[st
                 traces.append(Trace(f"{what}: {corner_label(corner)}", w["t_s"], w[signal]))
         if traces:
             out[title] = (unit, traces)
-    corner = (doc.get("inrush") or {}).get("corner")
+    corner = inrush_corner
     if isinstance(corner, Mapping) and {"mains_v", "freq_hz", "cap_f"} <= set(corner):
         w = switch_on_waveform(
             _corner_circuit(circuit, corner), float(corner["mains_v"]), float(corner["freq_hz"])

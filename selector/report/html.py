@@ -400,6 +400,10 @@ def render_report(
     labels: Mapping[str, str] | None = None,
     topology: str | None = None,
     title: str | None = None,
+    analysis: Any = None,
+    mains: Any = None,
+    tolerances: Any = None,
+    conditions: Any = None,
     now: Callable[[], _dt.datetime] | None = None,
 ) -> str:
     """The report as HTML text. See :func:`write_report` for the arguments."""
@@ -424,7 +428,11 @@ def render_report(
     if waveforms is None and circuit is not None:
         from .figures import engine_waveforms
 
-        waveforms = engine_waveforms(circuit, doc)
+        if analysis is None and not doc.get("worst_case") and mains is not None:
+            from ..engine import analyse
+
+            analysis = analyse(circuit, mains, tolerances, conditions)
+        waveforms = engine_waveforms(circuit, doc, analysis)
     figures = []
     for section in (*_FIGURE_KEYS, *[k for k in doc if k not in _FIGURE_KEYS]):
         data = doc.get(section)
@@ -479,6 +487,10 @@ def write_report(
     labels: Mapping[str, str] | None = None,
     topology: str | None = None,
     title: str | None = None,
+    analysis: Any = None,
+    mains: Any = None,
+    tolerances: Any = None,
+    conditions: Any = None,
 ) -> Path:
     """Write one self-contained HTML report and return its path.
 
@@ -488,7 +500,10 @@ def write_report(
     :class:`selector.engine.Circuit` (used for the topology and, when ``waveforms`` is not
     given, to compute the waveforms through ``selector.engine.waveforms`` if available).
     ``waveforms``: plot title -> ``(unit, traces)``, each trace a :class:`~.plots.Trace` or a
-    ``(label, t_s, y)`` tuple. ``labels``: schematic role -> label text (see
+    ``(label, t_s, y)`` tuple; when omitted and ``circuit`` is given they are computed at the
+    worst corners named in the document, else in ``analysis`` (an engine Analysis), else in a
+    fresh ``selector.engine.analyse(circuit, mains, tolerances, conditions)`` when ``mains``
+    is given (see :mod:`.figures`). ``labels``: schematic role -> label text (see
     :mod:`.schematic`); by default taken from the document. The file is written to a
     temporary name and renamed, so a failure leaves no half-written report.
     """
@@ -500,6 +515,10 @@ def write_report(
         labels=labels,
         topology=topology,
         title=title,
+        analysis=analysis,
+        mains=mains,
+        tolerances=tolerances,
+        conditions=conditions,
     )
     target = Path(path)
     fd, tmp = tempfile.mkstemp(dir=target.parent or ".", prefix=".dropper-", suffix=".html")
