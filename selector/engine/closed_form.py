@@ -3,20 +3,21 @@
 Every function takes SI floats or numpy arrays (broadcast together) and returns the same shape.
 They are approximations of the exact periodic solution in :mod:`.steady_state`; their error
 against it, measured by ``tests/test_closed_form.py::test_error_table`` over the useful range
-(230 V and 120 V, 50/60 Hz, X capacitor 100 nF..1 uF, series R 47 ohm..1 kohm, Zener 5.1..24 V,
-reservoir 100 uF..1 mF, zero load), is:
+(230 V and 120 V, 50/60 Hz, X capacitor 100 nF..1 uF, series R 47 ohm..1 kohm with
+w R C <= 0.4, Zener 5.1 and 24 V, reservoir 470 uF, zero load, Vf 0.8 V), is:
 
-===============================  ==================================  =======================
+===============================  ==================================  =====================
 quantity                         formula                             max |error| vs exact
-===============================  ==================================  =======================
-bridge DC current, R -> 0        ``4 f C (Vpk - Vz - 2 Vf)``          6 % (grows with w R C)
-bridge DC current, R corrected   ``4 f C (Vpk / k - Vz - 2 Vf)``      1.5 %
-half-wave DC current, R corr.    ``f C (2 Vpk / k - Vz - Vf)``        1.5 %
-line current rms                 ``V / sqrt(R^2 + Xc^2)``             3 %
-===============================  ==================================  =======================
+===============================  ==================================  =====================
+bridge DC current, R -> 0        ``4 f C (Vpk - Vz - 2 Vf)``          8.3 % (grows with wRC)
+bridge DC current, R corrected   ``4 f C (Vpk / k - Vz - 2 Vf)``      0.83 %
+half-wave DC current, R corr.    ``f C (2 Vpk / k - Vz - Vf)``        0.83 %
+line current rms                 ``V / sqrt(R^2 + Xc^2)``             10.1 % (ignores the
+                                                                      clamp: 24 V on 120 V)
+===============================  ==================================  =====================
 
 with ``k = sqrt(1 + (w R C)^2)``: the series RC divides the crest seen by the capacitor. The bounds
-in the table are asserted by that test (they are the measured maxima rounded up).
+in the table are asserted by that test (measured maxima; the test allows them rounded up).
 
 Sources: capacitor reactance and the RC divider, any circuits textbook [S]; the charge balance
 ``I_dc = 4 f C (Vpk - Vo')`` (each half cycle the capacitor swings by ``2 (Vpk - Vo')``) and the
