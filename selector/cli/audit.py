@@ -189,6 +189,9 @@ def audit(
     ] = None,
     db: DbOpt = None,
     json: JsonOpt = False,
+    report: Annotated[
+        Path | None, typer.Option("--report", help="Also write an HTML report to this file.")
+    ] = None,
 ) -> None:
     """Find the under-rated parts of a finished BOM at every worst case (exit 1: a part fails).
 
@@ -251,6 +254,15 @@ def audit(
             "zener_impedance_ohm": _value(zener_z, "ohm", "--zener-z"),
         },
     )
+    if report is not None:
+        from ..report import write_report
+
+        board = result.boards[0] if result.boards else None
+        write_report(
+            report, "audit", result.to_dict(), board.circuit if board else None,
+            mains=mains_from_options(mains, mains_tol, freq), tolerances=tolerances,
+            conditions=conditions_from_options(ambient, profile, surge),
+        )  # fmt: skip
     _finish(result.to_dict(), json)
 
 
