@@ -860,9 +860,19 @@ def _audit_board(table: BomTable, rm: RoleMap, **kw: Any) -> BoardAudit:
             - (load.burst_current_a * load.burst_duration_s / load.burst_period_s)
         )
         context["burst_duration_s"] = load.burst_duration_s
-    raw = kw["rules_evaluate"](
-        parts_by_role, analysis, kw["policy"], context=context, corners=corners_of(analysis)
+    # equal boards (same circuit, same parts, same refs) are evaluated once
+    memo_key = (
+        key,
+        tuple((role, tuple(ps)) for role, ps in sorted(parts_by_role.items())),
+        kw["policy"],
+        tuple(sorted(context.items())),
     )
+    raw = kw["cache"].get(memo_key)
+    if raw is None:
+        raw = kw["rules_evaluate"](
+            parts_by_role, analysis, kw["policy"], context=context, corners=corners_of(analysis)
+        )
+        kw["cache"][memo_key] = raw
     findings: list[AuditFinding] = []
     for f in raw:
         if placeholder_bleeder and f.part == "bleeder" and f.rule != "bleeder.discharge":
