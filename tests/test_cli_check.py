@@ -1,0 +1,175 @@
+"""`dropper check` in process: the contract's options, JSON keys, table, cautions, exit codes.
+
+Figures asserted here are checked against outside references elsewhere (ngspice in
+test_ngspice.py, textbook forms in test_closed_form.py); this file checks the command surface.
+"""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+from typer.testing import CliRunner
+
+from selector.cautions import CAUTIONS
+from selector.cli import app
+
+runner = CliRunner()
+ISSUE_EXAMPLE = [
+    "check", "--mains", "230", "--freq", "50,60", "--cap", "330n", "--series-r", "470",
+    "--bleeder", "1M", "--zener", "12", "--reservoir", "220u", "--load", "15m",
+]  # fmt: skip
+
+
+def invoke(*args: str):
+    return runner.invoke(app, list(args), catch_exceptions=False)
+
+
+def test_issue_example_table_and_cautions() -> None:
+    r = invoke(*ISSUE_EXAMPLE)
+    lines = r.stdout.splitlines()
+    assert lines[0].split()[:3] == ["quantity", "nominal", "worst"]
+    assert any(line.startswith("DC current, least") and "207 V 50 Hz" in line for line in lines)
+    assert any(line.startswith("Zener power") and "253 V 60 Hz" in line for line in lines)
+    assert "Safety cautions:" in r.stdout
+    for text in CAUTIONS:
+        assert text in r.stdout
+    # 330 nF cannot carry 15 mA at 207 V / 50 Hz with -20 % capacitance: exit 1 (findings)
+    assert r.exit_code == 1
+    assert "NOT ACCEPTED: load not met" in r.stdout
+
+
+def test_issue_example_json_keys() -> None:
+    r = invoke(*ISSUE_EXAMPLE, "--json")
+    doc = json.loads(r.stdout)
+    assert {
+        "dc_current_a",
+        "zener_power_w",
+        "output_voltage_v",
+        "line_current_rms_a",
+        "series_r_power_w",
+        "real_power_w",
+        "power_factor",
+    } <= set(doc["nominal"])
+    w = doc["worst_case"]
+    assert {
+        "min_dc_current_a",
+        "max_zener_power_w",
+        "max_series_r_power_w",
+        "max_bleeder_power_w",
+        "load_met",
+    } <= set(w)
+    for key in ("min_dc_current", "max_zener_power", "max_series_r_power", "max_bleeder_power"):
+        assert {"mains_v", "freq_hz", "cap_f", "r_ohm", "vz_v", "load_a"} <= set(w[f"{key}_corner"])
+    assert {"peak_current_a", "series_r_energy_j", "i2t_a2s"} <= set(doc["inrush"])
+    assert {"peak_current_a", "series_r_energy_j", "series_r_peak_voltage_v"} <= set(doc["surge"])
+    assert {"limit_v", "time_s"} <= set(doc["discharge"])
+    assert doc["cautions"] == list(CAUTIONS)
+    assert w["load_met"] is False and r.exit_code == 1
+    assert doc["nominal"]["dc_current_a"] == pytest.approx(20.5e-3, rel=0.01)
+
+
+def test_accepted_design_exits_zero() -> None:
+    r = invoke("check", "--cap", "470n", "--bleeder", "680k", "--load", "10m", "--json")
+    doc = json.loads(r.stdout)
+    assert r.exit_code == 0 and doc["ok"] is True and doc["worst_case"]["load_met"] is True
+
+
+def test_zero_tolerance_nominal_equals_worst() -> None:
+    r = invoke(
+        "check",
+        "--cap",
+        "470n",
+        "--load",
+        "5m",
+        "--mains-tol",
+        "0",
+        "--cap-tol",
+        "0",
+        "--cap-loss",
+        "0",
+        "--r-tol",
+        "0",
+        "--zener-tol",
+        "0",
+        "--json",
+    )
+    doc = json.loads(r.stdout)
+    assert doc["worst_case"]["min_dc_current_a"] == pytest.approx(doc["nominal"]["dc_current_a"])
+
+
+def test_half_wave_repeated_caps_and_regulator() -> None:
+    r = invoke(
+        "check",
+        "--topology",
+        "half-wave",
+        "--cap",
+        "330n",
+        "--cap",
+        "330n",
+        "--zener",
+        "5.1",
+        "--load",
+        "5m",
+        "--regulator",
+        "3.3",
+        "--json",
+    )
+    doc = json.loads(r.stdout)
+    assert doc["topology"] == "half-wave"
+    assert doc["worst_case"]["max_regulator_power_w"] > 0
+    # 660 nF in parallel: the inrush corner carries C (1 + tol)
+    assert doc["inrush"]["corner"]["cap_f"] == pytest.approx(660e-9 * 1.1)
+
+
+def test_discharge_failure_exits_one() -> None:
+    r = invoke("check", "--cap", "1u", "--bleeder", "none", "--json")
+    doc = json.loads(r.stdout)
+    assert doc["discharge"]["ok"] is False and doc["discharge"]["time_s"] is None  # inf -> null
+    assert r.exit_code == 1
+
+
+@pytest.mark.parametrize(
+    "args, fragment",
+    [
+        (["--cap", "33x"], "--cap"),
+        (["--cap", "330n", "--topology", "centre-tap"], "--topology"),
+        (["--cap", "330n", "--profile", "ul"], "--profile"),
+        (["--cap", "330n", "--freq", "abc"], "--freq"),
+        ([], "--cap"),
+    ],
+)
+def test_bad_input_exits_two(args: list[str], fragment: str) -> None:
+    r = runner.invoke(app, ["check", *args])
+    assert r.exit_code == 2
+    assert r.stderr.startswith("Error: ") and fragment in r.stderr
+
+
+def test_help() -> None:
+    r = invoke("check", "--help")
+    assert r.exit_code == 0
+    for opt in (
+        "--topology",
+        "--mains",
+        "--mains-tol",
+        "--freq",
+        "--cap",
+        "--cap-tol",
+        "--cap-loss",
+        "--series-r",
+        "--r-tol",
+        "--bleeder",
+        "--zener",
+        "--zener-tol",
+        "--zener-z",
+        "--reservoir",
+        "--load",
+        "--load-r",
+        "--diode-drop",
+        "--ambient",
+        "--profile",
+        "--surge",
+        "--json",
+        "--db",
+    ):
+        assert opt in r.stdout
