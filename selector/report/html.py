@@ -331,6 +331,13 @@ def _table(items: Sequence[Any], prefix: str) -> dict[str, Any]:
             for k, v in item.items():
                 if k not in columns and not isinstance(v, (Mapping,)):
                     columns.append(k)
+    # a column empty in every row says nothing; the unit column is folded into the numbers
+    columns = [
+        c
+        for c in columns
+        if c != "unit"
+        and any(isinstance(it, Mapping) and it.get(c) not in (None, "", [], ()) for it in items)
+    ]
     body = []
     for i, item in enumerate(items):
         item = item if isinstance(item, Mapping) else {"item": item}
@@ -439,7 +446,7 @@ def render_report(
         if section in _INPUT_KEYS or section in _SKIP_KEYS or not isinstance(data, Mapping):
             continue
         rows = _figure_rows(section, data)
-        if rows:
+        if any(r["cell"].si for r in rows):  # only sections with computed numbers
             figures.append({"section": section.replace("_", " "), "rows": rows})
     scalars = [
         {"quantity": _quantity_name(k), "cell": _Cell.of(k, v, k)}
@@ -635,6 +642,36 @@ def _labels_from_circuit(circuit: Any) -> dict[str, str]:
     return out
 
 
+_DEFAULT_REFS = {"x_capacitor": "C1", "series_resistor": "R1", "bleeder": "R2",
+                 "rectifier": "BR1", "zener": "DZ1", "reservoir": "C2", "fuse": "F1",
+                 "regulator": "U1"}  # fmt: skip
+
+
+def _short_label(target: str, part: Mapping[str, Any]) -> str:
+    """``ref value rating`` for the schematic, e.g. ``C1 330 nF X2 305 V`` or ``R1 47 Ω 2 W x2``
+    (the catalogue description would be too long to draw)."""
+    bits = [str(part.get("ref") or part.get("designator") or _DEFAULT_REFS.get(target, ""))]
+    value = part.get("value")
+    unit = _ROLE_UNITS.get(target)
+    if _is_number(value) and unit and target != "rectifier":
+        bits.append(format_value(float(value), unit, 3))
+    elif part.get("code"):
+        bits.append(str(part["code"]).rsplit(":", 1)[-1])
+    if target == "x_capacitor" and part.get("safety_class"):
+        bits.append(str(part["safety_class"]))
+    for key, u in (("rated_voltage_ac_v", "V"), ("power_w", "W")):
+        if _is_number(part.get(key)):
+            bits.append(format_value(float(part[key]), u, 3))
+            break
+    else:
+        if target == "reservoir" and _is_number(part.get("rated_voltage_v")):
+            bits.append(format_value(float(part["rated_voltage_v"]), "V", 3))
+    qty = part.get("qty")
+    if isinstance(qty, int) and qty > 1:
+        bits.append(f"x{qty}")
+    return " ".join(b for b in bits if b)
+
+
 def _labels_from(doc: Mapping[str, Any]) -> dict[str, str]:
     """Schematic labels from the parts list (``role`` or ``kind`` per part)."""
     _, parts = _first_list(doc, _PART_KEYS)
@@ -646,11 +683,5 @@ def _labels_from(doc: Mapping[str, Any]) -> dict[str, str]:
         target = next((r for r, names in _ROLE_ALIASES.items() if role in names), None)
         if target is None or target in labels:
             continue
-        bits = [str(part.get("ref") or part.get("designator") or "")]
-        desc = part.get("description") or part.get("text") or part.get("code")
-        if desc:
-            bits.append(str(desc))
-        elif part.get("value") is not None:
-            bits.append(str(part.get("value")))
-        labels[target] = " ".join(b for b in bits if b) or target
+        labels[target] = _short_label(target, part) or target
     return labels

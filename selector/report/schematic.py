@@ -105,11 +105,11 @@ def _draw(d: schemdraw.Drawing, topology: str, labels: Mapping[str, str]) -> Non
     d.add(elm.Line().right(0.75))
     n1 = d.add(elm.Dot())
     d.add(elm.Capacitor(polar=True).down().toy(rail_y).label(t("reservoir"), loc="bottom"))
-    d.add(elm.Line().at(n1.center).right(4.0))
+    d.add(elm.Line().at(n1.center).right(5.0))
     if zener_here:
         n2 = d.add(elm.Dot())
         d.add(elm.Zener().down().reverse().toy(rail_y).label(t("zener"), loc="bottom"))
-        d.add(elm.Line().at(n2.center).right(4.0))
+        d.add(elm.Line().at(n2.center).right(5.0))
     if labels.get("regulator"):
         d.add(elm.RBox().right().label(t("regulator")))
         d.add(elm.Line().right(0.5))
