@@ -254,3 +254,43 @@ def test_json_document_shape(catalogue):
     assert doc["summary"]["fail"] == sum(1 for x in doc["findings"] if x["severity"] == "fail")
     assert doc["column_map"]["ref"] == "Reference"
     assert doc["cautions"]
+
+
+@pytest.mark.parametrize(
+    "description, severity",
+    [
+        # IEC 60384-14: an X1/Y2 part carries the X1 subclass [S]
+        ("Capacitor X1/Y2, 300VAC, 10%", "pass"),
+        # a Y-only part is not an X subclass: the class rule fails it [S]
+        ("Capacitor Y2, 300VAC, 10%", "fail"),
+        # nothing says what it is: unknown, a warning, never a silent pass
+        ("Capacitor 300VAC, 10%", "warn"),
+    ],
+)
+def test_x_capacitor_class_from_text(catalogue, tmp_path, description, severity):
+    text = (DATA / "audit_vent_sound.csv").read_text(encoding="utf-8")
+    old = '"Capacitor X2, metallized polypropylene, 305VAC, 10%"'
+    assert old in text
+    p = tmp_path / "bom.csv"
+    p.write_text(text.replace(old, f'"{description}"'), encoding="utf-8")
+    r = run(p, catalogue)
+    assert finding(r, "x_cap.safety_class").severity == severity
+
+
+def test_half_wave_inferred_from_one_diode(catalogue, tmp_path):
+    p = tmp_path / "hw.csv"
+    p.write_text(
+        "Ref,Value,Description,Footprint\n"
+        'F1,T50mA,"fuse, time-lag, 250VAC",\n'
+        'R1,100R,"metal oxide 2W 350V 5%",axial\n'
+        'C1,330n,"X2 305VAC 10%",\n'
+        'R2-R4,680k,"thick film 1206 1/4W 200V",1206\n'
+        'D1,1N4007,"rectifier diode 1000V 1A IFSM 30A",DO-41\n'
+        'D2,5V1,"Zener 1W 5%",DO-41\n'
+        'C2,220u,"electrolytic 10V 105C",radial\n',
+        encoding="utf-8",
+    )
+    r = run(p, catalogue, freqs=(50.0,))
+    assert r.boards[0].circuit.topology == "half-wave"
+    assert {a.part.ref for a in r.boards[0].roles.by_role("rectifier")} == {"D1"}
+    assert "rectifier.vrrm" in {f.rule for f in r.findings}

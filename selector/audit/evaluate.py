@@ -90,6 +90,8 @@ _WORD_TERMS: Final[dict[str, tuple[str, ...]]] = {
     "pet": ("polyester", "pet"),
     "fusible": ("fusible",),
     "glass": ("glass", "do-35", "do35"),
+    "time-lag": ("time-lag", "slow"),
+    "fast": ("fast",),
 }
 #: a stated rating that some row of the family also has: (column, points)
 _STATED_MATCH: Final[tuple[tuple[str, float], ...]] = (

@@ -109,6 +109,8 @@ _FUSIBLE_RE = re.compile(r"FUSIBLE|FUSE\s+RESISTOR|FUSING\s+RESISTOR")
 _PULSE_RE = re.compile(r"PULSE|ANTI[\s-]*SURGE|SURGE[\s-]*PROOF|HIGH[\s-]*SURGE")
 _OTHER_RE = re.compile(r"\bLED\b|\bTVS\b|VARISTOR|\bMOV\b|\bNTC\b|\bPTC\b|THERMISTOR")
 _GLASS_RE = re.compile(r"\bGLASS\b")
+_SLOW_RE = re.compile(r"TIME[\s-]*LAG|SLOW[\s-]*BLOW|\bSLOW\b|\(T\)|TIME[\s-]*DELAY")
+_FAST_RE = re.compile(r"FAST[\s-]*ACTING|\bFAST\b|QUICK[\s-]*ACTING|\(F\)")
 
 # ---------------------------------------------------------------------------------------------
 # packages: (regex on upper-case text, canonical name, mount)
@@ -305,6 +307,15 @@ def read_ratings(
         r.words.append("pulse")
     if _GLASS_RE.search(up):
         r.words.append("glass")
+    if kind == "fuse":
+        if (
+            _SLOW_RE.search(up)
+            or re.match(r"^\s*T\d", value.upper())
+            or value.upper().endswith("T")
+        ):
+            r.words.append("time-lag")
+        elif _FAST_RE.search(up) or re.match(r"^\s*F\d", value.upper()):
+            r.words.append("fast")
     # ---- package
     pkg_text = " ".join(t for t in (package, description, value) if t).upper()
     for pattern, name, mount in _PACKAGES:
