@@ -466,6 +466,7 @@ class _Setup:
     topologies: tuple[str, ...]
     bus_need_v: float
     analyse: Callable[..., Any] | None = None
+    stats: dict[str, Any] | None = None
 
 
 def _filter_frame(df: pd.DataFrame, req: Requirement) -> pd.DataFrame:
@@ -689,6 +690,7 @@ def _screen_bounds(
     RC discharge. Sources: DOMAIN.md section 2 (textbook RC circuits [S]).
     """
     m = req.mains
+    r_nom = np.maximum(r_nom, 1e-9)
     lo = SCREEN_SLACK
     f_lo, f_hi = min(m.frequencies_hz), max(m.frequencies_hz)
     vpk_lo, vpk_hi = _SQRT2 * m.low_v, _SQRT2 * m.high_v
@@ -727,9 +729,13 @@ def _screen_bounds(
         "inrush_series_r_energy_j": 0.5 * c_min * v_on**2 * lb,
         "inrush_i2t_a2s": v_on**2 * c_min / (2 * r_max) * lb,
         "inrush_x_cap_dvdt_v_per_s": i_on / c_max * lb,
-        "surge_series_r_energy_j": np.zeros_like(i_ub),
-        "surge_series_r_peak_voltage_v": np.zeros_like(i_ub),
-        "surge_x_cap_dvdt_v_per_s": np.zeros_like(i_ub),
+        "surge_series_r_energy_j": _surge_energy_lb(req.conditions.surge_v, r_min, r_max, c_min)
+        * lb,
+        "surge_series_r_peak_voltage_v": _surge_vr_lb(req.conditions.surge_v, r_min, c_min) * lb,
+        "surge_x_cap_dvdt_v_per_s": _surge_vr_lb(req.conditions.surge_v, r_max, c_min)
+        / r_max
+        / c_max
+        * lb,
         "series_resistance_ohm": r_min,
         "c_max": c_max,
         "c_min_nom": c_nom * (1 - c_tol),
@@ -737,6 +743,46 @@ def _screen_bounds(
         "i_hi": i_hi,
     }
     return out
+
+
+#: IEC 61000-4-5 combination wave: 1.2 us front time of the open-circuit voltage [S]
+_SURGE_FRONT_S: Final[float] = 1.2e-6
+#: IEC 61000-4-5: effective output impedance of the generator, line to line [S]
+_SURGE_Z_OHM: Final[float] = 2.0
+
+
+def _surge_vr_lb(vs: float, r: Any, c: Any) -> Any:
+    """Lower bound of the surge peak voltage across the series resistance [V].
+
+    The front of the wave rises to Vs in about t_f (1.2 us; the bound uses 2 t_f, a slower
+    front, to stay below any faithful model): through (R + 2 ohm) into C a linear ramp gives
+    i(t_f) = (Vs / (R + 2)) (tau / t_f) (1 - exp(-t_f / tau)), tau = (R + 2) C (RC ramp
+    response, textbook [S]); V_R = i R. For tau >> t_f this is Vs R / (R + 2); for tau << t_f
+    it is the capacitor's charging current C Vs / t_f times R.
+    """
+    rz = r + _SURGE_Z_OHM
+    tf = 2 * _SURGE_FRONT_S
+    tau = rz * c
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        frac = np.where(tau > 0, tau / tf * (1 - np.exp(-tf / np.maximum(tau, 1e-30))), 0.0)
+    return vs * r / rz * frac
+
+
+#: IEC 61000-4-5 combination wave: 50 us time to half value of the open-circuit voltage [S]
+_SURGE_HALF_S: Final[float] = 50e-6
+
+
+def _surge_energy_lb(vs: float, r_min: Any, r_max: Any, c: Any) -> Any:
+    """Lower bound of the surge energy in the series resistance [J].
+
+    Between the end of the front and the time to half value the open-circuit voltage stays
+    above Vs / 2 while the capacitor has charged by at most Vs t / ((R + 2) C), so the current
+    is at least (Vs / 2) (1 - t_half / ((R + 2) C)) / (R + 2) for (t_half - t_front).
+    """
+    rz_lo = r_min + _SURGE_Z_OHM
+    rz_hi = r_max + _SURGE_Z_OHM
+    i = 0.5 * vs * np.maximum(1 - _SURGE_HALF_S / (rz_lo * c), 0.0) / rz_hi
+    return r_min * i**2 * (_SURGE_HALF_S - _SURGE_FRONT_S)
 
 
 def _screen_rules_x_r(
@@ -763,158 +809,322 @@ def _screen_rules_x_r(
 
 
 @dataclass
-class _Grid:
-    """Screened points: option indices and lower-bound keys (one entry per point)."""
+class _Group:
+    """Everything the screen needs for one (topology, Zener voltage) group."""
 
-    topology: list[str] = field(default_factory=list)
-    vz: list[float] = field(default_factory=list)
-    x: list[np.ndarray] = field(default_factory=list)
-    r: list[np.ndarray] = field(default_factory=list)
-    key: list[np.ndarray] = field(default_factory=list)
+    topology: str
+    vz: float
+    zo: _Options
+    rect: _Options
+    co: _Options
+    cres_min: np.ndarray
+    z_cap: np.ndarray
+    b_table: _RangeMin
+    pbleed_of: float
+    v_cap: float
+    vf_lo: float
+    vf_hi: float
+    xkeep: np.ndarray  # X options, ascending key
+    rkeep: np.ndarray  # series-R options, ascending total resistance
+    r_sorted: np.ndarray
+    min_r_key: int
+    min_comp_key: int
+    cursor: int = 0
 
 
-def _screen(setup: _Setup, progress: Callable[[int, int], None] | None) -> tuple[_Grid, dict]:
+def _group(setup: _Setup, topology: str, vz: float, stats: dict) -> _Group | None:
+    req, pol = setup.req, setup.policy
+    s0 = _context_scalars(req)
+    rect = setup.rect.get(topology)
+    zo = setup.zo[(topology, vz)]
+    if rect is None or len(rect) == 0 or len(zo) == 0:
+        return None
+    vf = rect.attrs["vf_v"]
+    vf_lo = float(np.nanmin(vf)) if np.any(~np.isnan(vf)) else 0.0
+    vf_hi = float(np.nanmax(vf)) if np.any(~np.isnan(vf)) else 0.0
+    # reservoir candidates for this bus (voltage rule at the Zener's upper tolerance)
+    co = setup.co
+    if len(co):
+        st, lim, _ = _rule("reservoir.voltage").check(
+            {"max_output_voltage_v": vz * 1.05 * (1 - SCREEN_SLACK)}, co.ns(), pol
+        )
+        co = co.take(np.flatnonzero(np.asarray(st <= lim)))
+    if len(co) == 0:
+        _tally(stats, "reservoir.voltage", np.ones(1, dtype=bool))
+        return None
+    cres_min = co.attrs["value"] * (1 - np.nan_to_num(co.attrs["tolerance"], nan=0.2))
+    # Zener capability: per-element derated power x fraction x number in series
+    _, zlim, _ = _rule("zener.power").check(
+        {"max_zener_power_w": 0.0, "ambient_c": s0["ambient_c"]}, zo.ns(), pol
+    )
+    z_cap = np.asarray(zlim, dtype=float) * zo.qty
+    # bleeder options passing their own rules at this bus; range-minimum table over R
+    bo = setup.bo
+    bns = bo.ns()
+    vpk_hi = _SQRT2 * req.mains.high_v
+    vo_hi = (vz * 1.05 + 2 * vf_hi) if topology == "bridge" else vz * 1.05
+    v_cap = max(vpk_hi - vo_hi, 0.0) * (1 - SCREEN_SLACK)
+    btol = np.nan_to_num(bo.attrs["tolerance"], nan=0.05)
+    pb = (v_cap / _SQRT2) ** 2 / (bo.attrs["total_ohm"] * (1 + btol))
+    st, lim, _ = _rule("bleeder.power").check(
+        {"max_bleeder_power_w": pb, "ambient_c": s0["ambient_c"]}, bns, pol
+    )
+    b_ok = np.asarray(st <= lim)
+    st, lim, _ = _rule("bleeder.voltage").check({"max_bleeder_voltage_v": v_cap}, bns, pol)
+    b_ok &= np.asarray(st <= lim)
+    b_table = _RangeMin(np.where(b_ok, bo.attrs["total_ohm"] * (1 - btol), np.nan), bo.key)
+    xkeep, rkeep = _prune(setup, topology, vz, vf_lo, vf_hi, float(np.max(z_cap)))
+    if len(xkeep) == 0 or len(rkeep) == 0 or not np.any(b_ok):
+        _tally(stats, "whole.min_current", np.ones(1, dtype=bool))
+        return None
+    xkeep = xkeep[np.argsort(setup.xo.key[xkeep], kind="stable")]
+    r_tot = setup.ro.attrs["value"][rkeep] * setup.ro.qty[rkeep]
+    order = np.argsort(r_tot, kind="stable")
+    rkeep, r_sorted = rkeep[order], r_tot[order]
+    min_comp = (
+        int(np.min(zo.key))
+        + int(np.min(rect.key))
+        + int(np.min(co.key))
+        + int(np.min(bo.key[b_ok]))
+    )
+    return _Group(
+        topology,
+        vz,
+        zo,
+        rect,
+        co,
+        cres_min,
+        z_cap,
+        b_table,
+        (v_cap / _SQRT2) ** 2,
+        v_cap,
+        vf_lo,
+        vf_hi,
+        xkeep,
+        rkeep,
+        r_sorted,
+        int(np.min(setup.ro.key[rkeep])),
+        min_comp,
+    )
+
+
+_BIG: Final[int] = np.iinfo(np.int64).max // 4
+
+
+def _screen_chunk(setup: _Setup, G: _Group, xs: np.ndarray, budget: int, stats: dict):
+    """Screen the points (x in ``xs``) x (series R in the window that x allows).
+
+    Returns (x indices, R indices, lower-bound keys) of the points that pass, key < budget.
+    """
     req, pol = setup.req, setup.policy
     xo, ro = setup.xo, setup.ro
-    grid = _Grid()
-    stats: dict[str, Any] = {"points": 0, "passed": 0, "blocking": {}, "completion": {}}
     s0 = _context_scalars(req)
     avg_a, peak_a = _bus_demand(req)
-    nx, nr = len(xo), len(ro)
-    if nx == 0 or nr == 0:
-        return grid, stats
-    chunk = max(1, 400_000 // max(nr, 1))
-    groups = list(setup.zo)
-    total = len(groups) * ((nx + chunk - 1) // chunk)
-    done = 0
-    xtol = np.nan_to_num(xo.attrs["tolerance"], nan=0.2)
+    need = avg_a * (1 + pol.load_margin)
+    xtol = np.nan_to_num(xo.attrs["tolerance"][xs], nan=0.2)
+    cx = xo.attrs["value"][xs]
+    # the series-R window each X allows (necessary conditions, see _screen_bounds):
+    #   current: I_ub(C, R) >= need  ->  R <= sqrt((I0 / need)^2 - 1) / (w_lo C_min)
+    #   switch-on dV/dt on C and rectifier IFSM: R >= V_on / (C dV/dt), V_on / IFSM_max
+    zero = np.zeros(len(xs))
+    b0 = _screen_bounds(req, G.topology, G.vz, cx, xtol, zero, zero, G.vf_lo, G.vf_hi)
+    i0 = b0["min_dc_current_a"]
+    w_lo = 2 * math.pi * min(req.mains.frequencies_hz)
+    c_min = cx * (1 - xtol) * (1 - req.cap_loss)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        r_hi = np.sqrt(np.maximum((i0 / need) ** 2 - 1, 0)) / (w_lo * c_min)
+    r_hi = np.where(i0 >= need, r_hi, -1.0)
+    lb = 1 - SCREEN_SLACK
+    v_on = float(b0["v_on"][0]) if len(xs) else 0.0
+    dv = np.nan_to_num(xo.attrs["dvdt_v_per_s"][xs], nan=np.inf)
+    ifsm_max = float(np.nanmax(G.rect.attrs["ifsm_a"])) if len(G.rect) else np.inf
+    r_lo = np.maximum(v_on * lb / (b0["c_max"] * dv), v_on * lb / ifsm_max) / 1.25
+    lo_i = np.searchsorted(G.r_sorted, r_lo, side="left")
+    hi_i = np.searchsorted(G.r_sorted, r_hi, side="right")
+    cnt = np.maximum(hi_i - lo_i, 0)
+    total = int(cnt.sum())
+    if total == 0:
+        return None
+    xpos = np.repeat(np.arange(len(xs)), cnt)
+    start = np.repeat(lo_i - np.concatenate([[0], np.cumsum(cnt)[:-1]]), cnt)
+    rpos = np.arange(total) + start
+    xg = xs[xpos]
+    rg = G.rkeep[rpos]
+    # keys: prune by the budget before any physics
+    kx = xo.key[xg] + ro.key[rg]
+    m = kx + G.min_comp_key < budget
+    xg, rg, kx = xg[m], rg[m], kx[m]
+    if len(xg) == 0:
+        return None
+    rtol = np.nan_to_num(ro.attrs["tolerance"][rg], nan=0.05)
+    r_tot = ro.attrs["value"][rg] * ro.qty[rg]
+    b = _screen_bounds(
+        req,
+        G.topology,
+        G.vz,
+        xo.attrs["value"][xg],
+        np.nan_to_num(xo.attrs["tolerance"][xg], nan=0.2),
+        r_tot,
+        rtol,
+        G.vf_lo,
+        G.vf_hi,
+    )
+    s = {**s0, **b, "load_a": avg_a}
+    xns, rns = xo.ns(xg), ro.ns(rg)
+    ok = _screen_rules_x_r(s, xns, rns, pol)
+    stats["points"] += len(ok)
+    _count_block(stats, s, xns, rns, pol, ok)
+    ok_xr = ok.copy()
+    zo, rect, co = G.zo, G.rect, G.co
+    zsel = _cheapest_at_least(G.z_cap, zo.key, b["max_zener_power_w"])
+    _tally(stats, "zener.power", ok_xr & (zsel < 0))
+    ok &= zsel >= 0
+    rsel = _cheapest_at_least(
+        rect.attrs["ifsm_a"] * pol.rectifier_surge_fraction,
+        rect.key,
+        b["inrush_rectifier_peak_current_a"],
+    )
+    _tally(stats, "rectifier.ifsm", ok_xr & (rsel < 0))
+    ok &= rsel >= 0
+    deficit = np.maximum(peak_a - b["min_dc_current_a"], 0.0)
+    need_c = deficit * req.burst_duration_s / (G.vz * pol.burst_droop_fraction)
+    csel = _cheapest_at_least(G.cres_min, co.key, need_c)
+    _tally(stats, "whole.burst_holdup", ok_xr & (csel < 0))
+    ok &= csel >= 0
+    limit_v, allowed_s, tau_rule = _PROFILE_LIMITS[req.conditions.profile]
+    c_ex = b["c_min_nom"]
+    if tau_rule:
+        rb_hi = allowed_s / (c_ex * (1 - SCREEN_SLACK))
+    else:
+        rb_hi = allowed_s / (
+            c_ex * math.log(max(G.v_cap / limit_v, 1.0 + 1e-12)) * (1 - SCREEN_SLACK)
+        )
+    if req.conditions.profile == "iec60335":
+        rb_hi = np.where(c_ex <= _EXEMPT_C, np.inf, rb_hi)
+    room = pol.standby_limit_w - (b["max_zener_power_w"] + b["max_series_r_power_w"])
+    _tally(stats, "whole.standby_power", ok_xr & ~(room > 0))
+    ok &= room > 0
+    rb_lo = np.where(room > 0, G.pbleed_of / np.maximum(room, 1e-12), np.inf)
+    bsel = G.b_table.query(rb_lo, rb_hi)
+    _tally(stats, "bleeder.discharge", ok_xr & (room > 0) & (bsel < 0))
+    ok &= bsel >= 0
+    fus = ro.attrs["fusible_flag"][rg].astype(bool)
+    fkey, fok = _fuse_choice(setup.fo, ro, rg, b, s0, pol, fus)
+    _tally(stats, "fuse.opens_on_short", ok_xr & ~fok)
+    ok &= fok
+    key = (
+        kx
+        + np.where(zsel >= 0, zo.key[np.maximum(zsel, 0)], 0)
+        + np.where(rsel >= 0, rect.key[np.maximum(rsel, 0)], 0)
+        + np.where(csel >= 0, co.key[np.maximum(csel, 0)], 0)
+        + np.where(bsel >= 0, setup.bo.key[np.maximum(bsel, 0)], 0)
+        + fkey
+    )
+    ok &= key < budget
+    sel = np.flatnonzero(ok)
+    stats["passed"] += len(sel)
+    if len(sel) == 0:
+        return None
+    order = np.argsort(key[sel], kind="stable")
+    sel = sel[order]
+    return xg[sel], rg[sel], key[sel]
+
+
+def _prune(setup, topology, vz, vf_lo, vf_hi, z_cap_max):
+    """X and series-R options that can take part in any feasible point of this group.
+
+    Necessary conditions only (each uses the most favourable partner of the other role):
+    X: the current at the smallest series resistance meets the load; the Zener power at the
+    largest series resistance fits the largest Zener and the standby limit. R: the current
+    with the largest kept capacitance meets the load; the R rules hold with the smallest kept
+    capacitance. Then R options dominated by another of the same resistance and tolerance
+    (higher or equal ratings, lower or equal key) by ``top`` or more are dropped.
+    """
+    req, pol = setup.req, setup.policy
+    xo, ro = setup.xo, setup.ro
+    s0 = _context_scalars(req)
+    avg_a, _ = _bus_demand(req)
+    need = avg_a * (1 + pol.load_margin)
+    r_tot = ro.attrs["value"] * ro.qty
     rtol = np.nan_to_num(ro.attrs["tolerance"], nan=0.05)
-    for topology, vz in groups:
-        rect = setup.rect.get(topology)
-        zo = setup.zo[(topology, vz)]
-        if rect is None or len(rect) == 0 or len(zo) == 0:
-            continue
-        vf = rect.attrs["vf_v"]
-        vf_lo = float(np.nanmin(vf)) if np.any(~np.isnan(vf)) else 0.0
-        vf_hi = float(np.nanmax(vf)) if np.any(~np.isnan(vf)) else 0.0
-        # reservoir candidates for this bus (voltage rule at the Zener's upper tolerance)
-        co = setup.co
-        if len(co):
-            st, lim, _ = _rule("reservoir.voltage").check(
-                {"max_output_voltage_v": vz * 1.05 * (1 - SCREEN_SLACK)}, co.ns(), pol
-            )
-            co = co.take(np.flatnonzero(np.asarray(st <= lim)))
-        if len(co) == 0:
-            continue
-        cres_min = co.attrs["value"] * (1 - np.nan_to_num(co.attrs["tolerance"], nan=0.2))
-        # Zener capability: per-element derated power x fraction x number in series
-        zns = zo.ns()
-        zst, zlim, _ = _rule("zener.power").check(
-            {"max_zener_power_w": 0.0, "ambient_c": s0["ambient_c"]}, zns, pol
+    xtol = np.nan_to_num(xo.attrs["tolerance"], nan=0.2)
+    cx = xo.attrs["value"]
+    r_lo = float(np.min(r_tot * (1 - rtol)))
+    r_hi = float(np.max(r_tot * (1 + rtol)))
+    zero = np.zeros(len(xo))
+    b_lo = _screen_bounds(req, topology, vz, cx, xtol, np.full(len(xo), r_lo), zero, vf_lo, vf_hi)
+    b_hi = _screen_bounds(req, topology, vz, cx, xtol, np.full(len(xo), r_hi), zero, vf_lo, vf_hi)
+    xk = b_lo["min_dc_current_a"] >= need
+    xk &= b_hi["max_zener_power_w"] <= min(z_cap_max, pol.standby_limit_w)
+    xkeep = np.flatnonzero(xk)
+    if len(xkeep) == 0:
+        return xkeep, np.zeros(0, dtype=np.int64)
+    c_best = float(np.max(cx[xkeep] * (1 - xtol[xkeep])))
+    c_least = float(np.min(cx[xkeep] * (1 - xtol[xkeep])))
+    n = len(ro)
+    b = _screen_bounds(
+        req, topology, vz, np.full(n, c_best), np.zeros(n), r_tot, rtol, vf_lo, vf_hi
+    )
+    rk = b["min_dc_current_a"] >= need
+    b2 = _screen_bounds(
+        req, topology, vz, np.full(n, c_least), np.zeros(n), r_tot, rtol, vf_lo, vf_hi
+    )
+    s = {**s0, **b2, "load_a": 0.0}
+    rns = ro.ns()
+    for rid in (
+        "series_r.power",
+        "series_r.switch_on_energy",
+        "series_r.switch_on_voltage",
+        "series_r.surge_voltage",
+        "series_r.peak_voltage",
+    ):
+        st, lim, _ = _rule(rid).check(s, rns, pol)
+        rk &= np.asarray(st <= lim)
+    rk &= b2["max_series_r_power_w"] <= pol.standby_limit_w
+    rkeep = np.flatnonzero(rk)
+    rkeep = _pareto_r(ro, rkeep, setup.req.top)
+    return xkeep, rkeep
+
+
+def _pareto_r(ro: _Options, idx: np.ndarray, keep: int) -> np.ndarray:
+    """Drop series-R options dominated ``keep`` or more times within their (R, tol, fusible)."""
+    if len(idx) == 0:
+        return idx
+    q = ro.qty[idx].astype(float)
+    a = ro.attrs
+    cap = np.column_stack(
+        [
+            np.nan_to_num(a["power_w"][idx], nan=-1) * q,
+            np.nan_to_num(a["pulse_energy_j"][idx], nan=-1) * q,
+            np.nan_to_num(a["limiting_voltage_v"][idx], nan=-1) * q,
+            np.nan_to_num(a["derate_start_c"][idx], nan=-1),
+            np.nan_to_num(a["derate_end_c"][idx], nan=-1),
+        ]
+    )
+    grp = np.column_stack(
+        [
+            np.round(a["value"][idx] * ro.qty[idx], 9),
+            np.nan_to_num(a["tolerance"][idx], nan=-1),
+            a["fusible_flag"][idx].astype(float),
+        ]
+    )
+    key = ro.key[idx]
+    _, inv = np.unique(grp, axis=0, return_inverse=True)
+    inv = np.asarray(inv).ravel()
+    out = []
+    for g in np.unique(inv):
+        m = np.flatnonzero(inv == g)
+        c = cap[m]
+        k = key[m]
+        # dom[i, j]: j dominates i
+        ge = np.all(c[None, :, :] >= c[:, None, :], axis=2)
+        better = (k[None, :] < k[:, None]) | (
+            (k[None, :] == k[:, None]) & np.any(c[None, :, :] > c[:, None, :], axis=2)
         )
-        z_cap = np.asarray(zlim, dtype=float) * zo.qty
-        # bleeder windows are computed per point; the table is per group
-        bo = setup.bo
-        bns = bo.ns()
-        b_ok = np.ones(len(bo), dtype=bool)
-        vpk_hi = _SQRT2 * req.mains.high_v
-        vo_hi = (vz * 1.05 + 2 * vf_hi) if topology == "bridge" else vz * 1.05
-        v_cap = max(vpk_hi - vo_hi, 0.0) * (1 - SCREEN_SLACK)
-        rb_max_ohm = bo.attrs["total_ohm"] * (1 + np.nan_to_num(bo.attrs["tolerance"], nan=0.05))
-        rb_min_ohm = bo.attrs["total_ohm"] * (1 - np.nan_to_num(bo.attrs["tolerance"], nan=0.05))
-        pb = (v_cap / _SQRT2) ** 2 / rb_max_ohm
-        st, lim, _ = _rule("bleeder.power").check(
-            {"max_bleeder_power_w": pb, "ambient_c": s0["ambient_c"]}, bns, pol
-        )
-        b_ok &= np.asarray(st <= lim)
-        st, lim, _ = _rule("bleeder.voltage").check({"max_bleeder_voltage_v": v_cap}, bns, pol)
-        b_ok &= np.asarray(st <= lim)
-        b_table = _RangeMin(np.where(b_ok, rb_min_ohm, np.nan), bo.key)
-        pbleed_of = (v_cap / _SQRT2) ** 2  # / Rb gives a lower bound of the bleeder power
-        limit_v, allowed_s, tau_rule = _PROFILE_LIMITS[req.conditions.profile]
-        for x0 in range(0, nx, chunk):
-            xs = np.arange(x0, min(nx, x0 + chunk))
-            xg, rg = np.meshgrid(xs, np.arange(nr), indexing="ij")
-            xg, rg = xg.ravel(), rg.ravel()
-            r_tot = ro.attrs["value"][rg] * ro.qty[rg]
-            b = _screen_bounds(
-                req,
-                topology,
-                vz,
-                xo.attrs["value"][xg],
-                xtol[xg],
-                r_tot,
-                rtol[rg],
-                vf_lo,
-                vf_hi,
-            )
-            s = {**s0, **b, "load_a": avg_a}
-            ok = _screen_rules_x_r(s, xo.ns(xg), ro.ns(rg), pol)
-            stats["points"] += len(ok)
-            _count_block(stats, s, xo.ns(xg), ro.ns(rg), pol, ok)
-            ok_xr = ok.copy()
-            # Zener: cheapest with capability >= the power bound
-            zsel = _cheapest_at_least(z_cap, zo.key, b["max_zener_power_w"])
-            _tally(stats, "zener.power", ok_xr & (zsel < 0))
-            ok &= zsel >= 0
-            # rectifier: cheapest with IFSM >= the switch-on peak bound
-            rsel = _cheapest_at_least(
-                rect.attrs["ifsm_a"] * pol.rectifier_surge_fraction,
-                rect.key,
-                b["inrush_rectifier_peak_current_a"],
-            )
-            _tally(stats, "rectifier.ifsm", ok_xr & (rsel < 0))
-            ok &= rsel >= 0
-            # reservoir: burst hold-up needs C_min >= deficit t / droop
-            deficit = np.maximum(peak_a - b["min_dc_current_a"], 0.0)
-            need_c = deficit * req.burst_duration_s / (vz * pol.burst_droop_fraction)
-            csel = _cheapest_at_least(cres_min, co.key, need_c)
-            _tally(stats, "whole.burst_holdup", ok_xr & (csel < 0))
-            ok &= csel >= 0
-            # bleeder window: discharge (Rb <= hi) and standby power (Rb >= lo)
-            c_ex = b["c_min_nom"]
-            if tau_rule:
-                rb_hi = allowed_s / (c_ex * (1 - SCREEN_SLACK))
-            else:
-                rb_hi = allowed_s / (
-                    c_ex * math.log(max(v_cap / limit_v, 1.0 + 1e-12)) * (1 - SCREEN_SLACK)
-                )
-            if req.conditions.profile == "iec60335":
-                rb_hi = np.where(c_ex <= _EXEMPT_C, np.inf, rb_hi)
-            p_rest = b["max_zener_power_w"] + b["max_series_r_power_w"]
-            room = pol.standby_limit_w - p_rest
-            _tally(stats, "whole.standby_power", ok_xr & ~(room > 0))
-            ok &= room > 0
-            rb_lo = np.where(room > 0, pbleed_of / np.maximum(room, 1e-12), np.inf)
-            bsel = b_table.query(rb_lo, rb_hi)
-            _tally(stats, "bleeder.discharge", ok_xr & (room > 0) & (bsel < 0))
-            ok &= bsel >= 0
-            # fuse: fusible series resistor, or the cheapest fuse that passes both fuse rules
-            fus = ro.attrs["fusible_flag"][rg].astype(bool)
-            fkey, fok = _fuse_choice(setup.fo, ro, rg, b, s0, pol, fus)
-            _tally(stats, "fuse.opens_on_short", ok_xr & ~fok)
-            ok &= fok
-            key = (
-                xo.key[xg]
-                + ro.key[rg]
-                + np.where(zsel >= 0, zo.key[np.maximum(zsel, 0)], 0)
-                + np.where(rsel >= 0, rect.key[np.maximum(rsel, 0)], 0)
-                + np.where(csel >= 0, co.key[np.maximum(csel, 0)], 0)
-                + np.where(bsel >= 0, setup.bo.key[np.maximum(bsel, 0)], 0)
-                + fkey
-            )
-            sel = np.flatnonzero(ok)
-            stats["passed"] += len(sel)
-            if len(sel):
-                grid.topology.append(topology)
-                grid.vz.append(vz)
-                grid.x.append(xg[sel])
-                grid.r.append(rg[sel])
-                grid.key.append(key[sel])
-            done += 1
-            if progress:
-                progress(done, total)
-    return grid, stats
+        dom = ge & better
+        np.fill_diagonal(dom, False)
+        out.append(m[dom.sum(axis=1) < keep])
+    return np.sort(idx[np.concatenate(out)])
 
 
 def _tally(stats: dict, rule_id: str, bad: np.ndarray) -> None:
@@ -1246,16 +1456,11 @@ def _parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, fi):
     return out
 
 
-def _screen_completion(setup, topology, vz, xi, ri):
-    """The completion the screen would pick for one point (a starting guess for _verify)."""
-    req, pol = setup.req, setup.policy
-    rect, zo, co, bo = setup.rect[topology], setup.zo[(topology, vz)], setup.co, setup.bo
-    di = int(np.argmin(rect.key))
-    zi = int(np.argmin(zo.key))
-    ci = int(np.argmin(co.key))
-    bi = int(np.argmin(bo.key))
-    del req, pol
-    return zi, di, ci, bi
+def _screen_completion(setup, G: _Group, xi: int, ri: int):
+    """A starting completion for _verify (the cheapest of each role; _verify re-chooses it
+    against the exact stresses until it settles)."""
+    del xi, ri
+    return tuple(int(np.argmin(o.key)) for o in (G.zo, G.rect, setup.co, setup.bo))
 
 
 def design(
@@ -1277,34 +1482,72 @@ def design(
     if setup.analyse is None:
         raise RuntimeError("selector.engine.analyse is not available")
     _precheck(setup)
-    grid, stats = _screen(setup, progress)
-    if not grid.key:
-        raise _infeasible(setup, stats)
-    keys = np.concatenate(grid.key)
-    gid = np.concatenate([np.full(len(k), i) for i, k in enumerate(grid.key)])
-    xs = np.concatenate(grid.x)
-    rs = np.concatenate(grid.r)
-    order = np.argsort(keys, kind="stable")
+    stats: dict[str, Any] = {
+        "points": 0,
+        "passed": 0,
+        "blocking": {},
+        "completion": {},
+        "verified": 0,
+    }
+    groups = [g for g in (_group(setup, t, v, stats) for t, v in setup.zo) if g is not None]
+    chunk = 256
+    total_chunks = sum((len(g.xkeep) + chunk - 1) // chunk for g in groups)
+    done_chunks = 0
+    pending: list[list[Any]] = []  # [keys, xs, rs, group, pointer]
     found: list[tuple[int, Any]] = []
-    verified = 0
-    for pos in order:
-        lb = keys[pos]
-        done = sorted(found, key=lambda t: t[0])
-        if len(done) >= req.top and done[req.top - 1][0] <= lb:
+
+    def bound() -> int:
+        if len(found) < req.top:
+            return _BIG
+        return sorted(k for k, _ in found)[req.top - 1]
+
+    def next_chunk_lb() -> tuple[int, _Group | None]:
+        best, bg = _BIG, None
+        for g in groups:
+            if g.cursor < len(g.xkeep):
+                lb = int(setup.xo.key[g.xkeep[g.cursor]]) + g.min_r_key + g.min_comp_key
+                if lb < best:
+                    best, bg = lb, g
+        return best, bg
+
+    while True:
+        nxt, g = next_chunk_lb()
+        # verify pending points whose lower bound is below anything still unscreened
+        while True:
+            head = None
+            for p in pending:
+                if p[4] < len(p[0]) and (head is None or p[0][p[4]] < head[0][head[4]]):
+                    head = p
+            if head is None:
+                break
+            lbk = int(head[0][head[4]])
+            if lbk >= nxt or lbk >= bound():
+                break
+            xi, ri, G = int(head[1][head[4]]), int(head[2][head[4]]), head[3]
+            head[4] += 1
+            if stats["verified"] >= max_verify:
+                stats["verify_limit"] = True
+                break
+            stats["verified"] += 1
+            res = _verify(setup, G.topology, G.vz, xi, ri, _screen_completion(setup, G, xi, ri))
+            if res is not None:
+                found.append((res[0], res))
+        if stats.get("verify_limit") or g is None or nxt >= bound():
             break
-        if verified >= max_verify:
-            break
-        g = int(gid[pos])
-        topology, vz = grid.topology[g], grid.vz[g]
-        xi, ri = int(xs[pos]), int(rs[pos])
-        guess = _screen_completion(setup, topology, vz, xi, ri)
-        verified += 1
-        res = _verify(setup, topology, vz, xi, ri, guess)
-        if res is not None:
-            found.append((res[0], res))
+        xs = g.xkeep[g.cursor : g.cursor + chunk]
+        g.cursor += chunk
+        out = _screen_chunk(setup, g, xs, bound(), stats)
+        if out is not None:
+            pending.append([out[2], out[0], out[1], g, 0])
+        done_chunks += 1
+        if progress:
+            progress(done_chunks, total_chunks)
+    if progress:
+        progress(total_chunks, total_chunks)
     found.sort(key=lambda t: t[0])
+    setup.stats = stats
     if not found:
-        raise _infeasible(setup, stats, verified=verified)
+        raise _infeasible(setup, stats, verified=stats["verified"])
     return [_to_design(setup, rank + 1, res) for rank, (_, res) in enumerate(found[: req.top])]
 
 
@@ -1524,7 +1767,7 @@ def _to_design(setup: _Setup, rank: int, res) -> Design:
 
 def _binding(findings: Sequence[R.Finding], n: int = 3) -> list[str]:
     """The rules with the smallest margins (the ones that decide the design)."""
-    ms = [f for f in findings if f.margin is not None]
+    ms = [f for f in findings if f.margin is not None and f.unit != "class"]
     ms.sort(key=lambda f: f.margin)
     return [f.rule for f in ms[:n]]
 

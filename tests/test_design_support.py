@@ -269,15 +269,19 @@ def standin_analyse(circuit, mains, tol, cond):
         rectifier_peak_current_a=ipk,
         duration_s=r_min * c_max,
     )
+    # surge: a 1.2 us ramp to Vs through 2 ohm + R into C, then an exponential decay of the
+    # current (time constant (R + 2) C) cut off at 50 us (a crude RC model of IEC 61000-4-5)
     vs = cond.surge_v
-    isg = vs / (r_min + 2.0)
+    tau = (r_min + 2.0) * c_set[0]
+    tf = 1.2e-6
+    isg = vs / (r_min + 2.0) * tau / tf * (1 - math.exp(-tf / tau))
     surge = SimpleNamespace(
         level_v=vs,
         peak_current_a=isg,
-        series_r_energy_j=isg**2 * r_min * 20e-6,
+        series_r_energy_j=isg**2 * r_min * tau / 2 * (1 - math.exp(-2 * 50e-6 / tau)),
         series_r_peak_voltage_v=isg * r_min,
-        x_cap_voltage_step_v=isg * 20e-6 / c_set[0],
-        x_cap_dvdt_v_per_s=isg / c_max,
+        x_cap_voltage_step_v=min(isg * tau / c_set[0], vs),
+        x_cap_dvdt_v_per_s=isg / c_set[0],
     )
     tau = rb * (1 + tol.r_tol) * c_max
     exempt = cond.profile == "iec60335" and c <= 0.1e-6
