@@ -215,3 +215,12 @@ def test_xlsx_with_several_sheets_needs_sheet(catalogue_url, tmp_path):
 
 def test_bad_role_option():
     assert "REF=ROLE" in _bad(invoke(str(DATA / "audit_vent_sound.csv"), "--role", "C1"))
+
+
+def test_bad_role_in_the_bom_role_column(tmp_path):
+    p = tmp_path / "bom.csv"
+    p.write_text(
+        "Reference,Value,Description,Role\nC1,220n,X2 305VAC,x_capacitr\n", encoding="utf-8"
+    )
+    line = _bad(invoke(str(p)))
+    assert "row 2, column 'Role'" in line and "did you mean 'x_capacitor'" in line

@@ -597,6 +597,17 @@ def audit_bom(
                 f"roles file {roles_file}: board '{name}' is not in the BOM "
                 f"(boards: {', '.join(b or '(unnamed)' for b in boards)})"
             )
+    if "role" in table.column_map:
+        from .roles import _role_name
+
+        for p in table.parts:
+            if p.role:
+                try:
+                    _role_name(p.role, "")
+                except BadValueError as exc:
+                    raise BadRowError(
+                        table.path, p.row, table.column_map["role"], f"{p.ref}: {exc}"
+                    ) from None
     cli = {k.upper(): v for k, v in (roles or {}).items()}
     fields_by_role = _rule_fields()
     if catalogue is not None and not isinstance(catalogue, CatalogueIndex):

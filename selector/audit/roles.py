@@ -105,7 +105,7 @@ class RoleMap:
         return [a for a in self.parts if a.role == role or (role == "fuse" and a.also_fuse)]
 
 
-def _role_name(text: str, where: str) -> str:
+def _role_name(text: str, where: str = "") -> str:
     key = text.strip().lower().replace("-", "_").replace(" ", "_")
     key = _ROLE_ALIASES.get(key, key)
     if key not in AUDIT_ROLES:
