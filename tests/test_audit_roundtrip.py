@@ -1,0 +1,46 @@
+"""Round trip: the BOM `dropper design --bom` writes is read back by `dropper audit`, and the
+audit finds no failure in a design the solver proposed (both run the same rule engine, so a
+disagreement would be a defect in one of them or in the BOM text between them).
+
+Requirements are demo figures (invented), in the range of DOMAIN.md section 1 (a few mA to a few
+tens of mA at 230 V).
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+from typer.testing import CliRunner
+
+from selector.cli import app
+
+runner = CliRunner()
+
+
+@pytest.mark.parametrize(
+    "load, vout, freq",
+    [("12m", "5.1", "50,60"), ("20m", "12", "50"), ("5m", "3.3", "50,60")],
+)
+def test_design_bom_audits_without_failure(catalogue_url, tmp_path: Path, load, vout, freq):
+    bom = tmp_path / "design.csv"
+    made = runner.invoke(
+        app,
+        ["design", "--load", load, "--vout", vout, "--mains", "230", "--freq", freq,
+         "--bom", str(bom), "--db", catalogue_url, "--json"],
+    )  # fmt: skip
+    assert made.exit_code == 0, made.output
+    assert bom.is_file()
+    audited = runner.invoke(
+        app,
+        ["audit", str(bom), "--mains", "230", "--freq", freq, "--load", load,
+         "--db", catalogue_url, "--json"],
+    )  # fmt: skip
+    doc = json.loads(audited.stdout)
+    failing = [(f["rule"], f["ref"], f["stress"], f["rating"]) for f in doc["findings"]
+               if f["severity"] == "fail"]  # fmt: skip
+    assert failing == []
+    assert audited.exit_code == 0
+    # every designed part was read back with the role design gave it
+    assert all(r["how"] == "BOM" for r in doc["roles"])
