@@ -609,6 +609,11 @@ def audit_bom(
                         table.path, p.row, table.column_map["role"], f"{p.ref}: {exc}"
                     ) from None
     cli = {k.upper(): v for k, v in (roles or {}).items()}
+    if len(boards) > 1:
+        everywhere = {p.ref.upper() for p in table.parts}
+        for ref in list(common_file) + [k for k in cli if ":" not in k]:
+            if ref not in everywhere:
+                raise BadValueError(f"a role names {ref}, which no board of the BOM has")
     fields_by_role = _rule_fields()
     if catalogue is not None and not isinstance(catalogue, CatalogueIndex):
         catalogue = CatalogueIndex(catalogue)
