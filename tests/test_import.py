@@ -387,3 +387,34 @@ def test_killed_import_leaves_the_catalogue_as_it_was(engine, tmp_path):
         proc.kill()
         proc.wait(timeout=30)
     assert _snapshot(engine) == before
+
+
+def test_tsv_and_semicolon_csv_with_decimal_commas(engine, tmp_path):
+    header, rows = _demo_rows()
+    tsv = tmp_path / "stock.tsv"
+    tsv.write_text("\n".join("\t".join(r) for r in [header, *rows[:5]]) + "\n", encoding="utf-8")
+    result = import_stock(engine, tsv, supplier="tab")
+    assert (result.inserted, result.problems) == (5, [])
+    # European spreadsheet export: ';' between cells, ',' as the decimal mark in prices
+    euro = tmp_path / "euro.csv"
+    euro.write_text(
+        "Artikel;Family;Value;Stock;Unit price\nA-1;x2-film;330n;12;0,24\n", encoding="utf-8"
+    )
+    got = import_stock(engine, euro, supplier="euro", column_map={"Artikel": "supplier_code"})
+    assert got.inserted == 1 and not got.problems
+    with engine.connect() as conn:
+        price = conn.execute(
+            select(Part.unit_price).where(Part.code == stock_code("euro", "A-1"))
+        ).scalar_one()
+    assert price == 0.24
+
+
+def test_ignored_column_by_map(engine, tmp_path):
+    path = _write_csv(
+        tmp_path / "x.csv",
+        ["SKU", "Family", "Value", "Price", "Description"],
+        [["A", "x2-film", "330n", "0.2", "tantalum capacitor"]],
+    )
+    result = import_stock(engine, path, supplier="m", column_map={"Description": "ignore"})
+    assert result.inserted == 1
+    assert [m.field for m in result.mapping][-1] is None
