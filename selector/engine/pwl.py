@@ -82,6 +82,7 @@ class Mode:
         "key",
         "_m",
         "_cc",
+        "basis",
     )
 
     def __init__(self, key, dvc, dvo, rows, guards, vpk: float, omega: float):
@@ -111,6 +112,41 @@ class Mode:
         self.Y = (complex((m11 * b0 - m01 * b1) / d), complex((-m10 * b0 + m00 * b1) / d))
         self._m = tuple(float(v) for v in self.M.ravel())
         self._cc = (float(self.c[0]), float(self.c[1]), float(self.Mc[0]), float(self.Mc[1]))
+        self.basis: np.ndarray | None = None
+
+    def make_basis(self, hs: np.ndarray) -> np.ndarray:
+        """Rows ``[e2, d_e, g2, d_f, cos(w h), sin(w h), 1]`` on a fixed grid of steps ``hs``:
+        every state and guard value at ``t0 + hs`` is a 7-term combination of them."""
+        e2, d_e, g2, d_f = _phi_dd(self.l1, self.l2, hs)
+        wh = self.omega * hs
+        self.basis = np.vstack([e2, d_e, g2, d_f, np.cos(wh), np.sin(wh), np.ones_like(hs)])
+        return self.basis
+
+    def grid_coefficients(self, x0, t0: float, vpk: float) -> np.ndarray:
+        """(4, 7) matrix W with ``[vc, vo, u, 1](t0 + h) = W @ basis(h)``."""
+        w = self.omega
+        sn, cs = math.sin(w * t0), math.cos(w * t0)
+        y0, y1 = self.Y
+        z0 = x0[0] - (y0.real * sn + y0.imag * cs)
+        z1 = x0[1] - (y1.real * sn + y1.imag * cs)
+        M = self._m
+        c = self._cc
+        return np.array(
+            [
+                [z0, M[0] * z0 + M[1] * z1, c[0], c[2],
+                 y0.real * sn + y0.imag * cs, y0.real * cs - y0.imag * sn, 0.0],
+                [z1, M[2] * z0 + M[3] * z1, c[1], c[3],
+                 y1.real * sn + y1.imag * cs, y1.real * cs - y1.imag * sn, 0.0],
+                [0.0, 0.0, 0.0, 0.0, vpk * sn, vpk * cs, 0.0],
+                [0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 1.0],
+            ]
+        )  # fmt: skip
+
+    def transition_scalar(self, h: float) -> tuple[float, float, float, float]:
+        """E(h) as a flat (a, b, c, d) tuple of floats."""
+        e2, d_e, _, _ = _phi_dd(self.l1, self.l2, h)
+        M = self._m
+        return (e2 + d_e * M[0], d_e * M[1], d_e * M[2], e2 + d_e * M[3])
 
     # --- exact solution -------------------------------------------------------------------
     def xs(self, t):
@@ -212,6 +248,8 @@ class PwlSystem:
         self.period = 1.0 / freq_hz
         self.tol = 1e-9 * volt_scale
         self.grid_dt = self.period / 96.0
+        self._grid_n = 96
+        self._grid = self.grid_dt * np.arange(1, self._grid_n + 1)
 
     def mode(self, key) -> Mode:
         m = self._cache.get(key)
@@ -272,36 +310,44 @@ class PwlSystem:
 
         ``J`` is d x1 / d x0. With ``collect`` the outputs are sampled for quadrature.
         """
-        x = np.array(x0, dtype=float)
+        x = (float(x0[0]), float(x0[1]))
         t = t0
         key = self.settle(key, x, t)
-        J = np.eye(2)
+        j00, j01, j10, j11 = 1.0, 0.0, 0.0, 1.0
         ts, ws, outs = [], [], []
         switches = 0
         stuck = 0
         qdt = quad_dt or self.period / 240.0
+        dt = self.grid_dt
+        K = self._grid_n
         while t1 - t > 1e-15 * self.period:
             mode = self.mode(key)
             span = t1 - t
-            n = max(2, math.ceil(span / self.grid_dt))
-            hs = np.linspace(0.0, span, n + 1)[1:]
             h_end = span
             next_key = None
+            vc1 = vo1 = None
             if mode.guards:
-                vc, vo = mode.advance(x, t, hs)
-                u = self.vpk * np.sin(self.omega * (t + hs))
                 gr = mode.guard_rows
-                G = np.outer(gr[:, 0], vc) + np.outer(gr[:, 1], vo) + np.outer(gr[:, 2], u)
-                G += gr[:, 3:4]
+                n = min(K, int(span / dt))
+                basis = mode.basis if mode.basis is not None else mode.make_basis(self._grid)
+                coef = gr @ mode.grid_coefficients(x, t, self.vpk)
+                G = coef @ basis[:, :n] if n > 0 else np.zeros((len(gr), 0))
                 neg = G < -self.tol
-                if neg.any():
-                    cols = np.nonzero(neg.any(axis=0))[0]
+                cols = np.flatnonzero(neg.any(axis=0))
+                if not cols.size:
+                    vc1, vo1 = mode.advance_scalar(x, t, span)
+                    g_end = gr @ np.array([vc1, vo1, self.u(t1), 1.0])
+                    G = np.column_stack([G, g_end])
+                    neg = G < -self.tol
+                    cols = np.flatnonzero(neg.any(axis=0))
+                if cols.size:
                     k = int(cols[0])
-                    h_lo = float(hs[k - 1]) if k > 0 else 0.0
-                    h_hi = float(hs[k])
+                    h_lo = k * dt if k > 0 else 0.0
+                    h_hi = (k + 1) * dt if k < n else span
                     best = h_hi
-                    for j in np.nonzero(neg[:, k])[0]:
-                        hj = self._locate(mode, gr[j], x, t, h_lo, h_hi)
+                    for j in np.flatnonzero(neg[:, k]):
+                        fa = float(G[j, k - 1]) if k > 0 else None
+                        hj = self._locate(mode, gr[j], x, t, h_lo, h_hi, fa, float(G[j, k]))
                         if hj <= best:
                             best = hj
                             next_key = mode.guards[j][1]
@@ -313,17 +359,27 @@ class PwlSystem:
                             next_key = None
                     else:
                         stuck = 0
+                    vc1, vo1 = mode.advance_scalar(x, t, h_end)
+            if vc1 is None:
+                vc1, vo1 = mode.advance_scalar(x, t, h_end)
             if collect:
                 self._sample(mode, x, t, h_end, qdt, ts, ws, outs)
-            vc1, vo1 = mode.advance_scalar(x, t, h_end)
-            J = mode.transition(h_end) @ J
-            x = np.array([vc1, vo1])
+            a, b, c, d = mode.transition_scalar(h_end)
+            j00, j01, j10, j11 = (
+                a * j00 + b * j10,
+                a * j01 + b * j11,
+                c * j00 + d * j10,
+                c * j01 + d * j11,
+            )
+            x = (vc1, vo1)
             t = t + h_end
             if next_key is not None:
                 switches += 1
                 key = self.settle(next_key, x, t)
-            if stop is not None and stop(self.mode(key), x, t):
+            if stop is not None and stop(self.mode(key), np.array(x), t):
                 break
+        J = np.array([[j00, j01], [j10, j11]])
+        x = np.array(x)
         trace = None
         if collect:
             out = np.concatenate(outs, axis=1) if outs else np.zeros((len(self.names), 0))
@@ -339,10 +395,12 @@ class PwlSystem:
         vc, vo = mode.advance_scalar(x, t, h)
         return row[0] * vc + row[1] * vo + row[2] * self.u(t + h) + row[3]
 
-    def _locate(self, mode: Mode, row, x, t: float, a: float, b: float) -> float:
+    def _locate(self, mode: Mode, row, x, t: float, a: float, b: float, fa=None, fb=None) -> float:
         """First zero of a guard row in (a, b], where g(a) >= 0 > g(b): Illinois regula falsi."""
-        fa = self._guard_at(mode, row, x, t, a)
-        fb = self._guard_at(mode, row, x, t, b)
+        if fa is None:
+            fa = self._guard_at(mode, row, x, t, a)
+        if fb is None:
+            fb = self._guard_at(mode, row, x, t, b)
         if fa <= 0.0:
             return a
         side = 0

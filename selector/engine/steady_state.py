@@ -286,13 +286,23 @@ class SteadyState:
     trace: Trace | None = None
 
 
-def _initial_guess(circuit: Circuit, vpk: float) -> tuple[np.ndarray, tuple]:
+def _initial_guess(circuit: Circuit, vpk: float, omega: float) -> tuple[np.ndarray, tuple]:
+    """State at the positive-going zero crossing of the mains, from the ideal clamp picture.
+
+    Shortly after the negative crest the rectifier conducts again, so at ``u = 0`` the capacitor
+    sits below the clamp voltage by the drop of the charging current ``w C Vpk`` in R:
+    ``v_c = -(V_clamp + R w C Vpk)``.
+    """
     vf = circuit.diode_drop_v
+    c = circuit.x_capacitance_f
+    r = circuit.series_resistance_ohm
+    wrc = omega * r * c
+    drop = r * omega * c * vpk / math.sqrt(1.0 + wrc * wrc)
     if circuit.topology == "bridge":
         vo = circuit.zener_voltage_v
-        return np.array([-(vpk - vo - 2 * vf), vo]), (0, 1, 0)
+        return np.array([-(vo + 2 * vf + drop), vo]), (1, 1, 0)
     vo = circuit.zener_voltage_v - vf
-    return np.array([-(vpk - vf), vo]), (-1, 0, 0)
+    return np.array([-(circuit.zener_voltage_v + drop), vo]), (1, 1, 0)
 
 
 def solve_steady_state(
@@ -314,7 +324,7 @@ def solve_steady_state(
     system = build_system(circuit, mains_v, freq_hz, load_a, load_g)
     bridge = circuit.topology == "bridge"
     span = system.period / 2 if bridge else system.period
-    x, key = _initial_guess(circuit, system.vpk)
+    x, key = _initial_guess(circuit, system.vpk, system.omega)
     if x_guess is not None:
         x = np.array(x_guess, dtype=float)
     S = np.diag([-1.0, 1.0])
@@ -338,7 +348,7 @@ def solve_steady_state(
             # (event times are located to ~1e-13 of a period; the map is resolved to ~1e-9 V/V)
             converged = True
             break
-        collect = res < 1e-4 * scale
+        collect = res < 1e-3 * scale
         try:
             dx = np.linalg.solve(J - np.eye(2), -r)
         except np.linalg.LinAlgError:
