@@ -11,6 +11,7 @@ The stock lists used are DEMO data, invented (tests/data/demo_stock.*).
 from __future__ import annotations
 
 import csv
+import json
 import os
 import subprocess
 import sys
@@ -230,3 +231,18 @@ def test_killed_import_leaves_postgresql_catalogue_as_it_was(pg_catalogue, pg_ur
     # and the catalogue still takes an import (no lock left behind)
     again = import_stock(pg_catalogue, path, supplier="killed")
     assert again.inserted == 3000
+
+
+def test_cli_import_with_db_url(pg_url):
+    from typer.testing import CliRunner
+
+    from selector.cli import app
+
+    runner = CliRunner()
+    args = ["parts", "import", str(DEMO_XLSX), "--supplier", "shelf", "--db", pg_url]
+    first = runner.invoke(app, args, catch_exceptions=False)
+    assert first.exit_code == 0, first.output
+    assert first.stdout.splitlines()[-1].startswith("38 rows: 38 new, 0 updated, 0 unchanged")
+    second = runner.invoke(app, [*args, "--json"], catch_exceptions=False)
+    doc = json.loads(second.stdout)
+    assert (doc["inserted"], doc["updated"], doc["unchanged"]) == (0, 0, DEMO_ROWS)
