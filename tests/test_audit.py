@@ -179,7 +179,8 @@ def test_explicit_role_and_roles_file(catalogue, tmp_path):
 def test_assumed_ratings_are_reported(catalogue):
     r = run("audit_vent_fault_chip_series.csv", catalogue)
     assert any(
-        "R1: " in a and "assumed from family chip-thick-film" in a for a in r.boards[0].assumed
+        a.startswith("R1, R2: ") and "assumed from family chip-thick-film" in a
+        for a in r.boards[0].assumed
     )
 
 
@@ -294,3 +295,34 @@ def test_half_wave_inferred_from_one_diode(catalogue, tmp_path):
     assert r.boards[0].circuit.topology == "half-wave"
     assert {a.part.ref for a in r.boards[0].roles.by_role("rectifier")} == {"D1"}
     assert "rectifier.vrrm" in {f.rule for f in r.findings}
+
+
+def test_unequal_bleeders_share_the_voltage_by_resistance(catalogue, tmp_path):
+    # a series string divides the voltage in proportion to resistance (Ohm's law) [S]
+    text = (DATA / "audit_vent_sound.csv").read_text(encoding="utf-8")
+    old = 'R3-R5,3,470k,"Resistor, thick film, 1/4W, 200V, 1%",R_1206_3216Metric,DEMO-R470K'
+    new = (
+        'R3,1,330k,"Resistor, thick film, 1/4W, 200V, 1%",R_1206_3216Metric,DEMO-R330K\n'
+        'R4-R5,2,560k,"Resistor, thick film, 1/4W, 200V, 1%",R_1206_3216Metric,DEMO-R560K'
+    )
+    p = tmp_path / "bom.csv"
+    p.write_text(text.replace(old, new), encoding="utf-8")
+    r = run(p, catalogue)
+    volts = {f.ref: f.stress for f in r.findings if f.rule == "bleeder.voltage"}
+    total = 330e3 + 2 * 560e3
+    # per element: 330 k of 1.45 M against 560 k of 1.45 M
+    assert volts["R3"] / volts["R4, R5"] == pytest.approx(330e3 / 560e3, rel=1e-9)
+    assert r.boards[0].circuit.bleeder_resistance_ohm == pytest.approx(total)
+
+
+def test_fusible_series_resistor_serves_as_the_fuse(catalogue, tmp_path):
+    text = (DATA / "audit_vent_sound.csv").read_text(encoding="utf-8")
+    lines = [ln for ln in text.splitlines() if not ln.startswith("F1,")]
+    old = '"R1, R2",2,47R,"Resistor, metal oxide, 1W, 350V, 5%",R_Axial_DIN0414,DEMO-MO47'
+    new = '"R1, R2",2,47R,"Resistor, fusible, 0.5W, 250V, 5%",R_Axial_DIN0207,DEMO-FU47'
+    p = tmp_path / "bom.csv"
+    p.write_text("\n".join(lines).replace(old, new) + "\n", encoding="utf-8")
+    r = run(p, catalogue)
+    rules = {f.rule for f in r.findings if f.ref == "R1, R2"}
+    assert "fuse.fusible_opens_on_short" in rules and "series_r.power" in rules
+    assert "fuse.fitted" not in {f.rule for f in r.findings}

@@ -742,7 +742,7 @@ def _audit_board(table: BomTable, rm: RoleMap, **kw: Any) -> BoardAudit:
     board = rm.board
     where = _where(table, board)
     notes: list[str] = []
-    assumed: list[str] = []
+    assumed_refs: dict[str, list[str]] = {}
     by_role: dict[str, list[Assigned]] = {}
     for a in rm.parts:
         if a.role != "other":
@@ -773,7 +773,10 @@ def _audit_board(table: BomTable, rm: RoleMap, **kw: Any) -> BoardAudit:
             fam = fill_from_catalogue(a.ratings, wanted, frame)
             if fam:
                 fields = ", ".join(sorted(a.ratings.assumed))
-                assumed.append(f"{a.part.ref}: {fields} assumed from family {fam}")
+                assumed_refs.setdefault(f"{fields} assumed from family {fam}", []).append(
+                    a.part.ref
+                )
+    assumed = [f"{', '.join(refs)}: {text}" for text, refs in assumed_refs.items()]
     # circuit values from the BOM
     xs = tuple(a.ratings.value for a in by_role["x_capacitor"])
     series_r = sum(a.ratings.value for a in by_role["series_resistor"])
