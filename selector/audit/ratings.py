@@ -333,7 +333,7 @@ def read_ratings(
         if r.value is None and kind == "zener":
             m = _ZENER_CODE_RE.search(up)
             if m:
-                r.value = float(f"{m.group('a')}.{m.group('b')}")
+                r.value = _read(f"{m.group('a')}.{m.group('b')}V", "V")
         if r.value is None and kind == "zener":
             volts = _voltages(description + " " + voltage)
             if volts:
@@ -388,7 +388,7 @@ def read_ratings(
     if m:
         r.i2t_a2s = _read(m.group("num") or m.group("num2"), "A2s")
     if kind in ("electrolytic", "capacitor", "zener", "diode", "bridge"):
-        temps = [float(m.group("num")) for m in _TEMP_RE.finditer(up)]
+        temps = [parse_value(m.group("num")) for m in _TEMP_RE.finditer(up)]
         temps = [t for t in temps if 70 <= t <= 200]
         if temps:
             r.temp_max_c = max(temps)
