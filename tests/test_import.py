@@ -352,12 +352,19 @@ def test_progress_reaches_the_total(engine, tmp_path):
     assert [d for d, _ in calls] == sorted(d for d, _ in calls)
 
 
+def _fail_in_write_phase(done: int, total: int) -> None:
+    """Progress callback that raises once the first batch is written (inside the
+    transaction): the injected failure."""
+    if done > total // 2:
+        raise RuntimeError(f"injected failure at {done} of {total}")
+
+
 def test_exception_mid_import_leaves_the_catalogue_as_it_was(engine, tmp_path):
     import_stock(engine, DEMO_CSV, supplier="demo-shelf")
     before = _snapshot(engine)
     path = _big_list(tmp_path / "big.csv", 1500)
     with pytest.raises(RuntimeError, match="injected failure"):
-        import_stock(engine, path, supplier="big", _fail_after=500)
+        import_stock(engine, path, supplier="big", progress=_fail_in_write_phase)
     assert _snapshot(engine) == before
 
 

@@ -196,11 +196,20 @@ def test_two_concurrent_imports_lose_no_row(pg_catalogue, pg_url, tmp_path):
         assert conn.execute(select(Supplier.name)).scalars().all() == ["team-store"]
 
 
+def _fail_in_write_phase(done: int, total: int) -> None:
+    """Progress callback that raises once the first batch is written (inside the
+    transaction): the injected failure."""
+    if done > total // 2:
+        raise RuntimeError(f"injected failure at {done} of {total}")
+
+
 def test_exception_mid_import_rolls_back_on_postgresql(pg_catalogue, tmp_path):
     import_stock(pg_catalogue, DEMO_XLSX, supplier="demo-shelf")
     before = _snapshot(pg_catalogue)
     with pytest.raises(RuntimeError, match="injected failure"):
-        import_stock(pg_catalogue, _list(tmp_path / "big.csv", 1500, "X"), _fail_after=500)
+        import_stock(
+            pg_catalogue, _list(tmp_path / "big.csv", 1500, "X"), progress=_fail_in_write_phase
+        )
     assert _snapshot(pg_catalogue) == before
 
 

@@ -854,7 +854,6 @@ def import_stock(
     currency: str = "EUR",
     sheet: str | None = None,
     progress: Progress | None = None,
-    _fail_after: int | None = None,
 ) -> ImportResult:
     """Import a stock list into the catalogue behind ``engine`` (see the module doc).
 
@@ -929,7 +928,7 @@ def import_stock(
         result.families = {}
         return result
     _working_voltages(good)
-    _write(engine, name, currency, good, result, dry_run, progress, len(body), total, _fail_after)
+    _write(engine, name, currency, good, result, dry_run, progress, len(body), total)
     return result
 
 
@@ -969,9 +968,11 @@ def _write(
     progress: Progress | None,
     offset: int,
     total: int,
-    fail_after: int | None,
 ) -> None:
-    """Compare with what is stored and upsert the new and changed rows, in one transaction."""
+    """Compare with what is stored and upsert the new and changed rows, in one transaction.
+
+    ``progress`` is called after each batch, inside the transaction: an exception it raises
+    (or the process dying there) rolls everything back."""
     chunk = 500
     with engine.begin() as conn:
         _ensure_supplier(conn, supplier, currency)
@@ -1015,10 +1016,9 @@ def _write(
             if changed and not dry_run:
                 _upsert(conn, changed)
             done = min(start + chunk, len(rows))
-            if fail_after is not None and done >= fail_after:
-                raise RuntimeError(f"injected failure after {done} rows (test hook)")
             if progress is not None:
-                progress(offset + done, total)
+                # scaled so that the last batch reports total even when rows were refused
+                progress(offset + (done * (total - offset)) // max(len(rows), 1), total)
         if dry_run:
             conn.rollback()
             return
