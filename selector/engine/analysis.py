@@ -75,12 +75,14 @@ class Corner:
 
 @dataclass
 class Nominal:
-    """Nominal mains (first frequency of the set), nominal values, the actual load (JSON keys)."""
+    """Nominal mains (first frequency of the set), nominal values, the actual load (JSON keys).
+
+    ``zener_power_w`` is with the actual load; the worst case (``WorstCase.max_zener_power_w``)
+    is at zero load, so the two agree only for a circuit without load."""
 
     freq_hz: float
     dc_current_a: float
     zener_power_w: float
-    zener_power_no_load_w: float
     zener_current_a: float
     output_voltage_v: float
     ripple_v: float
@@ -231,8 +233,10 @@ def analyse(
     total = 6
     done = [0]
 
+    has_load = not circuit.load.is_zero or circuit.regulator is not None
+
     def solve(k: Corner, loaded: bool) -> SteadyState:
-        key = (k, loaded)
+        key = (k, loaded or not has_load)  # without a load both are the same solve
         if key not in cache:
             cc = corner_circuit(circuit, k)
             kw = {} if loaded else {"load_a": 0.0, "load_g": 0.0}
@@ -251,9 +255,7 @@ def analyse(
         circuit.bleeder_resistance_ohm,
         circuit.zener_voltage_v,
     )
-    loaded = not circuit.load.is_zero or circuit.regulator is not None
     nom = solve(k_nom, True)
-    nom0 = solve(k_nom, False) if loaded else nom
     s_min = solve(k_min, True)
     s_pz = solve(k_max_pz, False)
     s_imax = solve(k_max_i, True)
@@ -345,7 +347,6 @@ def analyse(
         freq_hz=f0,
         dc_current_a=nom.dc_current_a,
         zener_power_w=nom.zener_power_w,
-        zener_power_no_load_w=nom0.zener_power_w,
         zener_current_a=nom.zener_current_a,
         output_voltage_v=nom.output_voltage_v,
         ripple_v=nom.ripple_v,

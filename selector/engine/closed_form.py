@@ -10,8 +10,8 @@ w R C <= 0.4, Zener 5.1 and 24 V, reservoir 470 uF, zero load, Vf 0.8 V), is:
 quantity                         formula                             max |error| vs exact
 ===============================  ==================================  =====================
 bridge DC current, R -> 0        ``4 f C (Vpk - Vz - 2 Vf)``          8.3 % (grows with wRC)
-bridge DC current, R corrected   ``4 f C (Vpk / k - Vz - 2 Vf)``      0.83 %
-half-wave DC current, R corr.    ``f C (2 Vpk / k - Vz - Vf)``        0.83 %
+bridge DC current, R corrected   ``4 f C (Vpk / k - Vz - 2 Vf)``      0.63 %
+half-wave DC current, R corr.    ``f C (2 Vpk / k - Vz - Vf)``        0.72 %
 line current rms                 ``V / sqrt(R^2 + Xc^2)``             10.1 % (ignores the
                                                                       clamp: 24 V on 120 V)
 ===============================  ==================================  =====================

@@ -317,7 +317,7 @@ class PwlSystem:
         ts, ws, outs = [], [], []
         switches = 0
         stuck = 0
-        qdt = quad_dt or self.period / 240.0
+        qdt = quad_dt or self.period / 100.0
         dt = self.grid_dt
         K = self._grid_n
         while t1 - t > 1e-15 * self.period:
@@ -426,20 +426,33 @@ class PwlSystem:
         return b
 
     def _sample(self, mode: Mode, x, t: float, h: float, qdt: float, ts, ws, outs) -> None:
+        """Composite Simpson samples of the outputs over one segment. A fast mode (time constant
+        below the sample spacing, e.g. R C of the series loop at the start of conduction) gets
+        its own finely sampled stretch of ten time constants at the start."""
         if h <= 0:
             return
-        m = max(1, math.ceil(h / (2 * qdt)))
-        n = 2 * m + 1
-        hs = np.linspace(0.0, h, n)
-        w = np.ones(n)
-        w[1:-1:2] = 4.0
-        w[2:-1:2] = 2.0
-        w *= h / (3.0 * (n - 1))
-        vc, vo = mode.advance(x, t, hs)
-        u = self.vpk * np.sin(self.omega * (t + hs))
-        nout = len(self.names)
-        r = mode.rows[:nout]
-        out = np.outer(r[:, 0], vc) + np.outer(r[:, 1], vo) + np.outer(r[:, 2], u) + r[:, 3:4]
-        ts.append(t + hs)
-        ws.append(w)
-        outs.append(out)
+        pieces = []
+        start = 0.0
+        for lam in (mode.l2, mode.l1):  # fastest first
+            tau = -1.0 / lam if lam < 0 else math.inf
+            if tau < 2 * qdt and 10.0 * tau > start and start < h:
+                end = min(h, 10.0 * tau)
+                pieces.append((start, end, 12))
+                start = end
+        if start < h:
+            pieces.append((start, h, max(1, math.ceil((h - start) / (2 * qdt)))))
+        for a, b, m in pieces:
+            n = 2 * m + 1
+            hs = np.linspace(a, b, n)
+            w = np.ones(n)
+            w[1:-1:2] = 4.0
+            w[2:-1:2] = 2.0
+            w *= (b - a) / (3.0 * (n - 1))
+            vc, vo = mode.advance(x, t, hs)
+            u = self.vpk * np.sin(self.omega * (t + hs))
+            nout = len(self.names)
+            r = mode.rows[:nout]
+            out = np.outer(r[:, 0], vc) + np.outer(r[:, 1], vo) + np.outer(r[:, 2], u) + r[:, 3:4]
+            ts.append(t + hs)
+            ws.append(w)
+            outs.append(out)
