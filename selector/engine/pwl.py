@@ -441,18 +441,30 @@ class PwlSystem:
                 start = end
         if start < h:
             pieces.append((start, h, max(1, math.ceil((h - start) / (2 * qdt)))))
+        nout = len(self.names)
+        rw = mode.rows[:nout] @ mode.grid_coefficients(x, t, self.vpk)  # (nout, 7)
+        l1, l2 = mode.l1, mode.l2
         for a, b, m in pieces:
             n = 2 * m + 1
             hs = np.linspace(a, b, n)
-            w = np.ones(n)
-            w[1:-1:2] = 4.0
-            w[2:-1:2] = 2.0
-            w *= (b - a) / (3.0 * (n - 1))
-            vc, vo = mode.advance(x, t, hs)
-            u = self.vpk * np.sin(self.omega * (t + hs))
-            nout = len(self.names)
-            r = mode.rows[:nout]
-            out = np.outer(r[:, 0], vc) + np.outer(r[:, 1], vo) + np.outer(r[:, 2], u) + r[:, 3:4]
+            w = _simpson_weights(n) * ((b - a) / (3.0 * (n - 1)))
+            e2, d_e, g2, d_f = _phi_dd(l1, l2, hs)
+            wh = self.omega * hs
+            basis = np.vstack([e2, d_e, g2, d_f, np.cos(wh), np.sin(wh), np.ones(n)])
             ts.append(t + hs)
             ws.append(w)
-            outs.append(out)
+            outs.append(rw @ basis)
+
+
+_SIMPSON: dict[int, np.ndarray] = {}
+
+
+def _simpson_weights(n: int) -> np.ndarray:
+    """Composite Simpson weights 1 4 2 4 ... 4 1 for ``n`` (odd) points (unscaled)."""
+    w = _SIMPSON.get(n)
+    if w is None:
+        w = np.ones(n)
+        w[1:-1:2] = 4.0
+        w[2:-1:2] = 2.0
+        _SIMPSON[n] = w
+    return w
