@@ -114,13 +114,15 @@ class Mode:
         self._cc = (float(self.c[0]), float(self.c[1]), float(self.Mc[0]), float(self.Mc[1]))
         self.basis: np.ndarray | None = None
 
-    def make_basis(self, hs: np.ndarray) -> np.ndarray:
+    def make_basis(self, hs: np.ndarray, trig: np.ndarray) -> np.ndarray:
         """Rows ``[e2, d_e, g2, d_f, cos(w h), sin(w h), 1]`` on a fixed grid of steps ``hs``:
-        every state and guard value at ``t0 + hs`` is a 7-term combination of them."""
-        e2, d_e, g2, d_f = _phi_dd(self.l1, self.l2, hs)
-        wh = self.omega * hs
-        self.basis = np.vstack([e2, d_e, g2, d_f, np.cos(wh), np.sin(wh), np.ones_like(hs)])
-        return self.basis
+        every state and guard value at ``t0 + hs`` is a 7-term combination of them. ``trig``
+        holds the last three rows (the same for every mode of a system)."""
+        basis = np.empty((7, hs.size))
+        basis[0], basis[1], basis[2], basis[3] = _phi_dd(self.l1, self.l2, hs)
+        basis[4:] = trig
+        self.basis = basis
+        return basis
 
     def grid_coefficients(self, x0, t0: float, vpk: float) -> np.ndarray:
         """(4, 7) matrix W with ``[vc, vo, u, 1](t0 + h) = W @ basis(h)``."""
@@ -250,6 +252,8 @@ class PwlSystem:
         self.grid_dt = self.period / 96.0
         self._grid_n = 96
         self._grid = self.grid_dt * np.arange(1, self._grid_n + 1)
+        wh = self.omega * self._grid
+        self._trig = np.vstack([np.cos(wh), np.sin(wh), np.ones_like(wh)])
 
     def mode(self, key) -> Mode:
         m = self._cache.get(key)
@@ -329,7 +333,11 @@ class PwlSystem:
             if mode.guards:
                 gr = mode.guard_rows
                 n = min(K, int(span / dt))
-                basis = mode.basis if mode.basis is not None else mode.make_basis(self._grid)
+                basis = (
+                    mode.basis
+                    if mode.basis is not None
+                    else mode.make_basis(self._grid, self._trig)
+                )
                 coef = gr @ mode.grid_coefficients(x, t, self.vpk)
                 G = coef @ basis[:, :n] if n > 0 else np.zeros((len(gr), 0))
                 neg = G < -self.tol
@@ -443,17 +451,22 @@ class PwlSystem:
             pieces.append((start, h, max(1, math.ceil((h - start) / (2 * qdt)))))
         nout = len(self.names)
         rw = mode.rows[:nout] @ mode.grid_coefficients(x, t, self.vpk)  # (nout, 7)
-        l1, l2 = mode.l1, mode.l2
+        hs_parts, w_parts = [], []
         for a, b, m in pieces:
             n = 2 * m + 1
-            hs = np.linspace(a, b, n)
-            w = _simpson_weights(n) * ((b - a) / (3.0 * (n - 1)))
-            e2, d_e, g2, d_f = _phi_dd(l1, l2, hs)
-            wh = self.omega * hs
-            basis = np.vstack([e2, d_e, g2, d_f, np.cos(wh), np.sin(wh), np.ones(n)])
-            ts.append(t + hs)
-            ws.append(w)
-            outs.append(rw @ basis)
+            hs_parts.append(np.linspace(a, b, n))
+            w_parts.append(_simpson_weights(n) * ((b - a) / (3.0 * (n - 1))))
+        hs = np.concatenate(hs_parts) if len(hs_parts) > 1 else hs_parts[0]
+        w = np.concatenate(w_parts) if len(w_parts) > 1 else w_parts[0]
+        basis = np.empty((7, hs.size))
+        basis[0], basis[1], basis[2], basis[3] = _phi_dd(mode.l1, mode.l2, hs)
+        wh = self.omega * hs
+        np.cos(wh, out=basis[4])
+        np.sin(wh, out=basis[5])
+        basis[6] = 1.0
+        ts.append(t + hs)
+        ws.append(w)
+        outs.append(rw @ basis)
 
 
 _SIMPSON: dict[int, np.ndarray] = {}
