@@ -87,13 +87,14 @@ class Mode:
 
     def __init__(self, key, dvc, dvo, rows, guards, vpk: float, omega: float):
         self.key = key
-        self.A = np.array([[dvc[0], dvc[1]], [dvo[0], dvo[1]]], dtype=float)
-        self.b = np.array([dvc[2], dvo[2]], dtype=float)
-        self.c = np.array([dvc[3], dvo[3]], dtype=float)
+        a11, a12, b0, c0 = (float(v) for v in dvc)
+        a21, a22, b1, c1 = (float(v) for v in dvo)
+        self.A = np.array([[a11, a12], [a21, a22]])
+        self.b = np.array([b0, b1])
+        self.c = np.array([c0, c1])
         self.rows = np.asarray(rows, dtype=float)
         self.guards = guards
         self.guard_rows = self.rows[[g[0] for g in guards]] if guards else np.zeros((0, 4))
-        a11, a12, a21, a22 = self.A.ravel()
         tr = a11 + a22
         det = a11 * a22 - a12 * a21
         disc = max(0.25 * tr * tr - det, 0.0)
@@ -102,16 +103,18 @@ class Mode:
         if l1 < l2:
             l1, l2 = l2, l1
         self.l1, self.l2 = l1, l2
-        self.M = self.A - l2 * np.eye(2)
-        self.Mc = self.M @ self.c
+        m = (a11 - l2, a12, a21, a22 - l2)
+        self.M = np.array([[m[0], m[1]], [m[2], m[3]]])
+        mc0, mc1 = m[0] * c0 + m[1] * c1, m[2] * c0 + m[3] * c1
+        self.Mc = np.array([mc0, mc1])
         self.omega = omega
         jw = 1j * omega
         m00, m01, m10, m11 = jw - a11, -a12, -a21, jw - a22
         d = m00 * m11 - m01 * m10
-        b0, b1 = self.b * vpk
+        b0, b1 = b0 * vpk, b1 * vpk
         self.Y = (complex((m11 * b0 - m01 * b1) / d), complex((-m10 * b0 + m00 * b1) / d))
-        self._m = tuple(float(v) for v in self.M.ravel())
-        self._cc = (float(self.c[0]), float(self.c[1]), float(self.Mc[0]), float(self.Mc[1]))
+        self._m = m
+        self._cc = (c0, c1, mc0, mc1)
         self.basis: np.ndarray | None = None
 
     def make_basis(self, hs: np.ndarray, trig: np.ndarray) -> np.ndarray:
@@ -454,7 +457,7 @@ class PwlSystem:
         hs_parts, w_parts = [], []
         for a, b, m in pieces:
             n = 2 * m + 1
-            hs_parts.append(np.linspace(a, b, n))
+            hs_parts.append(a + (b - a) * _unit_grid(n))
             w_parts.append(_simpson_weights(n) * ((b - a) / (3.0 * (n - 1))))
         hs = np.concatenate(hs_parts) if len(hs_parts) > 1 else hs_parts[0]
         w = np.concatenate(w_parts) if len(w_parts) > 1 else w_parts[0]
@@ -470,6 +473,16 @@ class PwlSystem:
 
 
 _SIMPSON: dict[int, np.ndarray] = {}
+_UNIT: dict[int, np.ndarray] = {}
+
+
+def _unit_grid(n: int) -> np.ndarray:
+    """``n`` equally spaced points on [0, 1] (cached)."""
+    g = _UNIT.get(n)
+    if g is None:
+        g = np.linspace(0.0, 1.0, n)
+        _UNIT[n] = g
+    return g
 
 
 def _simpson_weights(n: int) -> np.ndarray:
