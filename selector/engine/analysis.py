@@ -292,6 +292,7 @@ def analyse(
     bleed_corner = {**corner_of(s_vc), "bleeder_ohm": rb_min}
     max_pr_s = max(solved, key=lambda s: s.series_r_power_w)
     rect_s = max(solved, key=lambda s: s.rectifier_peak_current_a)
+    s_vmin = min(solved, key=lambda s: s.output_min_v)
     reg_p, reg_h = None, None
     if circuit.regulator is not None:
         figs = [
@@ -319,8 +320,8 @@ def analyse(
         max_line_voltage_v=mains.high_v,
         max_output_voltage_v=s_pz.output_max_v,
         max_output_voltage_corner=corner_of(s_pz),
-        min_output_voltage_v=s_min.output_min_v,
-        min_output_voltage_corner=corner_of(s_min),
+        min_output_voltage_v=s_vmin.output_min_v,
+        min_output_voltage_corner=corner_of(s_vmin),
         max_rectifier_avg_current_a=max(s.rectifier_avg_current_a for s in solved),
         max_rectifier_peak_current_a=rect_s.rectifier_peak_current_a,
         # design basis [P]: a shorted X capacitor or an open clamp puts the full crest across it

@@ -255,7 +255,10 @@ def bus_load(circuit: Circuit) -> tuple[float, float]:
 
 @dataclass
 class SteadyState:
-    """Periodic steady state at one corner (SI). Means and rms over one mains cycle."""
+    """Periodic steady state at one corner (SI). Means and rms over one mains cycle.
+
+    ``zener_current_a`` is the mean breakdown (clamping) current; ``zener_power_w`` includes the
+    forward half of a half-wave circuit's Zener."""
 
     mains_v: float
     freq_hz: float
@@ -406,7 +409,7 @@ def _summarise(trace: Trace, circuit: Circuit, mains_v, freq_hz, it, x, keep) ->
         mains_v=mains_v,
         freq_hz=freq_hz,
         dc_current_a=mean(o["i_dc"]),
-        zener_current_a=mean(o["i_z"]),
+        zener_current_a=mean(np.maximum(o["i_z"], 0.0)),
         zener_peak_current_a=float(np.max(o["i_z"])),
         zener_power_w=mean(o["i_z"] * o["v_z"]),
         load_current_a=mean(o["i_load"]),
