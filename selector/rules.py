@@ -848,17 +848,47 @@ def stresses_from_analysis(
     corners: dict[str, str] = {}
     for section, prefix in _SECTIONS:
         data = _as_mapping(getattr(analysis, section, None))
+        own: dict[str, str] = {}
+        section_corner = ""
         for k, v in data.items():
             if k == "corners" and isinstance(v, Mapping):
                 for ck, cv in v.items():
-                    corners[prefix + ck] = _corner_text(cv)
+                    own[prefix + ck] = _corner_text(cv)
+            elif k == "corner":
+                section_corner = _corner_text(v)
             elif k.endswith("_corner"):
-                corners[prefix + k[: -len("_corner")]] = _corner_text(v)
+                own[prefix + k[: -len("_corner")]] = _corner_text(v)
             else:
                 s[prefix + k] = v
+        keys = [prefix + k for k in data if not k.endswith("corner") and k != "corners"]
+        for key in keys:
+            # the corner of a field: its own record, else the one named by its stem
+            # (max_zener_power_corner -> max_zener_power_w; rectifier_corner -> *rectifier*),
+            # else the section's corner
+            text = own.get(key)
+            if text is None:
+                for base, ctext in own.items():
+                    stem = base[len(prefix) :]
+                    if key.startswith(base + "_") or (stem == "rectifier" and "rectifier" in key):
+                        text = ctext
+                        break
+            if text is None and section_corner:
+                text = section_corner
+            if text:
+                corners[key] = text
     if extra:
         s.update(extra)
     return s, corners
+
+
+_CORNER_FIELDS: Final[tuple[tuple[str, str, str], ...]] = (
+    ("mains_v", "", "V"),
+    ("freq_hz", "", "Hz"),
+    ("cap_f", "C=", "F"),
+    ("r_ohm", "R=", "ohm"),
+    ("bleeder_ohm", "Rb=", "ohm"),
+    ("vz_v", "Vz=", "V"),
+)
 
 
 def _corner_text(c: Any) -> str:
@@ -867,7 +897,21 @@ def _corner_text(c: Any) -> str:
     if isinstance(c, str):
         return c
     if isinstance(c, Mapping):
-        return ", ".join(f"{k}={v}" for k, v in c.items())
+        from .units import format_value
+
+        parts = []
+        for key, label, unit in _CORNER_FIELDS:
+            v = c.get(key)
+            if isinstance(v, (int, float)) and math.isfinite(v):
+                parts.append(label + format_value(float(v), unit, digits=3))
+        if "loaded" in c:
+            parts.append("loaded" if c["loaded"] else "no load")
+        rest = [
+            f"{k}={v}"
+            for k, v in c.items()
+            if k not in {f[0] for f in _CORNER_FIELDS} and k != "loaded"
+        ]
+        return " ".join(parts + rest)
     if dataclasses.is_dataclass(c):
         return ", ".join(f"{f.name}={getattr(c, f.name)}" for f in dataclasses.fields(c))
     return str(c)

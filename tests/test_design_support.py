@@ -224,10 +224,10 @@ def standin_analyse(circuit, mains, tol, cond):
         att = 1 / math.sqrt(1 + (w * rr * cc) ** 2)
         if circuit.topology == "bridge":
             i = 0.98 * 4 * f * cc * max(vpk - zz - 2 * vf, 0) * att
-            pz = zz * i
+            pz = zz * i + circuit.zener_impedance_ohm * i * i
         else:
             i = f * cc * max(2 * vpk - zz - 2 * vf, 0) * att
-            pz = zz * i + 0.9 * i
+            pz = zz * i + 0.9 * i + circuit.zener_impedance_ohm * i * i
         irms = v * w * cc * att
         corners.append((i, pz, irms**2 * rr, irms, (v, f, cc, rr, zz)))
     imin = min(corners, key=lambda t: t[0])
