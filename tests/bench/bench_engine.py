@@ -83,7 +83,7 @@ def agreement() -> dict[str, float]:
         scale = max(abs(ref["zener_power_w"]), 0.2 * sc.vz_v * ref["dc_current_a"])
         note("zener_power_w", st.zener_power_w, ref["zener_power_w"], scale)
         note("output_voltage_v", st.output_voltage_v, ref["output_voltage_v"])
-        c = engine_circuit(sc)
+        c = engine_circuit(sc, switch_on=True)
         res = inrush(c, sc.mains_v, sc.freq_hz, {})
         r_d = c.diode_resistance_ohm * (2 if c.topology == "bridge" else 1)
         tau = (
