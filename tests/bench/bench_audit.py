@@ -6,10 +6,12 @@ carries a load-side resistor under a different designator (R7..R9), named ``othe
 file with one ``[boards."NAME".roles]`` table per board, as a team concatenating board BOMs would
 write it.
 
-Boards cycle through a few designs (X capacitor, Zener, series resistor), so identical circuits
-recur; the audit analyses each distinct circuit once (and says how many it analysed). Run:
+Boards cycle through ``--distinct`` designs (X capacitor, Zener, series resistor; up to 459), so
+identical circuits recur; the audit analyses each distinct circuit once (and says how many it
+analysed). Run both ends:
 
-    python tests/bench/bench_audit.py [--lines 10000] [--distinct 12]
+    python tests/bench/bench_audit.py                    # 1000 boards, 12 designs
+    python tests/bench/bench_audit.py --distinct 459     # 1000 boards, 459 designs
 
 Prints lines, boards, distinct circuits, wall time (total and per line; the first audit, with the
 engine and catalogue imports already done), the time of reading the BOM alone, and the peak
@@ -20,19 +22,24 @@ from __future__ import annotations
 
 import argparse
 import csv
-import itertools
 import tempfile
 import time
 import tracemalloc
 from pathlib import Path
 
 
-def _designs(n: int) -> list[tuple[str, str, str]]:
-    caps = ["150n", "220n", "330n", "100n"]
+def _designs(n: int) -> list[tuple[str, tuple[str, str], str]]:
+    """Up to 459 different designs: 17 X capacitors x 3 Zeners x 9 series resistors (E24)."""
+    caps = ["220n", "150n", "330n", "100n", "110n", "120n", "130n", "160n", "180n", "200n"]
+    caps += ["240n", "270n", "300n", "360n", "390n", "430n", "470n"]
     zeners = [("12V", "1W"), ("5V1", "1W"), ("15V", "3W")]
-    series = ["47R", "68R"]
-    out = list(itertools.product(caps, zeners, series))
-    return [(c, z, r) for c, z, r in out][:n]
+    series = ["47R", "68R", "51R", "56R", "62R", "75R", "82R", "91R", "100R"]
+    out = [(c, z, r) for r in series for c in caps for z in zeners]
+    # interleave so that the first n differ in every part
+    out.sort(key=lambda d: (caps.index(d[0]) + zeners.index(d[1]) + series.index(d[2])) % 7)
+    if n > len(out):
+        raise SystemExit(f"--distinct at most {len(out)}")
+    return out[:n]
 
 
 def write_bom(path: Path, roles_path: Path, lines: int, distinct: int) -> int:
