@@ -1988,6 +1988,7 @@ def design_to_dict(d: Design) -> dict[str, Any]:
                 "severity": f.severity,
                 "source": f.source,
                 "corner": f.corner,
+                "note": f.note,
             }
             for f in d.checks
         ],

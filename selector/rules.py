@@ -1013,6 +1013,8 @@ def _one(rule: Rule, s: Mapping[str, Any], cs: Mapping[str, str], p, pol) -> Fin
     note = ""
     if rule.id == "bleeder.discharge" and bool(s.get("discharge_exempt")):
         note = "exempt under the profile"
+    if rule.id == "x_cap.safety_class" and p is not None:
+        note = f"class {p.safety_class}" + ("" if ok else " is not an X subclass")
     return Finding(
         stress=stress,
         limit=limit,

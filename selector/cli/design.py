@@ -1,1 +1,301 @@
-"""`dropper design`: registered here when built (see DEVELOPERS.md)."""
+"""`dropper design`: the cheapest (or smallest) compliant part set for a load, with its reasons."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated, Any
+
+import typer
+
+from ..cautions import CAUTIONS
+from ..errors import BadValueError
+from ..units import format_value, parse_value
+from ._app import app, echo_cautions, print_json
+from ._circuit import (
+    AmbientOpt,
+    BurstOpt,
+    BurstPeriodOpt,
+    BurstTimeOpt,
+    CapLossOpt,
+    DbOpt,
+    DropoutOpt,
+    FreqOpt,
+    JsonOpt,
+    LoadOpt,
+    MainsOpt,
+    MainsTolOpt,
+    ProfileOpt,
+    QuiescentOpt,
+    RegulatorOpt,
+    SurgeOpt,
+    ZenerOpt,
+    conditions_from_options,
+    mains_from_options,
+)
+
+# --topology of design also takes 'any' (check's takes one topology), hence its own help text
+DesignTopologyOpt = Annotated[
+    str, typer.Option("--topology", help="bridge, half-wave, or any (the solver picks).")
+]
+
+
+def _burst(burst: str | None, burst_time: str | None, burst_period: str | None):
+    """(current, duration, period) from --burst 30m/5ms/1s or --burst + --burst-time/-period."""
+    if not burst:
+        return 0.0, 0.0, 0.0
+    if "/" in burst:
+        parts = burst.split("/")
+        if len(parts) != 3:
+            raise BadValueError(
+                f"--burst: cannot read {burst!r}; write current/duration/period, e.g. 30m/5ms/1s"
+            )
+        return (
+            parse_value(parts[0], "A"),
+            parse_value(parts[1], "s"),
+            parse_value(parts[2], "s"),
+        )
+    if not burst_time or not burst_period:
+        raise BadValueError("--burst needs a duration and a period: --burst 30m/5ms/1s")
+    return parse_value(burst, "A"), parse_value(burst_time, "s"), parse_value(burst_period, "s")
+
+
+@app.command()
+def design(
+    load: LoadOpt = "10m",
+    vout: Annotated[
+        str | None,
+        typer.Option("--vout", help="Output voltage, V (5.1); the regulator's with --regulator."),
+    ] = None,
+    topology: DesignTopologyOpt = "bridge",
+    mains: MainsOpt = "230",
+    mains_tol: MainsTolOpt = "10",
+    freq: FreqOpt = "50",
+    cap_loss: CapLossOpt = "10",
+    ambient: AmbientOpt = "40",
+    profile: ProfileOpt = "iec60335",
+    surge: SurgeOpt = "1k",
+    zener: ZenerOpt = None,  # type: ignore[assignment]
+    regulator: RegulatorOpt = None,
+    dropout: DropoutOpt = "1",
+    quiescent: QuiescentOpt = "5m",
+    burst: BurstOpt = None,
+    burst_time: BurstTimeOpt = None,
+    burst_period: BurstPeriodOpt = None,
+    policy: Annotated[
+        Path | None,
+        typer.Option("--policy", help="TOML file overriding derating limits (see docs)."),
+    ] = None,
+    minimize: Annotated[
+        str, typer.Option("--minimize", help="price, area or count (ties broken by the others).")
+    ] = "price",
+    top: Annotated[int, typer.Option("--top", help="How many ranked sets to show.")] = 1,
+    smd_only: Annotated[bool, typer.Option("--smd-only", help="Surface-mount parts only.")] = False,
+    tht_only: Annotated[bool, typer.Option("--tht-only", help="Through-hole parts only.")] = False,
+    exclude: Annotated[
+        list[str] | None,
+        typer.Option("--exclude", help="Leave out a catalogue family (repeatable)."),
+    ] = None,
+    stock_only: Annotated[
+        bool, typer.Option("--stock-only", help="Only parts with stock from an import.")
+    ] = False,
+    bom: Annotated[
+        Path | None, typer.Option("--bom", help="Write the best set as a BOM CSV here.")
+    ] = None,
+    json: JsonOpt = False,
+    db: DbOpt = None,
+) -> None:
+    """The cheapest (or smallest) set of catalogue parts that holds at every worst case, with
+    every rule's margin and source; exit 1 with the blocking rule when nothing fits.
+
+    --burst takes current/duration/period in one value (30m/5ms/1s), or a current with
+    --burst-time and --burst-period.
+    """
+    from .. import design as D
+    from ..catalogue import open_catalogue, parts_frame, resolve_url
+    from ..policy import load_policy
+
+    pol = load_policy(policy)
+    reg_v = parse_value(regulator, "V") if regulator else None
+    if vout is None and reg_v is None:
+        raise BadValueError("give the output voltage with --vout (e.g. --vout 5.1)")
+    vout_v = parse_value(vout, "V") if vout is not None else reg_v
+    if reg_v is not None and vout is not None and abs(reg_v - vout_v) > 1e-9:
+        raise BadValueError("--regulator and --vout disagree: the regulator's output is --vout")
+    b_i, b_t, b_p = _burst(burst, burst_time, burst_period)
+    top_name = topology.strip().lower()
+    if top_name in ("halfwave", "half_wave", "half"):
+        top_name = "half-wave"
+    req = D.Requirement(
+        load_a=parse_value(load, "A"),
+        vout_v=vout_v,
+        mains=mains_from_options(mains, mains_tol, freq),
+        conditions=conditions_from_options(ambient, profile, surge),
+        cap_loss=parse_value(cap_loss.rstrip("%").strip(), None) / 100.0,
+        topology=top_name,
+        zener_v=parse_value(zener, "V") if zener else None,
+        regulator=reg_v is not None,
+        regulator_dropout_v=parse_value(dropout, "V"),
+        regulator_quiescent_a=parse_value(quiescent, "A") if reg_v is not None else 0.0,
+        burst_current_a=b_i,
+        burst_duration_s=b_t,
+        burst_period_s=b_p,
+        minimize=minimize.strip().lower(),
+        top=top,
+        smd_only=smd_only,
+        tht_only=tht_only,
+        exclude=tuple(exclude or ()),
+    )
+    frame = parts_frame(open_catalogue(resolve_url(db)), stock_only=stock_only)
+    designs = D.design(frame, req, pol)
+    if bom is not None:
+        D.write_bom(designs[0], bom)
+    if json:
+        print_json(
+            {
+                "requirement": {
+                    "load_a": req.load_a,
+                    "vout_v": req.vout_v,
+                    "topology": req.topology,
+                    "minimize": req.minimize,
+                    "mains_v": req.mains.nominal_v,
+                    "mains_tolerance": req.mains.tolerance,
+                    "frequencies_hz": list(req.mains.frequencies_hz),
+                    "surge_v": req.conditions.surge_v,
+                    "ambient_c": req.conditions.ambient_c,
+                    "profile": req.conditions.profile,
+                },
+                "policy": pol.to_dict(),
+                "designs": [D.design_to_dict(d) for d in designs],
+                "bom": str(bom) if bom is not None else None,
+                "cautions": list(CAUTIONS),
+            }
+        )
+        return
+    for d in designs:
+        _echo_design(d, len(designs), req)
+    if bom is not None:
+        typer.echo(f"BOM of design 1 written to {bom}")
+    echo_cautions()
+
+
+_UNITS = {
+    "x_capacitor": "F",
+    "reservoir": "F",
+    "series_resistor": "ohm",
+    "bleeder": "ohm",
+    "zener": "V",
+    "fuse": "A",
+    "rectifier": "A",
+}
+
+
+def _ratings_text(p: Any) -> str:
+    r = p.ratings
+    out = []
+    if "safety_class" in r:
+        out.append(str(r["safety_class"]))
+    if "rated_voltage_ac_v" in r:
+        out.append(f"{r['rated_voltage_ac_v']:g} VAC")
+    if "rated_voltage_v" in r:
+        out.append(f"{r['rated_voltage_v']:g} V")
+    if "power_w" in r:
+        out.append(format_value(r["power_w"], "W"))
+    if "limiting_voltage_v" in r:
+        out.append(f"LEV {r['limiting_voltage_v']:g} V")
+    if "pulse_energy_j" in r:
+        out.append(format_value(r["pulse_energy_j"], "J") + " pulse")
+    if "dvdt_v_per_s" in r:
+        out.append(f"{r['dvdt_v_per_s'] / 1e6:g} V/us")
+    if "vrrm_v" in r:
+        out.append(f"VRRM {r['vrrm_v']:g} V")
+    if "ifsm_a" in r:
+        out.append(f"IFSM {r['ifsm_a']:g} A")
+    if "i2t_a2s" in r:
+        out.append(f"I2t {r['i2t_a2s']:.3g} A2s")
+    if "ripple_a" in r:
+        out.append("ripple " + format_value(r["ripple_a"], "A"))
+    if "temp_max_c" in r:
+        out.append(f"{r['temp_max_c']:g} C")
+    if r.get("fusible"):
+        out.append("fusible")
+    return ", ".join(out)
+
+
+def _echo_design(d: Any, n: int, req: Any) -> None:
+    note = next((p.price_note for p in d.parts if p.price_note), None)
+    price_label = f"prices: {note}" if note else "prices: catalogue"
+    typer.echo(
+        f"Design {d.rank} of {n} ({d.topology}): total {d.total_price:.4f}, "
+        f"{d.total_area_mm2:.0f} mm2, {d.part_count} parts  [{price_label}]"
+    )
+    rows = [("role", "code", "value", "qty", "arrangement", "ratings", "unit", "line")]
+    for p in d.parts:
+        value = format_value(p.value, _UNITS[p.role]) if p.role != "rectifier" else p.kind
+        rows.append(
+            (
+                p.role,
+                p.code,
+                value,
+                str(p.qty),
+                p.arrangement,
+                _ratings_text(p),
+                f"{p.unit_price:.4f}",
+                f"{p.line_price:.4f}",
+            )
+        )
+    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
+    for r in rows:
+        typer.echo("  " + "  ".join(c.ljust(w) for c, w in zip(r, widths, strict=True)).rstrip())
+    e = d.effective
+    typer.echo(
+        "  effective: C "
+        + format_value(e["x_capacitance_f"], "F")
+        + ", R "
+        + format_value(e["series_resistance_ohm"], "ohm")
+        + ", bleeder "
+        + format_value(e["bleeder_resistance_ohm"], "ohm")
+        + f", Zener {e['zener_voltage_v']:g} V "
+        + format_value(e["zener_power_rating_w"], "W")
+        + ", reservoir "
+        + format_value(e["reservoir_f"], "F")
+    )
+    w = d.worst_case
+    if w is not None:
+        from ._circuit import describe_corner
+
+        typer.echo("  worst case:")
+        for label, val, unit, corner in (
+            ("min DC current", w.min_dc_current_a, "A", w.min_dc_current_corner),
+            ("max Zener power", w.max_zener_power_w, "W", w.max_zener_power_corner),
+            ("max series R power", w.max_series_r_power_w, "W", w.max_series_r_power_corner),
+            ("max bleeder power", w.max_bleeder_power_w, "W", w.max_bleeder_power_corner),
+            ("max output voltage", w.max_output_voltage_v, "V", w.max_output_voltage_corner),
+            ("no-load real power", w.no_load_real_power_w, "W", w.no_load_real_power_corner),
+        ):
+            typer.echo(f"    {label:<20} {format_value(val, unit):>10}   {describe_corner(corner)}")
+    typer.echo(f"  checks (binding: {', '.join(d.binding)}):")
+    for f in d.checks:
+        if f.stress is None or f.unit == "class":
+            typer.echo(f"    {f.severity:<4}  {f.rule:<28} {f.note:<24}   {f.source}")
+            continue
+        unit = f.unit if f.unit not in ("class",) else ""
+        stress = _fmt(f.stress, unit)
+        limit = _fmt(f.limit, unit)
+        mark = " *" if f.rule in d.binding else ""
+        typer.echo(
+            f"    {f.severity:<4}  {f.rule:<28} {stress:>10} <= {limit:<10} "
+            f"margin {f.margin * 100:5.1f} %{mark}   {f.source}"
+        )
+    typer.echo("")
+
+
+def _fmt(x: float, unit: str) -> str:
+    if unit in ("V/s",):
+        return f"{x / 1e6:.3g} V/us"
+    if unit == "C":
+        return f"{x:.0f} C"
+    if unit == "A2s":
+        return f"{x:.3g} A2s"
+    if unit == "":
+        return f"{x:g}"
+    return format_value(x, unit)
