@@ -321,7 +321,7 @@ class PwlSystem:
         t = t0
         key = self.settle(key, x, t)
         j00, j01, j10, j11 = 1.0, 0.0, 0.0, 1.0
-        ts, ws, outs = [], [], []
+        segs = []
         switches = 0
         stuck = 0
         qdt = quad_dt or self.period / 100.0
@@ -374,7 +374,7 @@ class PwlSystem:
             if vc1 is None:
                 vc1, vo1 = mode.advance_scalar(x, t, h_end)
             if collect:
-                self._sample(mode, x, t, h_end, qdt, ts, ws, outs)
+                segs.append((mode, x, t, h_end))
             a, b, c, d = mode.transition_scalar(h_end)
             j00, j01, j10, j11 = (
                 a * j00 + b * j10,
@@ -393,10 +393,10 @@ class PwlSystem:
         x = np.array(x)
         trace = None
         if collect:
-            out = np.concatenate(outs, axis=1) if outs else np.zeros((len(self.names), 0))
+            tt, ww, out = self._sample_all(segs, qdt)
             trace = Trace(
-                t=np.concatenate(ts),
-                w=np.concatenate(ws),
+                t=tt,
+                w=ww,
                 out={name: out[i] for i, name in enumerate(self.names)},
                 switches=switches,
             )
@@ -422,7 +422,7 @@ class PwlSystem:
             if not (a < m < b):
                 m = 0.5 * (a + b)
             fm = self._guard_at(mode, row, x, t, m)
-            if abs(fm) <= 1e-3 * self.tol:
+            if abs(fm) <= self.tol:
                 return m
             if fm < 0:
                 b, fb = m, fm
@@ -436,12 +436,10 @@ class PwlSystem:
                 side = 1
         return b
 
-    def _sample(self, mode: Mode, x, t: float, h: float, qdt: float, ts, ws, outs) -> None:
-        """Composite Simpson samples of the outputs over one segment. A fast mode (time constant
-        below the sample spacing, e.g. R C of the series loop at the start of conduction) gets
-        its own finely sampled stretch of ten time constants at the start."""
-        if h <= 0:
-            return
+    def _pieces(self, mode: Mode, h: float, qdt: float) -> list[tuple[float, float, int]]:
+        """Composite Simpson pieces of one segment. A fast mode (time constant below the sample
+        spacing, e.g. R C of the series loop at the start of conduction) gets its own finely
+        sampled stretch of ten time constants at the start."""
         pieces = []
         start = 0.0
         for lam in (mode.l2, mode.l1):  # fastest first
@@ -452,24 +450,65 @@ class PwlSystem:
                 start = end
         if start < h:
             pieces.append((start, h, max(1, math.ceil((h - start) / (2 * qdt)))))
+        return pieces
+
+    def _sample_all(self, segs, qdt: float):
+        """Sample every output on all segments at once: (t, weights, outputs (nout, N))."""
         nout = len(self.names)
-        rw = mode.rows[:nout] @ mode.grid_coefficients(x, t, self.vpk)  # (nout, 7)
-        hs_parts, w_parts = [], []
-        for a, b, m in pieces:
-            n = 2 * m + 1
-            hs_parts.append(a + (b - a) * _unit_grid(n))
-            w_parts.append(_simpson_weights(n) * ((b - a) / (3.0 * (n - 1))))
-        hs = np.concatenate(hs_parts) if len(hs_parts) > 1 else hs_parts[0]
-        w = np.concatenate(w_parts) if len(w_parts) > 1 else w_parts[0]
-        basis = np.empty((7, hs.size))
-        basis[0], basis[1], basis[2], basis[3] = _phi_dd(mode.l1, mode.l2, hs)
-        wh = self.omega * hs
+        hs_parts, w_parts, t_parts, l1s, l2s, rws, counts = [], [], [], [], [], [], []
+        for mode, x, t, h in segs:
+            if h <= 0:
+                continue
+            n_seg = 0
+            for a, b, m in self._pieces(mode, h, qdt):
+                n = 2 * m + 1
+                hs_parts.append(a + (b - a) * _unit_grid(n))
+                w_parts.append(_simpson_weights(n) * ((b - a) / (3.0 * (n - 1))))
+                n_seg += n
+            t_parts.append(t)
+            l1s.append(mode.l1)
+            l2s.append(mode.l2)
+            rws.append(mode.rows[:nout] @ mode.grid_coefficients(x, t, self.vpk))
+            counts.append(n_seg)
+        if not counts:
+            return np.zeros(0), np.zeros(0), np.zeros((nout, 0))
+        h = np.concatenate(hs_parts)
+        w = np.concatenate(w_parts)
+        idx = np.repeat(np.arange(len(counts)), counts)
+        l1 = np.asarray(l1s)[idx]
+        l2 = np.asarray(l2s)[idx]
+        t = np.asarray(t_parts)[idx] + h
+        basis = np.empty((7, h.size))
+        basis[0], basis[1], basis[2], basis[3] = _phi_dd_arrays(l1, l2, h)
+        wh = self.omega * h
         np.cos(wh, out=basis[4])
         np.sin(wh, out=basis[5])
         basis[6] = 1.0
-        ts.append(t + hs)
-        ws.append(w)
-        outs.append(rw @ basis)
+        rw = np.asarray(rws)[idx]  # (N, nout, 7)
+        out = np.einsum("snk,ks->ns", rw, basis)
+        return t, w, out
+
+
+def _phi_dd_arrays(l1: np.ndarray, l2: np.ndarray, h: np.ndarray):
+    """:func:`_phi_dd` with per-sample eigenvalues (all arrays of one shape)."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        l2h = l2 * h
+        l1h = l1 * h
+        e2 = np.exp(l2h)
+        e1 = np.exp(l1h)
+        g2 = np.where(l2 != 0.0, np.expm1(l2h) / l2, h)
+        g1 = np.where(l1 != 0.0, np.expm1(l1h) / l1, h)
+        diff = l1 - l2
+        big = (diff > 1e-7 * (np.abs(l1) + np.abs(l2))) & (diff > 0.0)
+        safe = np.where(big, diff, 1.0)
+        d_e = np.where(big, (e1 - e2) / safe, h * e2)
+        small = np.abs(l2h) < 1e-4
+        l2s = np.where(l2 != 0.0, l2, 1.0)
+        d_f_rep = np.where(
+            small, h * h * (0.5 + l2h / 6.0), (h * e2 * l2 - np.expm1(l2h)) / (l2s * l2s)
+        )
+        d_f = np.where(big, (g1 - g2) / safe, d_f_rep)
+    return e2, d_e, g2, d_f
 
 
 _SIMPSON: dict[int, np.ndarray] = {}
