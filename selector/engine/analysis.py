@@ -100,7 +100,16 @@ class Nominal:
 
 @dataclass
 class WorstCase:
-    """Extremes over the corners, each with the corner that produced it (JSON keys)."""
+    """Extremes over the corners, each with the corner that produced it (JSON keys).
+
+    ``max_zener_current_a`` is the mean breakdown current, ``max_zener_peak_current_a`` its
+    peak; both at the Zener-power corner with no load. ``max_bleeder_voltage_v`` is the peak
+    across the bleeder (= X capacitor), ``max_x_cap_voltage_v`` the rms. ``load_margin_a`` is
+    the least available current minus the average demand (negative: not met); when the weakest
+    corner falls out of regulation the available current is read with the bus clamped (no
+    load) at that corner. ``max_rectifier_reverse_voltage_v`` is the highest mains crest (the
+    design basis when the X capacitor shorts or the clamp opens, [P]).
+    """
 
     min_dc_current_a: float
     min_dc_current_corner: dict
@@ -110,6 +119,7 @@ class WorstCase:
     max_zener_power_corner: dict
     max_zener_current_a: float
     max_zener_current_corner: dict
+    max_zener_peak_current_a: float
     max_series_r_power_w: float
     max_series_r_power_corner: dict
     max_bleeder_power_w: float
@@ -309,6 +319,7 @@ def analyse(
         max_zener_power_corner=corner_of(s_pz),
         max_zener_current_a=s_pz.zener_current_a,
         max_zener_current_corner=corner_of(s_pz),
+        max_zener_peak_current_a=s_pz.zener_peak_current_a,
         max_series_r_power_w=max_pr_s.series_r_power_w,
         max_series_r_power_corner=corner_of(max_pr_s),
         max_bleeder_power_w=vc_rms * vc_rms / rb_min if circuit.has_bleeder else 0.0,
