@@ -1,0 +1,170 @@
+"""`dropper design` in process: the issue's "done when" commands, JSON shape, BOM, exit codes.
+
+Requirements are demo figures (invented) in the range of DOMAIN.md section 1.
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+
+import pytest
+from typer.testing import CliRunner
+
+from selector.cautions import CAUTIONS
+from selector.cli import app
+
+runner = CliRunner()
+
+ROLES = {"x_capacitor", "series_resistor", "bleeder", "rectifier", "zener", "reservoir"}
+
+
+def invoke(*args: str):
+    return runner.invoke(app, list(args))
+
+
+def test_cheapest_set_with_checks_and_cautions(catalogue_url):
+    r = invoke(
+        "design", "--load", "12m", "--vout", "5.1", "--mains", "230", "--freq", "50,60",
+        "--db", catalogue_url,
+    )  # fmt: skip
+    assert r.exit_code == 0, r.output
+    out = r.stdout
+    assert out.startswith("Design 1 of 1 (")
+    assert "demo price model, invented" in out
+    for role in ROLES:
+        assert f"  {role} " in out
+    assert "worst case:" in out and "min DC current" in out
+    assert "checks (binding: " in out
+    assert "whole.min_current" in out and "EU Regulation 2023/826" in out
+    assert "IEC 60384-14" in out
+    assert out.rstrip().endswith(CAUTIONS[-1])
+    assert "Safety cautions:" in out
+
+
+def test_top_three_json(catalogue_url):
+    r = invoke(
+        "design", "--load", "12m", "--vout", "5.1", "--mains", "230", "--freq", "50,60",
+        "--top", "3", "--json", "--db", catalogue_url,
+    )  # fmt: skip
+    assert r.exit_code == 0, r.output
+    doc = json.loads(r.stdout)
+    designs = doc["designs"]
+    assert [d["rank"] for d in designs] == [1, 2, 3]
+    prices = [d["total_price"] for d in designs]
+    assert prices == sorted(prices)
+    assert doc["cautions"] == list(CAUTIONS)
+    for d in designs:
+        assert set(d) >= {
+            "rank", "topology", "total_price", "total_area_mm2", "parts", "effective",
+            "worst_case", "checks",
+        }  # fmt: skip
+        assert {p["role"] for p in d["parts"]} >= ROLES
+        for p in d["parts"]:
+            assert set(p) >= {"role", "code", "value", "qty", "arrangement", "unit_price"}
+            assert p["arrangement"] in {"single", "series", "parallel", "bridge"}
+        assert set(d["effective"]) == {
+            "x_capacitance_f", "series_resistance_ohm", "bleeder_resistance_ohm",
+            "zener_voltage_v", "zener_power_rating_w", "reservoir_f",
+        }  # fmt: skip
+        assert d["worst_case"]["min_dc_current_a"] >= 0.012 * 1.1
+        assert all(c["ok"] for c in d["checks"])
+        assert {"rule", "part", "stress", "limit", "margin", "ok", "source"} <= set(d["checks"][0])
+    # three distinct sets
+    assert len({tuple((p["code"], p["qty"]) for p in d["parts"]) for d in designs}) == 3
+
+
+def test_impossible_request_exits_1_naming_rule_and_relaxation(catalogue_url):
+    r = invoke("design", "--load", "1", "--vout", "5.1", "--mains", "230", "--db", catalogue_url)
+    assert r.exit_code == 1
+    assert r.stderr.startswith("Error: blocked by rule whole.min_current")
+    assert "relax:" in r.stderr and "capacitance" in r.stderr
+    assert r.stderr.count("\n") == 1
+
+
+def test_bom_file(catalogue_url, tmp_path):
+    bom = tmp_path / "bom.csv"
+    r = invoke(
+        "design", "--load", "8m", "--vout", "5.1", "--mains", "230", "--freq", "50",
+        "--bom", str(bom), "--db", catalogue_url,
+    )  # fmt: skip
+    assert r.exit_code == 0, r.output
+    rows = list(csv.DictReader(bom.open(encoding="utf-8")))
+    assert list(rows[0]) == ["Reference", "Value", "Qty", "Description", "Footprint", "Role"]
+    assert {row["Role"] for row in rows} >= ROLES
+    x = next(row for row in rows if row["Role"] == "x_capacitor")
+    assert "VAC" in x["Description"] and x["Description"].startswith("X")
+    assert f"written to {bom}" in r.stdout
+
+
+@pytest.mark.parametrize(
+    ("args", "message"),
+    [
+        (["--minimize", "weight"], "unknown objective"),
+        (["--topology", "full"], "unknown topology"),
+        (["--exclude", "nosuch-family"], "no family 'nosuch-family'"),
+        (["--burst", "30m/5ms"], "--burst"),
+        (["--zener", "7.77"], "no such Zener voltage"),
+    ],
+)
+def test_bad_input_exit_2(catalogue_url, args, message):
+    r = invoke("design", "--load", "10m", "--vout", "5.1", "--db", catalogue_url, *args)
+    assert r.exit_code == 2, r.output
+    assert r.stderr.startswith("Error: ") and message in r.stderr
+
+
+def test_policy_file_bad_key_exit_2(catalogue_url, tmp_path):
+    p = tmp_path / "p.toml"
+    p.write_text("zener_fraction = 0.3\n", encoding="utf-8")
+    r = invoke("design", "--load", "10m", "--vout", "5.1", "--policy", str(p), "--db",
+               catalogue_url)  # fmt: skip
+    assert r.exit_code == 2
+    assert str(p) in r.stderr and "zener_fraction" in r.stderr and "valid keys" in r.stderr
+
+
+def test_policy_file_changes_the_result(catalogue_url, tmp_path):
+    # a stricter load margin needs more current: the chosen minimum current must follow
+    p = tmp_path / "strict.toml"
+    p.write_text("load_margin = 0.5\n", encoding="utf-8")
+    r = invoke("design", "--load", "10m", "--vout", "5.1", "--json", "--policy", str(p),
+               "--db", catalogue_url)  # fmt: skip
+    assert r.exit_code == 0, r.output
+    doc = json.loads(r.stdout)
+    assert doc["policy"]["load_margin"] == 0.5
+    assert doc["designs"][0]["worst_case"]["min_dc_current_a"] >= 0.015
+
+
+def test_burst_compact_form(catalogue_url):
+    r = invoke("design", "--load", "5m", "--vout", "5.1", "--burst", "30m/5ms/1s", "--json",
+               "--db", catalogue_url)  # fmt: skip
+    assert r.exit_code == 0, r.output
+    d = json.loads(r.stdout)["designs"][0]
+    holdup = next(c for c in d["checks"] if c["rule"] == "whole.burst_holdup")
+    assert holdup["ok"]
+
+
+def test_help_text():
+    r = invoke("design", "--help")
+    assert r.exit_code == 0
+    for opt in (
+        "--load",
+        "--vout",
+        "--topology",
+        "--minimize",
+        "--top",
+        "--policy",
+        "--bom",
+        "--smd-only",
+        "--tht-only",
+        "--exclude",
+        "--stock-only",
+        "--zener",
+        "--regulator",
+        "--burst",
+        "--json",
+        "--db",
+        "--mains",
+        "--freq",
+        "--surge",
+    ):
+        assert opt in r.stdout
