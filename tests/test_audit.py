@@ -326,3 +326,25 @@ def test_fusible_series_resistor_serves_as_the_fuse(catalogue, tmp_path):
     rules = {f.rule for f in r.findings if f.ref == "R1, R2"}
     assert "fuse.fusible_opens_on_short" in rules and "series_r.power" in rules
     assert "fuse.fitted" not in {f.rule for f in r.findings}
+
+
+def test_role_given_to_a_line_read_as_another_kind(catalogue, tmp_path):
+    # "D1 5V1 SOD-123" (no word Zener): read as a Zener once the user names its role
+    text = (DATA / "audit_vent_sound.csv").read_text(encoding="utf-8")
+    old = 'D1,1,12V,"Zener diode 12V 1W 5%",D_SMA,DEMO-Z12-1W'
+    p = tmp_path / "bom.csv"
+    p.write_text(text.replace(old, 'D1,1,12V,"1W 5%",D_SMA,DEMO-Z12-1W'), encoding="utf-8")
+    r = run(p, catalogue, roles={"D1": "zener"})
+    assert r.boards[0].circuit.zener_voltage_v == pytest.approx(12.0)
+    # a role that the line cannot carry: the value does not read as the role needs
+    with pytest.raises(BadRowError, match=r"row 4, column 'Value': R1: .*capacitance"):
+        run("audit_vent_sound.csv", catalogue, roles={"R1": "x_capacitor", "C1": "other"})
+
+
+def test_other_role_skips_reading_the_line(catalogue, tmp_path):
+    text = (DATA / "audit_vent_sound.csv").read_text(encoding="utf-8")
+    p = tmp_path / "bom.csv"
+    p.write_text(text.replace("C3,1,100n,", "C3,1,104,"), encoding="utf-8")
+    with pytest.raises(BadRowError, match="three-digit code"):
+        run(p, catalogue)
+    assert fails(run(p, catalogue, roles={"C3": "other"})) == set()

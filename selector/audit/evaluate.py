@@ -486,8 +486,45 @@ _RATINGS_SCALARS: Final[tuple[str, ...]] = tuple(
 )
 
 
-def _ratings_of(table: BomTable, part: BomPart, memo: dict | None = None) -> Ratings:
-    """The part's ratings; equal lines (same designator letters and texts) are read once."""
+#: role -> kinds whose ratings make sense in it, and the kind to read the line as otherwise
+_ROLE_KINDS: Final[dict[str, tuple[tuple[str, ...], str]]] = {
+    "x_capacitor": (
+        ("x_capacitor", "film_capacitor", "ceramic_capacitor", "capacitor"),
+        "capacitor",
+    ),
+    "series_resistor": (("resistor",), "resistor"),
+    "bleeder": (("resistor",), "resistor"),
+    "zener": (("zener",), "zener"),
+    "rectifier": (("diode", "bridge"), "diode"),
+    "reservoir": (
+        ("electrolytic", "capacitor", "ceramic_capacitor", "film_capacitor"),
+        "electrolytic",
+    ),
+    "fuse": (("fuse", "resistor"), "fuse"),
+}
+
+
+def _ratings_of(
+    table: BomTable, part: BomPart, memo: dict | None = None, role: str | None = None
+) -> Ratings:
+    """The part's ratings; equal lines (same designator letters and texts) are read once.
+
+    ``role``: a role the user gave the part; a line whose kind does not fit it is read again as
+    the role's kind (a Zener written ``D3 5V1`` is read as a Zener, not as a diode).
+    """
+    if role == "other":
+        return Ratings(kind="other")  # the user said: not a dropper part; nothing to read
+    if role is not None and role in _ROLE_KINDS:
+        fits, forced = _ROLE_KINDS[role]
+        try:
+            r = _ratings_of(table, part, memo)
+        except BadRowError:
+            r = None
+        if r is None or r.kind not in fits:
+            r = _read_line(table, part, forced)
+        if role == "fuse" and r.kind == "resistor":
+            r.fusible = True  # a resistor serving as the fuse is a fusible resistor
+        return r
     if memo is not None:
         key = (
             re.match(r"[A-Za-z]*", part.ref).group(0).upper(),  # type: ignore[union-attr]
@@ -504,6 +541,10 @@ def _ratings_of(table: BomTable, part: BomPart, memo: dict | None = None) -> Rat
         return dataclasses.replace(
             hit, words=list(hit.words), notes=list(hit.notes), assumed=dict(hit.assumed)
         )
+    return _read_line(table, part, None)
+
+
+def _read_line(table: BomTable, part: BomPart, kind: str | None) -> Ratings:
     try:
         return read_ratings(
             part.ref,
@@ -513,6 +554,7 @@ def _ratings_of(table: BomTable, part: BomPart, memo: dict | None = None) -> Rat
             part.voltage,
             part.power,
             part.tolerance,
+            kind=kind,
         )
     except BadValueError as exc:
         msg = str(exc)
@@ -625,7 +667,6 @@ def audit_bom(
         by_board.setdefault(p.board, []).append(p)
     for i, board in enumerate(boards):
         parts = by_board[board]
-        items = [(p, _ratings_of(table, p, ratings_memo)) for p in parts]
         explicit: dict[str, str] = {}
         how: dict[str, str] = {}
         for source, mapping in (
@@ -645,6 +686,14 @@ def audit_bom(
             refs = {p.ref.upper() for p in parts}
             for r in [r for r in explicit if r not in refs]:
                 explicit.pop(r)  # a role for every board names a part this board lacks
+        items = []
+        for p in parts:
+            given = explicit.get(p.ref.upper())
+            if given is None and p.role:
+                from .roles import _role_name
+
+                given = _role_name(p.role)
+            items.append((p, _ratings_of(table, p, ratings_memo, given)))
         roles_map = infer_roles(board, items, explicit, explicit_how=how)
         results.append(
             _audit_board(
@@ -777,6 +826,15 @@ def _audit_board(table: BomTable, rm: RoleMap, **kw: Any) -> BoardAudit:
                     a.part.ref
                 )
     assumed = [f"{', '.join(refs)}: {text}" for text, refs in assumed_refs.items()]
+    for role in ("x_capacitor", "series_resistor", "bleeder", "zener", "reservoir"):
+        for a in by_role.get(role, []):
+            if a.ratings.value is None:
+                raise BadRowError(
+                    table.path,
+                    a.part.row,
+                    table.column_map.get("value"),
+                    f"{a.part.ref} has the role {role} but its line gives no value for it",
+                )
     # circuit values from the BOM
     xs = tuple(a.ratings.value for a in by_role["x_capacitor"])
     series_r = sum(a.ratings.value for a in by_role["series_resistor"])

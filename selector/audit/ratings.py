@@ -194,7 +194,7 @@ def kind_of(ref: str, text: str) -> str:
     if prefix in ("Z", "ZD", "DZ"):
         return "zener"
     if prefix in ("D", "V", "CR"):
-        if _ZENER_RE.search(up):
+        if _ZENER_RE.search(up) or _ZENER_CODE_RE.search(up):
             return "zener"
         return "diode"
     if prefix in ("C", "CX", "CY", "CE"):
@@ -269,8 +269,12 @@ def read_ratings(
     voltage: str = "",
     power: str = "",
     tolerance: str = "",
+    kind: str | None = None,
 ) -> Ratings:
     """Read one BOM line into :class:`Ratings`.
+
+    ``kind`` overrides the kind read from the designator and the words (used when the user
+    gives a part a role its text does not show, e.g. a Zener written only as ``D3 BZX 5V1``).
 
     Raises :class:`BadValueError` naming the column (``value``, ``voltage``, ``power``,
     ``tolerance``) when a part that needs a value has none that reads, or a rating column holds
@@ -282,7 +286,10 @@ def read_ratings(
     """
     text = " ".join(t for t in (value, description, package, voltage, power, tolerance) if t)
     up = text.upper()
-    kind = kind_of(ref, text)
+    if kind is None:
+        kind = kind_of(ref, text)
+    elif kind not in KINDS:
+        raise ValueError(f"unknown kind {kind!r}; one of {', '.join(KINDS)}")
     r = Ratings(kind=kind)
     if kind == "other":
         return r
