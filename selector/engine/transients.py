@@ -127,7 +127,7 @@ def inrush(
     window = min(window_tau * tau, system.period / 4.0)
     key = (0, 0, 0)
     _, _, _, tr = system.run(
-        key, (0.0, 0.0), t0, t0 + window, collect=True, quad_dt=min(system.period / 240, tau / 40)
+        key, (0.0, 0.0), t0, t0 + window, collect=True, quad_dt=min(system.period / 240, tau / 16)
     )
     i = tr.out["i_line"]
     r = circuit.series_resistance_ohm
