@@ -11,6 +11,7 @@ import pytest
 
 from selector.engine import Circuit, solve_steady_state
 from selector.engine import closed_form as cf
+from selector.errors import OutOfRangeError
 
 
 def test_reactance_of_70n1_at_50hz() -> None:
@@ -104,3 +105,17 @@ def test_error_table() -> None:
     worst = _errors()
     for name, bound in BOUNDS.items():
         assert worst[name] <= bound, (name, worst[name])
+
+
+@pytest.mark.parametrize(
+    "call",
+    [
+        lambda: cf.reactance(0.0, 50.0),
+        lambda: cf.reactance(330e-9, -50.0),
+        lambda: cf.dc_current_bridge(230, np.array([330e-9, 0.0]), 50, 12),
+        lambda: cf.dc_current_half_wave(230, 330e-9, 50, 12, 0.8, -1.0),
+    ],
+)
+def test_out_of_range_raises(call) -> None:
+    with pytest.raises(OutOfRangeError):
+        call()

@@ -32,6 +32,8 @@ import math
 
 import numpy as np
 
+from ..errors import OutOfRangeError
+
 __all__ = [
     "crest",
     "dc_current",
@@ -53,6 +55,14 @@ __all__ = [
 SQRT2 = math.sqrt(2.0)
 
 
+def _positive(name: str, value) -> np.ndarray:
+    """``value`` as a float array; raises OutOfRangeError unless every element is > 0."""
+    a = np.asarray(value, dtype=float)
+    if not np.all(a > 0):
+        raise OutOfRangeError(f"{name} must be > 0 (got {value!r})")
+    return a
+
+
 def crest(v_rms):
     """Crest of a sine: ``Vpk = sqrt(2) Vrms`` [V]. ``crest(230)`` -> 325.27 V."""
     return SQRT2 * np.asarray(v_rms, dtype=float)
@@ -66,14 +76,17 @@ def reactance(c_f, f_hz):
     >>> round(float(reactance(70.1e-9, 50.0)))
     45407
     """
-    c = np.asarray(c_f, dtype=float)
-    f = np.asarray(f_hz, dtype=float)
+    c = _positive("capacitance", c_f)
+    f = _positive("frequency", f_hz)
     return 1.0 / (2.0 * np.pi * f * c)
 
 
 def rc_factor(c_f, f_hz, r_ohm):
     """``k = sqrt(1 + (w R C)^2)``: by how much the series R lowers the crest across C [-]."""
-    wrc = 2.0 * np.pi * np.asarray(f_hz, float) * np.asarray(r_ohm, float) * np.asarray(c_f, float)
+    r = np.asarray(r_ohm, float)
+    if np.any(r < 0):
+        raise OutOfRangeError(f"series resistance must be >= 0 (got {r_ohm!r})")
+    wrc = 2.0 * np.pi * _positive("frequency", f_hz) * r * _positive("capacitance", c_f)
     return np.sqrt(1.0 + wrc * wrc)
 
 
