@@ -14,6 +14,7 @@ is least at low line, -C -loss, the lower frequency, +R and +Vz, with the actual
 
 from __future__ import annotations
 
+import copy
 import itertools
 import math
 from collections.abc import Callable
@@ -190,13 +191,17 @@ def corners(circuit: Circuit, mains: Mains, tol: Tolerances) -> list[Corner]:
 
 
 def corner_circuit(circuit: Circuit, k: Corner) -> Circuit:
-    """The circuit with the corner's values (the capacitance as one part)."""
-    return circuit.with_values(
-        x_capacitors_f=(k.cap_f,),
-        series_resistance_ohm=k.r_ohm,
-        bleeder_resistance_ohm=k.bleeder_ohm,
-        zener_voltage_v=k.vz_v,
-    )
+    """The circuit with the corner's values (the capacitance as one part).
+
+    The corner values stay inside the validated ranges of ``circuit`` by construction (a few
+    per cent around them), so the copy skips the dataclass validation (hot path of analyse).
+    """
+    c = copy.copy(circuit)
+    object.__setattr__(c, "x_capacitors_f", (k.cap_f,))
+    object.__setattr__(c, "series_resistance_ohm", k.r_ohm)
+    object.__setattr__(c, "bleeder_resistance_ohm", k.bleeder_ohm)
+    object.__setattr__(c, "zener_voltage_v", k.vz_v)
+    return c
 
 
 def _regulator_figures(circuit: Circuit, st: SteadyState):
