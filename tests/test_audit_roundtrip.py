@@ -21,7 +21,7 @@ runner = CliRunner()
 
 @pytest.mark.parametrize(
     "load, vout, freq",
-    [("12m", "5.1", "50,60"), ("20m", "12", "50"), ("5m", "3.3", "50,60")],
+    [("12m", "5.1", "50,60"), ("15m", "12", "50"), ("5m", "3.3", "50,60")],
 )
 def test_design_bom_audits_without_failure(catalogue_url, tmp_path: Path, load, vout, freq):
     bom = tmp_path / "design.csv"

@@ -78,6 +78,9 @@ _FILL_LOW: Final[tuple[str, ...]] = (
 #: common practice, no source; the design solver uses the same default)
 _RESERVOIR_TOL: Final[float] = 0.2
 _FILL_HIGH: Final[tuple[str, ...]] = ("tolerance",)
+#: model parameters (not ratings): the family's median (one value per family in the built-in
+#: catalogue, so the audit builds the same circuit the design solver analysed)
+_FILL_TYPICAL: Final[tuple[str, ...]] = ("vf_v", "rs_ohm", "zz_ohm")
 
 #: search words for a family, from what the line says
 _WORD_TERMS: Final[dict[str, tuple[str, ...]]] = {
@@ -268,7 +271,9 @@ class CatalogueIndex:
         self._memo: dict[Any, tuple[str | None, dict[str, float]]] = {}
         if frame is None or len(frame) == 0:
             return
-        wanted = ("value",) + _FILL_LOW + _FILL_HIGH + tuple(c for c, _ in _STATED_MATCH)
+        wanted = (
+            ("value",) + _FILL_LOW + _FILL_HIGH + _FILL_TYPICAL + tuple(c for c, _ in _STATED_MATCH)
+        )
         for (kind, family), sub in frame.groupby(["kind", "family"], sort=False):
             pk = [str(x) for x in sub["package"].unique()[:20]] if "package" in sub else []
             desc = [str(x) for x in sub["description"].head(1)] if "description" in sub else []
@@ -352,6 +357,8 @@ def _family_fill(r: Ratings, fam: _Family, missing: Sequence[str]) -> dict[str, 
             out[f] = float(vals.min())
         elif f in _FILL_HIGH:
             out[f] = float(vals.max())
+        elif f in _FILL_TYPICAL:
+            out[f] = float(np.median(vals))
     return out
 
 
@@ -370,7 +377,9 @@ def fill_from_catalogue(ratings: Ratings, fields: Sequence[str], catalogue: Any)
     """
     kind = _CATALOGUE_KIND.get(ratings.kind)
     missing = tuple(
-        f for f in fields if f in _FILL_LOW + _FILL_HIGH and getattr(ratings, f, None) is None
+        f
+        for f in fields
+        if f in _FILL_LOW + _FILL_HIGH + _FILL_TYPICAL and getattr(ratings, f, None) is None
     )
     if kind is None or not missing or catalogue is None:
         return None
@@ -428,7 +437,8 @@ def rated_part(role: str, group: Sequence[Assigned], share: float, arrangement: 
             safety = _NOT_SAFETY[r.kind]  # stated general-purpose: fails, never "unknown"
     else:
         safety = r.safety_class
-    tj = r.temp_max_c if r.kind == "zener" else None
+    # a temperature written on a Zener line is its junction limit
+    tj = r.temp_max_c if r.kind == "zener" and r.tj_max_c is None else None
     kw = {
         f.name: getattr(r, f.name)
         for f in dataclasses.fields(RatedPart)
@@ -574,9 +584,10 @@ def _rule_fields() -> dict[str, tuple[str, ...]]:
         out.setdefault(rule.role, []).extend(rule.ratings)
     extra = {
         "series_resistor": ("derate_start_c", "derate_end_c", "tolerance"),
-        "bleeder": ("derate_start_c", "derate_end_c", "limiting_voltage_v", "power_w"),
-        "zener": ("tj_max_c", "derate_start_c", "derate_end_c", "tolerance"),
+        "bleeder": ("derate_start_c", "derate_end_c", "limiting_voltage_v", "power_w", "tolerance"),
+        "zener": ("tj_max_c", "derate_start_c", "derate_end_c", "tolerance", "zz_ohm"),
         "x_capacitor": ("tolerance",),
+        "rectifier": ("vf_v", "rs_ohm"),
     }
     return {
         role: tuple(
@@ -851,27 +862,48 @@ def _audit_board(table: BomTable, rm: RoleMap, **kw: Any) -> BoardAudit:
     if rm.topology is not None and kw["topology"] and kw["topology"] != rm.topology:
         notes.append(f"--topology {kw['topology']} used; the BOM looks {rm.topology}")
     tol = kw["tolerances"]
-    tol_changes = {}
-    for role, name in (
-        ("x_capacitor", "cap_tol"),
-        ("series_resistor", "r_tol"),
-        ("zener", "zener_tol"),
-    ):
-        stated = [
-            a.ratings.tolerance for a in by_role.get(role, []) if a.ratings.tolerance is not None
-        ]
-        if name in kw["pinned"]:
-            continue
-        if stated and "tolerance" not in {k for a in by_role[role] for k in a.ratings.assumed}:
-            v = max(stated)
-            if v != getattr(tol, name):
-                tol_changes[name] = v
+    tol_changes: dict[str, float] = {}
+
+    def known_tol(group: Sequence[Assigned]) -> list[tuple[float, float | None]]:
+        return [(a.ratings.value or 0.0, a.ratings.tolerance) for a in group]
+
+    if "cap_tol" not in kw["pinned"]:
+        # all parallel parts at +t_i: the total moves by sum(C_i t_i) / sum(C_i)
+        pairs = known_tol(by_role["x_capacitor"])
+        if all(t is not None for _, t in pairs):
+            tol_changes["cap_tol"] = sum(c * t for c, t in pairs) / sum(c for c, _ in pairs)  # type: ignore[operator]
+    if "r_tol" not in kw["pinned"]:
+        # the engine's r_tol covers the series resistors and the bleeder
+        ts = [t for _, t in known_tol(by_role["series_resistor"] + bleeders)]
+        if ts:
+            tol_changes["r_tol"] = max(t if t is not None else tol.r_tol for t in ts)
+    if "zener_tol" not in kw["pinned"]:
+        ts = [t for _, t in known_tol(by_role["zener"]) if t is not None]
+        if ts:
+            tol_changes["zener_tol"] = max(ts)
+    tol_changes = {k: v for k, v in tol_changes.items() if abs(v - getattr(tol, k)) > 1e-12}
     if tol_changes:
         tol = dataclasses.replace(tol, **tol_changes)
         notes.append(
             "tolerances from the BOM: "
-            + ", ".join(f"{k} {v * 100:g} %" for k, v in tol_changes.items())
+            + ", ".join(f"{k} {v * 100:.3g} %" for k, v in tol_changes.items())
         )
+    # rectifier and Zener model parameters: the option when given, else the parts' own (BOM or
+    # catalogue family), else the engine's defaults
+    model = dict(kw["circuit_defaults"])
+    rect = by_role.get("rectifier", [])
+    if "diode_drop_v" not in model:
+        vfs = [a.ratings.vf_v for a in rect if a.ratings.vf_v is not None]
+        if vfs:
+            model["diode_drop_v"] = max(vfs)
+    if "diode_resistance_ohm" not in model:
+        rss = [a.ratings.rs_ohm for a in rect if a.ratings.rs_ohm is not None]
+        if rss:
+            model["diode_resistance_ohm"] = max(rss)
+    if "zener_impedance_ohm" not in model:
+        zzs = [a.ratings.zz_ohm for a in by_role["zener"]]
+        if zzs and all(z is not None for z in zzs):
+            model["zener_impedance_ohm"] = sum(zzs)  # type: ignore[arg-type]
     try:
         circuit = kw["circuit_cls"](
             topology=topology,
@@ -882,7 +914,7 @@ def _audit_board(table: BomTable, rm: RoleMap, **kw: Any) -> BoardAudit:
             reservoir_f=res,
             load=kw["load"],
             regulator=kw["regulator"],
-            **dict(kw["circuit_defaults"]),
+            **model,
         )
     except OutOfRangeError as exc:
         raise BadValueError(

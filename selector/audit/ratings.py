@@ -75,6 +75,15 @@ class Ratings:
     ifsm_a: float | None = None
     i2t_a2s: float | None = None
     temp_max_c: float | None = None
+    tj_max_c: float | None = None
+    derate_start_c: float | None = None
+    derate_end_c: float | None = None
+    pulse_energy_j: float | None = None
+    dvdt_v_per_s: float | None = None
+    ripple_a: float | None = None
+    vf_v: float | None = None
+    rs_ohm: float | None = None
+    zz_ohm: float | None = None
     words: list[str] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
     assumed: dict[str, str] = field(default_factory=dict)

@@ -18,8 +18,6 @@ from ._circuit import (
     BurstTimeOpt,
     CapLossOpt,
     DbOpt,
-    DiodeDropOpt,
-    DiodeROpt,
     DropoutOpt,
     FreqOpt,
     JsonOpt,
@@ -32,7 +30,6 @@ from ._circuit import (
     RegulatorOpt,
     SurgeOpt,
     TopologyOpt,
-    ZenerZOpt,
     conditions_from_options,
     load_from_options,
     mains_from_options,
@@ -170,7 +167,12 @@ def audit(
             "--zener-tol", help="Zener voltage tolerance, % [default: the BOM's, else 5]."
         ),
     ] = None,
-    zener_z: ZenerZOpt = "0",
+    zener_z: Annotated[
+        str | None,
+        typer.Option(
+            "--zener-z", help="Zener dynamic impedance, ohm [default: the Zener's family, else 0]."
+        ),
+    ] = None,
     load: LoadOpt = "0",
     load_r: LoadROpt = None,
     burst: BurstOpt = None,
@@ -179,8 +181,20 @@ def audit(
     regulator: RegulatorOpt = None,
     dropout: DropoutOpt = "1",
     quiescent: QuiescentOpt = "5m",
-    diode_drop: DiodeDropOpt = "0.8",
-    diode_r: DiodeROpt = "0.1",
+    diode_drop: Annotated[
+        str | None,
+        typer.Option(
+            "--diode-drop",
+            help="Rectifier forward drop, V [default: the rectifier's family, else 0.8].",
+        ),
+    ] = None,
+    diode_r: Annotated[
+        str | None,
+        typer.Option(
+            "--diode-r",
+            help="Rectifier series resistance, ohm [default: the rectifier's family, else 0.1].",
+        ),
+    ] = None,
     ambient: AmbientOpt = "40",
     profile: ProfileOpt = "iec60335",
     surge: SurgeOpt = "1k",
@@ -249,9 +263,13 @@ def audit(
         roles_file=roles,
         catalogue=_catalogue(db),
         circuit_defaults={
-            "diode_drop_v": _value(diode_drop, "V", "--diode-drop"),
-            "diode_resistance_ohm": _value(diode_r, "ohm", "--diode-r"),
-            "zener_impedance_ohm": _value(zener_z, "ohm", "--zener-z"),
+            key: _value(text, unit, name)
+            for key, text, unit, name in (
+                ("diode_drop_v", diode_drop, "V", "--diode-drop"),
+                ("diode_resistance_ohm", diode_r, "ohm", "--diode-r"),
+                ("zener_impedance_ohm", zener_z, "ohm", "--zener-z"),
+            )
+            if text is not None
         },
     )
     if report is not None:
