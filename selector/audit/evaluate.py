@@ -195,6 +195,7 @@ def audit_result_dict(result: AuditResult) -> dict[str, Any]:
                     "how": a.how,
                     "kind": r.kind,
                     "value": r.value,
+                    "value_unit": _VALUE_UNIT.get(r.kind),
                     "text": " ".join(x for x in (a.part.value, a.part.description) if x),
                     "mpn": a.part.mpn,
                     "assumed": dict(r.assumed),
@@ -232,6 +233,16 @@ def audit_result_dict(result: AuditResult) -> dict[str, Any]:
 
 
 _ORDER = {"fail": 0, "warn": 1, "pass": 2}
+_VALUE_UNIT: Final[dict[str, str]] = {
+    "x_capacitor": "F",
+    "film_capacitor": "F",
+    "ceramic_capacitor": "F",
+    "capacitor": "F",
+    "electrolytic": "F",
+    "resistor": "ohm",
+    "zener": "V",
+    "fuse": "A",
+}
 
 
 def _ordered(findings: Sequence[AuditFinding]) -> list[AuditFinding]:
