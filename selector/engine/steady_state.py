@@ -82,8 +82,32 @@ def _params(circuit: Circuit, mains_v: float, freq_hz: float, load_a: float, loa
     )
 
 
-def _lin(a=0.0, b=0.0, u=0.0, k=0.0) -> np.ndarray:
-    return np.array([a, b, u, k], dtype=float)
+class _F(tuple):
+    """A linear form ``[k_vc, k_vo, k_u, k_const]`` of the state and the mains voltage: a
+    4-tuple with the arithmetic the circuit equations need (cheaper than tiny numpy arrays)."""
+
+    __slots__ = ()
+
+    def __add__(self, o):  # type: ignore[override]
+        return _F((self[0] + o[0], self[1] + o[1], self[2] + o[2], self[3] + o[3]))
+
+    def __sub__(self, o):
+        return _F((self[0] - o[0], self[1] - o[1], self[2] - o[2], self[3] - o[3]))
+
+    def __mul__(self, k):  # type: ignore[override]
+        return _F((self[0] * k, self[1] * k, self[2] * k, self[3] * k))
+
+    __rmul__ = __mul__
+
+    def __truediv__(self, k):
+        return _F((self[0] / k, self[1] / k, self[2] / k, self[3] / k))
+
+    def __neg__(self):
+        return _F((-self[0], -self[1], -self[2], -self[3]))
+
+
+def _lin(a=0.0, b=0.0, u=0.0, k=0.0) -> _F:
+    return _F((a, b, u, k))
 
 
 _VC = _lin(1.0)
@@ -91,7 +115,7 @@ _VO = _lin(0.0, 1.0)
 _U = _lin(0.0, 0.0, 1.0)
 
 
-def _load_rows(p: _Params, lstate: int) -> np.ndarray:
+def _load_rows(p: _Params, lstate: int) -> _F:
     if lstate == 0:
         return _lin(0.0, p.g_load, 0.0, p.i_load)
     return _lin(0.0, p.g_load + p.i_load / LOAD_KNEE_V)
@@ -108,7 +132,7 @@ def _load_guards(p: _Params, lstate: int, key, idx: int):
     return [_lin(k=LOAD_KNEE_V) - _VO], [tuple(k)]
 
 
-def _zener_rows(p: _Params, z: int, v: np.ndarray):
+def _zener_rows(p: _Params, z: int, v: _F):
     """Zener current as a linear form of the voltage form v across it."""
     if z == 1:
         return (v - _lin(k=p.vz)) / p.zz
@@ -117,7 +141,7 @@ def _zener_rows(p: _Params, z: int, v: np.ndarray):
     return _lin()
 
 
-def _zener_guards(p: _Params, z: int, v: np.ndarray, key, idx: int):
+def _zener_guards(p: _Params, z: int, v: _F, key, idx: int):
     rows, keys = [], []
     k = list(key)
     if z == 1:
