@@ -67,16 +67,12 @@ class Mode:
     """
 
     __slots__ = (
-        "A",
-        "b",
-        "c",
+        "_abc",
         "rows",
         "guards",
         "guard_rows",
         "l1",
         "l2",
-        "M",
-        "Mc",
         "Y",
         "omega",
         "key",
@@ -89,9 +85,7 @@ class Mode:
         self.key = key
         a11, a12, b0, c0 = (float(v) for v in dvc)
         a21, a22, b1, c1 = (float(v) for v in dvo)
-        self.A = np.array([[a11, a12], [a21, a22]])
-        self.b = np.array([b0, b1])
-        self.c = np.array([c0, c1])
+        self._abc = (a11, a12, a21, a22, b0, b1, c0, c1)
         self.rows = np.asarray(rows, dtype=float)
         self.guards = guards
         self.guard_rows = self.rows[[g[0] for g in guards]] if guards else np.zeros((0, 4))
@@ -104,9 +98,7 @@ class Mode:
             l1, l2 = l2, l1
         self.l1, self.l2 = l1, l2
         m = (a11 - l2, a12, a21, a22 - l2)
-        self.M = np.array([[m[0], m[1]], [m[2], m[3]]])
         mc0, mc1 = m[0] * c0 + m[1] * c1, m[2] * c0 + m[3] * c1
-        self.Mc = np.array([mc0, mc1])
         self.omega = omega
         jw = 1j * omega
         m00, m01, m10, m11 = jw - a11, -a12, -a21, jw - a22
@@ -152,6 +144,28 @@ class Mode:
         e2, d_e, _, _ = _phi_dd(self.l1, self.l2, h)
         M = self._m
         return (e2 + d_e * M[0], d_e * M[1], d_e * M[2], e2 + d_e * M[3])
+
+    @property
+    def A(self) -> np.ndarray:
+        a = self._abc
+        return np.array([[a[0], a[1]], [a[2], a[3]]])
+
+    @property
+    def b(self) -> np.ndarray:
+        return np.array(self._abc[4:6])
+
+    @property
+    def c(self) -> np.ndarray:
+        return np.array(self._abc[6:8])
+
+    @property
+    def M(self) -> np.ndarray:
+        m = self._m
+        return np.array([[m[0], m[1]], [m[2], m[3]]])
+
+    @property
+    def Mc(self) -> np.ndarray:
+        return np.array(self._cc[2:4])
 
     # --- exact solution -------------------------------------------------------------------
     def xs(self, t):
