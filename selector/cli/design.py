@@ -10,7 +10,7 @@ import typer
 from ..cautions import CAUTIONS
 from ..errors import BadValueError
 from ..units import format_value, parse_value
-from ._app import app, echo_cautions, print_json
+from ._app import app, echo_cautions, print_json, to_jsonable
 from ._circuit import (
     AmbientOpt,
     BurstOpt,
@@ -103,6 +103,9 @@ def design(
     ] = None,
     json: JsonOpt = False,
     db: DbOpt = None,
+    report: Annotated[
+        Path | None, typer.Option("--report", help="Also write an HTML report to this file.")
+    ] = None,
 ) -> None:
     """The cheapest (or smallest) set of catalogue parts that holds at every worst case, with
     every rule's margin and source; exit 1 with the blocking rule when nothing fits.
@@ -149,27 +152,32 @@ def design(
     designs = D.design(frame, req, pol)
     if bom is not None:
         D.write_bom(designs[0], bom)
-    if json:
-        print_json(
-            {
-                "requirement": {
-                    "load_a": req.load_a,
-                    "vout_v": req.vout_v,
-                    "topology": req.topology,
-                    "minimize": req.minimize,
-                    "mains_v": req.mains.nominal_v,
-                    "mains_tolerance": req.mains.tolerance,
-                    "frequencies_hz": list(req.mains.frequencies_hz),
-                    "surge_v": req.conditions.surge_v,
-                    "ambient_c": req.conditions.ambient_c,
-                    "profile": req.conditions.profile,
-                },
-                "policy": pol.to_dict(),
-                "designs": [D.design_to_dict(d) for d in designs],
-                "bom": str(bom) if bom is not None else None,
-                "cautions": list(CAUTIONS),
-            }
+    doc = {
+        "requirement": {
+            "load_a": req.load_a,
+            "vout_v": req.vout_v,
+            "topology": req.topology,
+            "minimize": req.minimize,
+            "mains_v": req.mains.nominal_v,
+            "mains_tolerance": req.mains.tolerance,
+            "frequencies_hz": list(req.mains.frequencies_hz),
+            "surge_v": req.conditions.surge_v,
+            "ambient_c": req.conditions.ambient_c,
+            "profile": req.conditions.profile,
+        },
+        "policy": pol.to_dict(),
+        "designs": [D.design_to_dict(d) for d in designs],
+        "bom": str(bom) if bom is not None else None,
+        "cautions": list(CAUTIONS),
+    }
+    if report is not None:
+        from ..report import write_report
+
+        write_report(
+            report, "design", to_jsonable(doc), designs[0].circuit, analysis=designs[0].analysis
         )
+    if json:
+        print_json(doc)
         return
     for d in designs:
         _echo_design(d, len(designs), req)
