@@ -32,6 +32,7 @@ from ._circuit import (
     conditions_from_options,
     mains_from_options,
 )
+from .parts import _Bar
 
 # --topology of design also takes 'any' (check's takes one topology), hence its own help text
 DesignTopologyOpt = Annotated[
@@ -149,7 +150,13 @@ def design(
         exclude=tuple(exclude or ()),
     )
     frame = parts_frame(open_catalogue(resolve_url(db)), stock_only=stock_only)
-    designs = D.design(frame, req, pol)
+    # a progress bar (stderr) for searches over large catalogues
+    bar = None if json or len(frame) < 1000 else _Bar("searching part sets")
+    try:
+        designs = D.design(frame, req, pol, progress=bar)
+    finally:
+        if bar is not None:
+            bar.close()
     if bom is not None:
         D.write_bom(designs[0], bom)
     doc = {
