@@ -230,3 +230,34 @@ def test_no_load_zener_power_is_vz_times_dc(c: float, vz: float, v: float, f: fl
     # DOMAIN.md 2 (bridge, ideal clamp Zz = 0): P_z = Vz x I_dc at zero load
     s = solve_steady_state(bridge(x_capacitors_f=(c,), zener_voltage_v=vz), v, f)
     assert s.zener_power_w == pytest.approx(vz * s.dc_current_a, rel=1e-4)
+
+
+@settings(max_examples=30, deadline=None)
+@given(
+    c=caps,
+    r=st.floats(47.0, 1000.0),
+    vz=st.floats(3.0, 30.0),
+    v=st.floats(100.0, 264.0),
+    f=st.sampled_from([50.0, 60.0]),
+    top=topologies,
+    load_frac=st.floats(0.0, 1.5),
+    resistive=st.booleans(),
+)
+def test_periodic_orbit_balances_charge(c, r, vz, v, f, top, load_frac, resistive) -> None:
+    """Internal consistency of the periodic solution (no outside source): over one cycle the
+    reservoir's and the X capacitor's charge return to their start, so mean(i_res) = 0 and
+    mean(i_line) = mean(v_c) / R_b (KCL at the capacitor-bleeder pair)."""
+    i_guess = float(cf.dc_current(top, v, c, f, vz, 0.8, r))
+    vbus = vz if top == "bridge" else vz - 0.8
+    if resistive:
+        load = Load(resistance_ohm=vbus / max(load_frac * i_guess, 1e-6))
+    else:
+        load = Load(current_a=load_frac * i_guess)
+    circ = bridge(
+        topology=top, x_capacitors_f=(c,), series_resistance_ohm=r, zener_voltage_v=vz, load=load
+    )
+    s = solve_steady_state(circ, v, f, keep_trace=True, accept=0.0)
+    o, m = s.trace.out, s.trace.mean
+    scale = s.line_current_rms_a
+    assert abs(m(o["i_res"])) < 1e-4 * scale
+    assert abs(m(o["i_line"]) - m(o["v_c"]) / 1e6) < 1e-4 * scale
