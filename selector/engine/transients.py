@@ -186,7 +186,7 @@ def surge(circuit: Circuit, level_v: float, corner: dict) -> Surge:
     coef_a = np.array(coef)
     pole_a = np.array(pole)
     i2t = float(np.sum(np.outer(coef_a, coef_a) / np.add.outer(pole_a, pole_a)))
-    t = np.concatenate([[0.0], np.geomspace(1e-9, 20e-3, 1500)])
+    t = np.concatenate([[0.0], np.geomspace(1e-9, 20e-3, 700)])
     i = np.exp(-np.outer(t, pole_a)) @ coef_a
     qc = np.array([a / (rl * (kappa - rk)) for a, rk in zip(amps, rates, strict=True)])
     q = (np.exp(-np.outer(t, np.array(rates))) - np.exp(-kappa * t)[:, None]) @ qc
