@@ -81,9 +81,47 @@ def test_report_path_error_is_one_line(tmp_path):
 @pytest.mark.parametrize("command", ["check", "design", "audit"])
 def test_report_option_is_offered(command):
     result = invoke(command, "--help")
-    if "--report" not in result.stdout:
-        pytest.skip(f"`dropper {command}` has no --report option yet")
-    assert "HTML report" in result.stdout
+    assert result.exit_code == 0
+    assert "--report" in result.stdout and "HTML report" in result.stdout
+
+
+def test_design_stock_only_cli_with_report(catalogue_copy_url, tmp_path):
+    """The issue's done-when path: import the demo stock list (DEMO data, invented), design
+    --stock-only from it, --report writes the page; its numbers equal the --json document."""
+    imported = invoke(
+        "parts", "import", str(DATA / "demo_stock.xlsx"), "--supplier", "demo-shelf",
+        "--db", catalogue_copy_url,
+    )  # fmt: skip
+    assert imported.exit_code == 0, imported.output
+    out = tmp_path / "design.html"
+    result = invoke(
+        "design", "--load", "12m", "--vout", "5.1", "--freq", "50,60", "--stock-only",
+        "--db", catalogue_copy_url, "--json", "--report", str(out),
+    )  # fmt: skip
+    assert result.exit_code == 0, result.output
+    doc = json.loads(result.stdout)
+    codes = [p["code"] for p in doc["designs"][0]["parts"]]
+    assert codes and all(c.startswith("S:demo-shelf:") for c in codes)
+    html = out.read_text(encoding="utf-8")
+    page = _parse(html)
+    assert page.body_focus == "designs[0]" and page.stack == [] and page.svgs == 4
+    assert _compare(page, doc) >= 40
+    assert [li.strip() for li in page.li] == list(CAUTIONS)
+    for code in codes:
+        assert code in html
+
+
+def test_audit_cli_with_report(tmp_path):
+    out = tmp_path / "audit.html"
+    bom = DATA / "audit_vent_faulty.csv"
+    result = invoke("audit", str(bom), "--freq", "50,60", "--json", "--report", str(out))
+    assert result.exit_code == 1  # the demo BOM has failing parts
+    doc = json.loads(result.stdout)
+    page = _parse(out.read_text(encoding="utf-8"))
+    assert page.stack == [] and page.svgs == 4
+    assert _compare(page, doc) >= 20
+    fails = doc["summary"]["fail"]
+    assert f"{fails} of {len(doc['findings'])} checks fail" in out.read_text(encoding="utf-8")
 
 
 def test_design_from_the_demo_stock_and_its_report(catalogue_copy_url, tmp_path):
