@@ -13,6 +13,9 @@ from .roles import AUDIT_ROLES, RoleMap, infer_roles, load_roles_file, parse_rol
 
 __all__ = [
     "AUDIT_ROLES",
+    "AuditResult",
+    "audit_bom",
+    "audit_result_dict",
     "BomPart",
     "BomTable",
     "Ratings",
@@ -26,3 +29,12 @@ __all__ = [
     "read_bom",
     "read_ratings",
 ]
+
+
+def __getattr__(name: str):
+    # the evaluation imports the engine and the rules: loaded on first use only
+    if name in ("AuditResult", "audit_bom", "audit_result_dict"):
+        from . import evaluate
+
+        return getattr(evaluate, name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
