@@ -355,6 +355,19 @@ def test_failing_checks_are_counted_and_marked():
     assert "1 of 2 checks fail" in audit
 
 
+def test_verdict_of_a_check_document_without_findings():
+    doc = {k: v for k, v in CHECK_DOC.items() if k != "findings"}
+    assert "The load is met at every corner" in render_report("check", {**doc, "ok": True})
+    assert "Not accepted" in render_report("check", {**doc, "ok": False})
+
+
+def test_same_document_same_page():
+    fixed = dict(now=lambda: __import__("datetime").datetime(2026, 1, 1))
+    a = render_report("check", CHECK_DOC, waveforms=_waveforms(), **fixed)
+    b = render_report("check", CHECK_DOC, waveforms=_waveforms(), **fixed)
+    assert a == b
+
+
 def test_autoescape_keeps_markup_out():
     doc = dict(CHECK_DOC, cautions=["<script>alert(1)</script> & more"])
     html = render_report("check", doc)

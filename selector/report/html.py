@@ -476,6 +476,7 @@ def render_report(
             checks=_table(checks, ckey) if checks else None,
             failed=failed,
             n_checks=len(checks),
+            verdict=doc.get("ok") if isinstance(doc.get("ok"), bool) else None,
             cautions=cautions,
             document=full,
             focus=_focus_path(full),

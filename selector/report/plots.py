@@ -77,7 +77,7 @@ def waveform_svg(
                 ax.legend(loc="upper right", fontsize=8, framealpha=0.85)
             fig.tight_layout()
             buf = io.StringIO()
-            fig.savefig(buf, format="svg")
+            fig.savefig(buf, format="svg", metadata={"Date": None})  # same data, same file
         finally:
             plt.close(fig)
     svg = buf.getvalue()
