@@ -342,7 +342,8 @@ def _table(items: Sequence[Any], prefix: str) -> dict[str, Any]:
     for i, item in enumerate(items):
         item = item if isinstance(item, Mapping) else {"item": item}
         suffix = _UNIT_FIELD_NAMES.get(str(item.get("unit")), "")
-        role_unit = _ROLE_UNITS.get(str(item.get("kind") or item.get("role") or ""))
+        role_unit = item.get("value_unit") if item.get("value_unit") in _UNIT_FIELD_NAMES else None
+        role_unit = role_unit or _ROLE_UNITS.get(str(item.get("kind") or item.get("role") or ""))
         cells = []
         for c in columns:
             unit_key = c + suffix if c in _UNIT_FIELD_COLUMNS else c
