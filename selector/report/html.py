@@ -335,7 +335,7 @@ def _table(items: Sequence[Any], prefix: str) -> dict[str, Any]:
     columns = [
         c
         for c in columns
-        if c != "unit"
+        if c not in ("unit", "value_unit")
         and any(isinstance(it, Mapping) and it.get(c) not in (None, "", [], ()) for it in items)
     ]
     body = []
