@@ -79,6 +79,7 @@ class Mode:
         "_m",
         "_cc",
         "basis",
+        "gpy",
     )
 
     def __init__(self, key, dvc, dvo, rows, guards, vpk: float, omega: float):
@@ -89,6 +90,7 @@ class Mode:
         self.rows = np.asarray(rows, dtype=float)
         self.guards = guards
         self.guard_rows = self.rows[[g[0] for g in guards]] if guards else np.zeros((0, 4))
+        self.gpy = [tuple(float(v) for v in r) for r in self.guard_rows]
         tr = a11 + a22
         det = a11 * a22 - a12 * a21
         disc = max(0.25 * tr * tr - det, 0.0)
@@ -292,23 +294,24 @@ class PwlSystem:
         """
         u = self.u(t)
         delta = 1e-5 * self.period
+        tol = self.tol
+        x0, x1 = x[0], x[1]
         for _ in range(self.max_switches_at_once):
             mode = self.mode(key)
             if not mode.guards:
                 return key
-            gr = mode.guard_rows
-            g = gr @ np.array([x[0], x[1], u, 1.0])
             bad = None
             ahead = None
-            for j, gv in enumerate(g):
-                if gv < -self.tol:
+            for j, r in enumerate(mode.gpy):
+                gv = r[0] * x0 + r[1] * x1 + r[2] * u + r[3]
+                if gv < -tol:
                     bad = j
                     break
-                if gv <= self.tol:
+                if gv <= tol:
                     if ahead is None:
-                        vc, vo = mode.advance_scalar(x, t, delta)
-                        ahead = gr @ np.array([vc, vo, self.u(t + delta), 1.0])
-                    if ahead[j] < gv and ahead[j] < 0.0:
+                        ahead = mode.advance_scalar(x, t, delta) + (self.u(t + delta),)
+                    ga = r[0] * ahead[0] + r[1] * ahead[1] + r[2] * ahead[2] + r[3]
+                    if ga < gv and ga < 0.0:
                         bad = j
                         break
             if bad is None:
@@ -358,21 +361,29 @@ class PwlSystem:
                 coef = gr @ mode.grid_coefficients(x, t, self.vpk)
                 G = coef @ basis[:, :n] if n > 0 else np.zeros((len(gr), 0))
                 neg = G < -self.tol
-                cols = np.flatnonzero(neg.any(axis=0))
-                if not cols.size:
+                anyneg = neg.any(axis=0)
+                k = int(anyneg.argmax()) if n > 0 else 0
+                found = n > 0 and bool(anyneg[k])
+                fb_col = None
+                if not found:
                     vc1, vo1 = mode.advance_scalar(x, t, span)
-                    g_end = gr @ np.array([vc1, vo1, self.u(t1), 1.0])
-                    G = np.column_stack([G, g_end])
-                    neg = G < -self.tol
-                    cols = np.flatnonzero(neg.any(axis=0))
-                if cols.size:
-                    k = int(cols[0])
+                    u1 = self.u(t1)
+                    g_end = [r[0] * vc1 + r[1] * vo1 + r[2] * u1 + r[3] for r in mode.gpy]
+                    if min(g_end) < -self.tol:
+                        found = True
+                        k = n
+                        fb_col = g_end
+                if found:
                     h_lo = k * dt if k > 0 else 0.0
                     h_hi = (k + 1) * dt if k < n else span
                     best = h_hi
-                    for j in np.flatnonzero(neg[:, k]):
-                        fa = float(G[j, k - 1]) if k > 0 else None
-                        hj = self._locate(mode, gr[j], x, t, h_lo, h_hi, fa, float(G[j, k]))
+                    fbs = fb_col if fb_col is not None else G[:, k].tolist()
+                    fas = G[:, k - 1].tolist() if k > 0 else None
+                    for j, fb in enumerate(fbs):
+                        if fb >= -self.tol:
+                            continue
+                        fa = fas[j] if fas is not None else None
+                        hj = self._locate(mode, mode.gpy[j], x, t, h_lo, h_hi, fa, fb)
                         if hj <= best:
                             best = hj
                             next_key = mode.guards[j][1]
