@@ -17,6 +17,8 @@ import textwrap
 from pathlib import Path
 
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 from sqlalchemy import func, select
 
 from selector.catalogue import parts_frame
@@ -425,3 +427,34 @@ def test_ignored_column_by_map(engine, tmp_path):
     result = import_stock(engine, path, supplier="m", column_map={"Description": "ignore"})
     assert result.inserted == 1
     assert [m.field for m in result.mapping][-1] is None
+
+
+def test_text_that_is_not_utf8_is_refused_with_its_line(engine, tmp_path):
+    path = tmp_path / "latin1.csv"
+    path.write_bytes(
+        "SKU,Family,Value,Price\nA,x2-film,330n,0.2\nB,x2-film,1µ,0.3\n".encode("latin-1")
+    )
+    with pytest.raises(BadRowError, match=r"row 3: not UTF-8 text"):
+        import_stock(engine, path)
+
+
+@settings(
+    max_examples=8, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(st.lists(st.integers(0, DEMO_ROWS - 1), min_size=1, max_size=12, unique=True))
+def test_any_subset_in_any_order_imports_once(catalogue_copy_url, tmp_path_factory, picks):
+    """Property: whatever rows of the demo list, in whatever order, the first import inserts
+    each once and a second import of the same file changes nothing."""
+    header, rows = _demo_rows()
+    path = _write_csv(tmp_path_factory.mktemp("sub") / "s.csv", header, [rows[i] for i in picks])
+    eng = make_engine(catalogue_copy_url)
+    try:
+        with eng.begin() as conn:  # each example starts without this supplier's rows
+            conn.execute(Part.__table__.delete().where(Part.source == "import:prop"))
+        first = import_stock(eng, path, supplier="prop")
+        second = import_stock(eng, path, supplier="prop")
+        assert first.inserted == len(picks) and not first.problems
+        assert (second.inserted, second.updated, second.unchanged) == (0, 0, len(picks))
+        assert _count(eng, "import:prop") == len(picks)
+    finally:
+        eng.dispose()
