@@ -90,7 +90,7 @@ class Mode:
         self.rows = np.asarray(rows, dtype=float)
         self.guards = guards
         self.guard_rows = self.rows[[g[0] for g in guards]] if guards else np.zeros((0, 4))
-        self.gpy = [tuple(float(v) for v in r) for r in self.guard_rows]
+        self.gpy = self.guard_rows.tolist()
         tr = a11 + a22
         det = a11 * a22 - a12 * a21
         disc = max(0.25 * tr * tr - det, 0.0)
@@ -480,15 +480,19 @@ class PwlSystem:
     def _sample_all(self, segs, qdt: float):
         """Sample every output on all segments at once: (t, weights, outputs (nout, N))."""
         nout = len(self.names)
-        hs_parts, w_parts, t_parts, l1s, l2s, rws, counts = [], [], [], [], [], [], []
+        starts, widths, sizes, units, wunits = [], [], [], [], []
+        t_parts, l1s, l2s, rws, counts = [], [], [], [], []
         for mode, x, t, h in segs:
             if h <= 0:
                 continue
             n_seg = 0
             for a, b, m in self._pieces(mode, h, qdt):
                 n = 2 * m + 1
-                hs_parts.append(a + (b - a) * _unit_grid(n))
-                w_parts.append(_simpson_weights(n) * ((b - a) / (3.0 * (n - 1))))
+                starts.append(a)
+                widths.append(b - a)
+                sizes.append(n)
+                units.append(_unit_grid(n))
+                wunits.append(_simpson_weights(n) / (3.0 * (n - 1)))
                 n_seg += n
             t_parts.append(t)
             l1s.append(mode.l1)
@@ -497,8 +501,9 @@ class PwlSystem:
             counts.append(n_seg)
         if not counts:
             return np.zeros(0), np.zeros(0), np.zeros((nout, 0))
-        h = np.concatenate(hs_parts)
-        w = np.concatenate(w_parts)
+        width = np.repeat(widths, sizes)
+        h = np.repeat(starts, sizes) + width * np.concatenate(units)
+        w = width * np.concatenate(wunits)
         idx = np.repeat(np.arange(len(counts)), counts)
         l1 = np.asarray(l1s)[idx]
         l2 = np.asarray(l2s)[idx]
