@@ -121,3 +121,28 @@ def test_holdup_droop() -> None:
     h = holdup(c, 0.020)
     assert h.droop_v == pytest.approx((0.005 + 0.030 - 0.020) * 0.02 / 1e-3)
     assert h.ok == (h.droop_v <= 1.2)
+
+
+def test_startup_never_when_the_weakest_corner_cannot_carry_the_load() -> None:
+    # DOMAIN.md section 2: start-up time C_r Vz / (I_dc - I_load) has no finite value when
+    # I_load >= I_dc. Here the weakest corner (207 V, 50 Hz, 330 nF less tolerance and
+    # end-of-life loss) gives ~14.9 mA against a 15 mA load: the bus never reaches the clamp.
+    from selector.engine import Conditions, Mains, Tolerances, analyse
+
+    circuit = Circuit(
+        topology="bridge",
+        x_capacitors_f=(330e-9,),
+        series_resistance_ohm=470.0,
+        bleeder_resistance_ohm=1e6,
+        zener_voltage_v=12.0,
+        reservoir_f=220e-6,
+        load=Load(current_a=15e-3),
+    )
+    mains = Mains(230.0, 0.10, (50.0, 60.0))
+    short = analyse(circuit, mains, Tolerances(), Conditions())
+    assert not short.worst_case.load_met
+    assert math.isinf(short.startup.time_s)
+    light = analyse(
+        circuit.with_values(load=Load(current_a=10e-3)), mains, Tolerances(), Conditions()
+    )
+    assert light.worst_case.load_met and math.isfinite(light.startup.time_s)

@@ -399,12 +399,12 @@ def analyse(
         circuit.x_capacitance_f,
         {**k_dis.record(circuit), "bleeder_ohm": rb_max},
     )
-    k_su = grid[int(np.argmin(i_cf))]
+    k_su = k_min  # the weakest corner: where min_i was found
     su = startup(
         corner_circuit(circuit, k_su),
         k_su.mains_v,
         k_su.freq_hz,
-        s_min.dc_current_a,
+        min_i,  # the current available at the clamp; the loaded value equals the load when short
         k_su.record(circuit),
     )
     if progress is not None:

@@ -295,7 +295,7 @@ def startup(
     else:
         i_load = ld.current_a + (v / ld.resistance_ohm if ld.resistance_ohm else 0.0)
     net = i_v - i_load
-    if np.any(net[:-1] <= 0) or net[-1] < 0:
+    if np.any(net <= 0):
         t = math.inf
     else:
         inv = circuit.reservoir_f / np.maximum(net, 1e-15)
