@@ -346,6 +346,93 @@ def _dedupe(opts: _Options, sig_cols: Sequence[str], keep: int) -> _Options:
     return opts.take(np.sort(order[rank < keep]))
 
 
+def _pairs_of(single: _Options, i: np.ndarray, j: np.ndarray, minimize: str) -> _Options:
+    """The pairs (i[k], j[k]) of single X options in parallel; ratings = the weaker one,
+    tolerance = the capacitance-weighted one (exact for both extremes)."""
+    v = single.attrs["value"]
+    t = np.nan_to_num(single.attrs["tolerance"], nan=0.2)
+    attrs: dict[str, np.ndarray] = {}
+    for k, arr in single.attrs.items():
+        if k == "value":
+            attrs[k] = arr[i] + arr[j]
+        elif k == "tolerance":
+            attrs[k] = (v[i] * t[i] + v[j] * t[j]) / (v[i] + v[j])
+        else:
+            attrs[k] = np.fmin(arr[i], arr[j])
+    rows = [single.rows[a] + single.rows[b] for a, b in zip(i.tolist(), j.tolist(), strict=True)]
+    price = single.price[i] + single.price[j]
+    area = single.area[i] + single.area[j]
+    count = single.count[i] + single.count[j]
+    return _Options(
+        single.role,
+        rows,
+        np.full(len(i), 2, dtype=np.int64),
+        ["parallel"] * len(i),
+        objective_key(price, area, count, minimize),
+        price,
+        area,
+        count,
+        attrs,
+    )
+
+
+#: at most this many X pairs enter the search (the cheapest in the capacitance window); when
+#: the window holds more, the result says the search was limited
+PAIR_CAP: Final[int] = 400_000
+
+
+def _window_pairs(
+    single: _Options, c_lo: float, c_hi: float, budget: int, cap: int
+) -> tuple[np.ndarray, np.ndarray, bool]:
+    """Index pairs (i <= j) of singles with c_lo <= C_i + C_j <= c_hi and key_i + key_j <
+    budget; the ``cap`` cheapest when there are more (then the flag says so)."""
+    n = len(single)
+    if n == 0:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64), False
+    order = np.argsort(single.attrs["value"], kind="stable")
+    vs = single.attrs["value"][order]
+    ks = single.key[order]
+    lo = np.maximum(np.searchsorted(vs, c_lo - vs, side="left"), np.arange(n))
+    hi = np.searchsorted(vs, c_hi - vs, side="right")
+    cnt = np.maximum(hi - lo, 0)
+    best_i: list[np.ndarray] = []
+    best_j: list[np.ndarray] = []
+    best_k: list[np.ndarray] = []
+    truncated = False
+    block = 2_000_000
+    start = 0
+    while start < n:
+        stop = start
+        tot = 0
+        while stop < n and (tot + cnt[stop] <= block or stop == start):
+            tot += int(cnt[stop])
+            stop += 1
+        c = cnt[start:stop]
+        if tot:
+            a = np.repeat(np.arange(start, stop), c)
+            offs = np.repeat(lo[start:stop] - np.concatenate([[0], np.cumsum(c)[:-1]]), c)
+            b = np.arange(tot) + offs
+            k = ks[a] + ks[b]
+            m = k < budget
+            a, b, k = a[m], b[m], k[m]
+            best_i.append(a)
+            best_j.append(b)
+            best_k.append(k)
+            allk = np.concatenate(best_k)
+            if len(allk) > cap:
+                truncated = True
+                keep = np.argpartition(allk, cap - 1)[:cap]
+                best_i = [np.concatenate(best_i)[keep]]
+                best_j = [np.concatenate(best_j)[keep]]
+                best_k = [allk[keep]]
+        start = stop
+    if not best_i:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64), False
+    ia = order[np.concatenate(best_i)]
+    ib = order[np.concatenate(best_j)]
+    return ia, ib, truncated
+
+
 def _x_pairs(single: _Options, minimize: str) -> _Options:
     """Singles plus every unordered pair (i <= j) in parallel; pair ratings = the weaker one."""
     n = len(single)
@@ -475,6 +562,7 @@ class _Setup:
     fo: _Options
     topologies: tuple[str, ...]
     bus_need_v: float
+    xs: _Options | None = None  # the single X options (xo grows by pairs)
     analyse: Callable[..., Any] | None = None
     stats: dict[str, Any] | None = None
     last_exact: Any = None
@@ -543,7 +631,7 @@ def _prepare(df_all: pd.DataFrame, req: Requirement, policy: Policy) -> _Setup:
             okm &= np.asarray(st <= lim)
         xs = xs.take(np.flatnonzero(okm))
     xs = _dedupe(xs, ("value", "tolerance", "dvdt_v_per_s"), k)
-    xo = _dedupe(_x_pairs(xs, mz), ("value", "tolerance", "dvdt_v_per_s"), k)
+    xo = xs  # pairs join later, within the capacitance window and the cost budget
     # series resistors: 1 or 2 equal in series, value within the engine's range
     ri = _idx(df, ["resistor"])
     rv = _col(df, "value")[ri]
@@ -650,7 +738,7 @@ def _prepare(df_all: pd.DataFrame, req: Requirement, policy: Policy) -> _Setup:
     # fuses
     fi = _idx(df, ["fuse"])
     fo = _single_options(df, fi, "fuse", mz, [1], "single")
-    return _Setup(req, policy, df, xo, ro, bo, rect, zo, co, fo, tops, bus_need)
+    return _Setup(req, policy, df, xo, ro, bo, rect, zo, co, fo, tops, bus_need, xs)
 
 
 def _concat(parts: Sequence[_Options]) -> _Options:
@@ -965,9 +1053,14 @@ def _group(setup: _Setup, topology: str, vz: float, stats: dict) -> _Group | Non
     ztol_min = float(np.nanmin(np.nan_to_num(zo.attrs["tolerance"], nan=0.0)))
     zz_min = float(np.min(np.nan_to_num(zo.attrs["zz_ohm"], nan=0.0) * zo.qty))
     xkeep, rkeep = _prune(setup, topology, vz, vf_lo, vf_hi, float(np.max(z_cap)), ztol_min, zz_min)
-    if len(xkeep) == 0 or len(rkeep) == 0 or not np.any(b_ok):
-        _tally(stats, "whole.min_current", np.ones(1, dtype=bool))
+    if not np.any(b_ok):
+        _tally(stats, "bleeder.power", np.ones(1, dtype=bool))
         return None
+    if len(xkeep) == 0 or len(rkeep) == 0:
+        # no single X capacitor can serve; pairs may (phase 2 of the search)
+        _tally(stats, "whole.min_current", np.ones(1, dtype=bool))
+        xkeep = np.zeros(0, dtype=np.int64)
+        rkeep = np.zeros(0, dtype=np.int64)
     xkeep = xkeep[np.argsort(setup.xo.key[xkeep], kind="stable")]
     r_tot = setup.ro.attrs["value"][rkeep] * setup.ro.qty[rkeep]
     order = np.argsort(r_tot, kind="stable")
@@ -995,7 +1088,7 @@ def _group(setup: _Setup, topology: str, vz: float, stats: dict) -> _Group | Non
         xkeep,
         rkeep,
         r_sorted,
-        int(np.min(setup.ro.key[rkeep])),
+        int(np.min(setup.ro.key[rkeep])) if len(rkeep) else 0,
         min_comp,
         ztol_min,
         zz_min,
@@ -1172,7 +1265,7 @@ def _screen_chunk(setup: _Setup, G: _Group, xs: np.ndarray, budget: int, stats: 
     return xg[sel], rg[sel], key[sel], comp
 
 
-def _prune(setup, topology, vz, vf_lo, vf_hi, z_cap_max, ztol_min=0.0, zz_min=0.0):
+def _prune(setup, topology, vz, vf_lo, vf_hi, z_cap_max, ztol_min=0.0, zz_min=0.0, xidx=None):
     """X and series-R options that can take part in any feasible point of this group.
 
     Necessary conditions only (each uses the most favourable partner of the other role):
@@ -1189,11 +1282,14 @@ def _prune(setup, topology, vz, vf_lo, vf_hi, z_cap_max, ztol_min=0.0, zz_min=0.
     need = avg_a * (1 + pol.load_margin)
     r_tot = ro.attrs["value"] * ro.qty
     rtol = np.nan_to_num(ro.attrs["tolerance"], nan=0.05)
-    xtol = np.nan_to_num(xo.attrs["tolerance"], nan=0.2)
-    cx = xo.attrs["value"]
+    if xidx is None:
+        xidx = np.arange(len(xo))
+    xtol_all = np.nan_to_num(xo.attrs["tolerance"], nan=0.2)
+    xtol = xtol_all[xidx]
+    cx = xo.attrs["value"][xidx]
     r_lo = float(np.min(r_tot * (1 - rtol)))
     r_hi = float(np.max(r_tot * (1 + rtol)))
-    zero = np.zeros(len(xo))
+    zero = np.zeros(len(xidx))
     # the largest series resistance that still meets the load with this X; the Zener power
     # can be no lower than at that resistance (it falls as R rises)
     r_allow = _r_window_hi(req, topology, vz, vf_lo, cx * (1 - xtol) * (1 - req.cap_loss), need)
@@ -1202,9 +1298,11 @@ def _prune(setup, topology, vz, vf_lo, vf_hi, z_cap_max, ztol_min=0.0, zz_min=0.
     b_hi = _screen_bounds(req, topology, vz, cx, xtol, r_use, zero, vf_lo, vf_hi, ztol_min, zz_min)
     xk &= b_hi["max_zener_power_w"] <= z_cap_max
     xk &= b_hi["max_zener_power_w"] + b_hi["rectifier_loss_w"] <= pol.standby_limit_w
-    xkeep = np.flatnonzero(xk)
+    xkeep = xidx[np.flatnonzero(xk)]
     if len(xkeep) == 0:
         return xkeep, np.zeros(0, dtype=np.int64)
+    cx = xo.attrs["value"]
+    xtol = xtol_all
     c_best = float(np.max(cx[xkeep] * (1 - xtol[xkeep])))
     c_least = float(np.min(cx[xkeep] * (1 - xtol[xkeep])))
     n = len(ro)
@@ -1230,6 +1328,90 @@ def _prune(setup, topology, vz, vf_lo, vf_hi, z_cap_max, ztol_min=0.0, zz_min=0.
     rkeep = np.flatnonzero(rk)
     rkeep = _pareto_r(ro, rkeep, setup.req.top)
     return xkeep, rkeep
+
+
+def _c_window(setup: _Setup, G: _Group) -> tuple[float, float]:
+    """Total X capacitance range a feasible set of this group can have [F] (necessary).
+
+    The X criteria of ``_prune`` on a fine log grid of capacitances at zero tolerance (the most
+    permissive case: tolerance only lowers the minimum current and raises the Zener power).
+    """
+    req, pol = setup.req, setup.policy
+    avg_a, _ = _bus_demand(req)
+    need = avg_a * (1 + pol.load_margin)
+    ro = setup.ro
+    r_tot = ro.attrs["value"] * ro.qty
+    rtol = np.nan_to_num(ro.attrs["tolerance"], nan=0.05)
+    r_lo = float(np.min(r_tot * (1 - rtol)))
+    r_hi = float(np.max(r_tot * (1 + rtol)))
+    grid = np.geomspace(1e-9, 4e-5, 1200)
+    step = grid[1] / grid[0]
+    zero = np.zeros(len(grid))
+    r_allow = _r_window_hi(req, G.topology, G.vz, G.vf_lo, grid * (1 - req.cap_loss), need)
+    ok = r_allow >= r_lo
+    b = _screen_bounds(
+        req,
+        G.topology,
+        G.vz,
+        grid,
+        zero,
+        np.clip(r_allow, r_lo, r_hi),
+        zero,
+        G.vf_lo,
+        G.vf_hi,
+        G.ztol_min,
+        G.zz_min,
+    )
+    ok &= b["max_zener_power_w"] <= float(np.max(G.z_cap))
+    ok &= b["max_zener_power_w"] + b["rectifier_loss_w"] <= pol.standby_limit_w
+    idx = np.flatnonzero(ok)
+    if len(idx) == 0:
+        return math.inf, -math.inf
+    return float(grid[idx[0]] / step), float(grid[idx[-1]] * step)
+
+
+def _add_pairs(setup: _Setup, groups: list[_Group], budget: int, stats: dict) -> None:
+    """Phase 2 of the search: X pairs within the capacitance window and under the cost budget
+    join the options; each group gets them (pruned, in key order) as its next X list."""
+    windows = [_c_window(setup, g) for g in groups]
+    c_lo = min(w[0] for w in windows)
+    c_hi = max(w[1] for w in windows)
+    if not c_lo <= c_hi:
+        return
+    xs = setup.xs
+    ia, ib, trunc = _window_pairs(xs, c_lo, c_hi, budget, PAIR_CAP)
+    stats["pairs"] = len(ia)
+    if trunc:
+        stats["pairs_truncated"] = True
+    if len(ia) == 0:
+        return
+    pairs = _pairs_of(xs, ia, ib, setup.req.minimize)
+    pairs = _dedupe(pairs, ("value", "tolerance", "dvdt_v_per_s"), setup.req.top)
+    start = len(setup.xo)
+    setup.xo = _concat([setup.xo, pairs])
+    new = np.arange(start, len(setup.xo))
+    for g in groups:
+        xk, rk = _prune(
+            setup,
+            g.topology,
+            g.vz,
+            g.vf_lo,
+            g.vf_hi,
+            float(np.max(g.z_cap)),
+            g.ztol_min,
+            g.zz_min,
+            xidx=new,
+        )
+        if len(xk) == 0 or len(rk) == 0:
+            g.xkeep = np.zeros(0, dtype=np.int64)
+            g.cursor = 0
+            continue
+        g.xkeep = xk[np.argsort(setup.xo.key[xk], kind="stable")]
+        g.cursor = 0
+        r_tot = setup.ro.attrs["value"][rk] * setup.ro.qty[rk]
+        order = np.argsort(r_tot, kind="stable")
+        g.rkeep, g.r_sorted = rk[order], r_tot[order]
+        g.min_r_key = int(np.min(setup.ro.key[g.rkeep]))
 
 
 def _pareto_r(ro: _Options, idx: np.ndarray, keep: int) -> np.ndarray:
@@ -1663,55 +1845,63 @@ def design(
                     best, bg = lb, g
         return best, bg
 
-    while True:
-        nxt, g = next_chunk_lb()
-        # verify pending points whose lower bound is below anything still unscreened
+    for phase in ("singles", "pairs"):
+        if phase == "pairs":
+            if stats.get("verify_limit") or not groups:
+                break
+            base = min(g.min_r_key + g.min_comp_key for g in groups)
+            b = bound()
+            _add_pairs(setup, groups, _BIG if b >= _BIG else b - base, stats)
         while True:
-            head = None
-            for p in pending:
-                if p[4] < len(p[0]) and (head is None or p[0][p[4]] < head[0][head[4]]):
-                    head = p
-            if head is None:
+            nxt, g = next_chunk_lb()
+            # verify pending points whose lower bound is below anything still unscreened
+            while True:
+                head = None
+                for p in pending:
+                    if p[4] < len(p[0]) and (head is None or p[0][p[4]] < head[0][head[4]]):
+                        head = p
+                if head is None:
+                    break
+                lbk = int(head[0][head[4]])
+                if lbk >= nxt or lbk >= bound():
+                    break
+                xi, ri, G = int(head[1][head[4]]), int(head[2][head[4]]), head[3]
+                guess = tuple(int(v) for v in head[5][head[4]])
+                head[4] += 1
+                if stats["verified"] >= max_verify:
+                    stats["verify_limit"] = True
+                    break
+                r_corner = float(setup.ro.attrs["value"][ri] * setup.ro.qty[ri]) * (
+                    1 + float(np.nan_to_num(setup.ro.attrs["tolerance"][ri], nan=0.05))
+                )
+                ck = (id(G), xi)
+                if ck in cuts and r_corner >= cuts[ck]:
+                    stats["cut"] = stats.get("cut", 0) + 1
+                    continue
+                stats["verified"] += 1
+                setup.last_exact = None
+                res = _verify(setup, G.topology, G.vz, xi, ri, guess)
+                if res is not None:
+                    found.append((res[0], res))
+                elif setup.last_exact is not None and "whole.min_current" in setup.last_exact[0]:
+                    s_ex = setup.last_exact[1]
+                    # cut: with this X in this group, a larger series resistance only lowers the
+                    # current; completion parts move it by far less than CUT_TOLERANCE
+                    if s_ex["min_dc_current_a"] * (1 + CUT_TOLERANCE) < s_ex["load_a"] * (
+                        1 + setup.policy.load_margin
+                    ):
+                        cuts[ck] = min(cuts.get(ck, math.inf), r_corner)
+            if stats.get("verify_limit") or g is None or nxt >= bound():
                 break
-            lbk = int(head[0][head[4]])
-            if lbk >= nxt or lbk >= bound():
-                break
-            xi, ri, G = int(head[1][head[4]]), int(head[2][head[4]]), head[3]
-            guess = tuple(int(v) for v in head[5][head[4]])
-            head[4] += 1
-            if stats["verified"] >= max_verify:
-                stats["verify_limit"] = True
-                break
-            r_corner = float(setup.ro.attrs["value"][ri] * setup.ro.qty[ri]) * (
-                1 + float(np.nan_to_num(setup.ro.attrs["tolerance"][ri], nan=0.05))
-            )
-            ck = (id(G), xi)
-            if ck in cuts and r_corner >= cuts[ck]:
-                stats["cut"] = stats.get("cut", 0) + 1
-                continue
-            stats["verified"] += 1
-            setup.last_exact = None
-            res = _verify(setup, G.topology, G.vz, xi, ri, guess)
-            if res is not None:
-                found.append((res[0], res))
-            elif setup.last_exact is not None and "whole.min_current" in setup.last_exact[0]:
-                s_ex = setup.last_exact[1]
-                # cut: with this X in this group, a larger series resistance only lowers the
-                # current; completion parts move it by far less than CUT_TOLERANCE
-                if s_ex["min_dc_current_a"] * (1 + CUT_TOLERANCE) < s_ex["load_a"] * (
-                    1 + setup.policy.load_margin
-                ):
-                    cuts[ck] = min(cuts.get(ck, math.inf), r_corner)
-        if stats.get("verify_limit") or g is None or nxt >= bound():
-            break
-        xs = g.xkeep[g.cursor : g.cursor + chunk]
-        g.cursor += chunk
-        out = _screen_chunk(setup, g, xs, bound(), stats)
-        if out is not None:
-            pending.append([out[2], out[0], out[1], g, 0, out[3]])
-        done_chunks += 1
-        if progress:
-            progress(done_chunks, total_chunks)
+            xs = g.xkeep[g.cursor : g.cursor + chunk]
+            g.cursor += chunk
+            out = _screen_chunk(setup, g, xs, bound(), stats)
+            if out is not None:
+                pending.append([out[2], out[0], out[1], g, 0, out[3]])
+            done_chunks += 1
+            total_chunks = max(total_chunks, done_chunks)
+            if progress:
+                progress(done_chunks, total_chunks)
     if progress:
         progress(total_chunks, total_chunks)
     found.sort(key=lambda t: t[0])
@@ -1744,16 +1934,19 @@ def _precheck(setup: _Setup) -> None:
     need = avg_a * (1 + setup.policy.load_margin)
     best = 0.0
     best_top = ""
+    v_single = setup.xo.attrs["value"]
+    # singles and the largest pair (two of the largest part) at their most favourable
+    values = np.append(v_single, 2 * np.max(v_single)) if len(v_single) else v_single
     for t in setup.topologies:
         vz = min(v for _, v in setup.zo)
         b = _screen_bounds(
             req,
             t,
             vz,
-            setup.xo.attrs["value"],
-            np.zeros(len(setup.xo)),
-            np.full(len(setup.xo), 1.0),
-            np.zeros(len(setup.xo)),
+            values,
+            np.zeros(len(values)),
+            np.full(len(values), 1.0),
+            np.zeros(len(values)),
             0.0,
             0.0,
         )
@@ -1761,7 +1954,7 @@ def _precheck(setup: _Setup) -> None:
         if i > best:
             best, best_top = i, t
     if best < need:
-        cmax = float(np.max(setup.xo.attrs["value"]))
+        cmax = 2 * float(np.max(setup.xo.attrs["value"]))
         m = req.mains
         vpk = _SQRT2 * m.low_v
         f = min(m.frequencies_hz)
