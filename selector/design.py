@@ -818,8 +818,11 @@ def _screen_bounds(
     lb = 1 - lo
     fac = max(0.0, 1 - vo_hi / vpk_hi)
     i_rms = m.high_v * w_hi * c_max / np.sqrt(1 + (w_hi * r_max * c_max) ** 2) * fac
-    v_on = max(vpk_hi - vo_hi, 0.0)
-    i_on = v_on / r_max
+    # switch-on and surge: the engine takes both at the +C / -R corner of the highest mains
+    # (selector.engine.analysis, "transients at their own worst corners"), everything
+    # discharged, so only the diode drops stand against the crest
+    v_on = max(vpk_hi - 2 * vf_hi, 0.0)
+    i_on = v_on / r_min
     out = {
         "min_dc_current_a": i_ub,
         "max_zener_power_w": np.maximum(pz, 0) * lb,
@@ -832,10 +835,10 @@ def _screen_bounds(
         "max_reservoir_ripple_current_a": np.zeros_like(i_ub),
         "inrush_peak_current_a": i_on * lb,
         "inrush_rectifier_peak_current_a": i_on * lb,
-        "inrush_series_r_energy_j": 0.5 * c_min * v_on**2 * lb,
-        "inrush_i2t_a2s": v_on**2 * c_min / (2 * r_max) * lb,
+        "inrush_series_r_energy_j": 0.5 * c_max * v_on**2 * lb,
+        "inrush_i2t_a2s": v_on**2 * c_max / (2 * r_min) * lb,
         "inrush_x_cap_dvdt_v_per_s": i_on / c_max * lb,
-        **(_surge_bounds(req.conditions.surge_v, r_min, c_min, lb) if surge else {}),
+        **(_surge_bounds(req.conditions.surge_v, r_min, c_max, lb) if surge else {}),
         "series_resistance_ohm": r_min,
         "c_max": c_max,
         "c_min_nom": c_nom * (1 - c_tol),
@@ -1197,10 +1200,7 @@ def _screen_chunk(setup: _Setup, G: _Group, xs: np.ndarray, budget: int, stats: 
     }
     b.update(
         _surge_bounds(
-            req.conditions.surge_v,
-            b["series_resistance_ohm"],
-            b["c_min_nom"] * (1 - req.cap_loss),
-            1 - SCREEN_SLACK,
+            req.conditions.surge_v, b["series_resistance_ohm"], b["c_max"], 1 - SCREEN_SLACK
         )
     )
     s = {**s0, **b, "load_a": avg_a}
@@ -1224,15 +1224,16 @@ def _screen_chunk(setup: _Setup, G: _Group, xs: np.ndarray, budget: int, stats: 
     _tally(stats, "whole.burst_holdup", ok_xr & (csel < 0))
     ok &= csel >= 0
     limit_v, allowed_s, tau_rule = _PROFILE_LIMITS[req.conditions.profile]
-    c_ex = b["c_min_nom"]
+    # the engine discharges from the crest of the highest mains through the largest bleeder
+    # into the largest capacitance; the table holds each bleeder at its lowest tolerance
+    c_dis = b["c_max"]
+    v0 = _SQRT2 * req.mains.high_v
     if tau_rule:
-        rb_hi = allowed_s / (c_ex * (1 - SCREEN_SLACK))
+        rb_hi = allowed_s / (c_dis * (1 - SCREEN_SLACK))
     else:
-        rb_hi = allowed_s / (
-            c_ex * math.log(max(G.v_cap / limit_v, 1.0 + 1e-12)) * (1 - SCREEN_SLACK)
-        )
+        rb_hi = allowed_s / (c_dis * math.log(max(v0 / limit_v, 1.0 + 1e-12)) * (1 - SCREEN_SLACK))
     if req.conditions.profile == "iec60335":
-        rb_hi = np.where(c_ex <= _EXEMPT_C, np.inf, rb_hi)
+        rb_hi = np.where(b["c_min_nom"] <= _EXEMPT_C, np.inf, rb_hi)
     room = pol.standby_limit_w - (
         b["max_zener_power_w"] + b["max_series_r_power_w"] + b["rectifier_loss_w"]
     )

@@ -505,6 +505,12 @@ def _is_fusible(s, p):
     return bool(p.fusible)
 
 
+def _has_surge(s, p):
+    # no surge level (0): the surge rules do not apply (the engine computes no surge)
+    v = s.get("surge_level_v")
+    return v is not None and not (isinstance(v, float) and math.isnan(v)) and v > 0
+
+
 def _has_burst(s, p):
     return bool(s.get("burst_current_a")) and bool(s.get("burst_duration_s"))
 
@@ -559,6 +565,7 @@ RULES: Final[tuple[Rule, ...]] = (
         _x_dvdt_surge,
         ratings=("dvdt_v_per_s",),
         stress_keys=("surge_x_cap_dvdt_v_per_s",),
+        applies=_has_surge,
     ),
     Rule(
         "series_r.power",
@@ -590,6 +597,7 @@ RULES: Final[tuple[Rule, ...]] = (
         _r_energy_surge,
         ratings=("pulse_energy_j",),
         stress_keys=("surge_series_r_energy_j",),
+        applies=_has_surge,
     ),
     Rule(
         "series_r.peak_voltage",
@@ -621,6 +629,7 @@ RULES: Final[tuple[Rule, ...]] = (
         _r_pulse_voltage_surge,
         ratings=("limiting_voltage_v",),
         stress_keys=("surge_series_r_peak_voltage_v",),
+        applies=_has_surge,
     ),
     Rule(
         "bleeder.discharge",

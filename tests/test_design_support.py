@@ -269,19 +269,21 @@ def standin_analyse(circuit, mains, tol, cond):
         rectifier_peak_current_a=ipk,
         duration_s=r_min * c_max,
     )
-    # surge: a 1.2 us ramp to Vs through 2 ohm + R into C, then an exponential decay of the
-    # current (time constant (R + 2) C) cut off at 50 us (a crude RC model of IEC 61000-4-5)
-    vs = cond.surge_v
-    tau = (r_min + 2.0) * c_set[0]
-    tf = 1.2e-6
-    isg = vs / (r_min + 2.0) * tau / tf * (1 - math.exp(-tf / tau))
-    surge = SimpleNamespace(
-        level_v=vs,
-        peak_current_a=isg,
-        series_r_energy_j=isg**2 * r_min * tau / 2 * (1 - math.exp(-2 * 50e-6 / tau)),
-        series_r_peak_voltage_v=isg * r_min,
-        x_cap_voltage_step_v=min(isg * tau / c_set[0], vs),
-        x_cap_dvdt_v_per_s=isg / c_set[0],
+    # surge: the engine's own closed-form surge model at the engine's corner (+C, -R)
+    from selector.engine.transients import surge as engine_surge
+
+    corner_circ = circuit.with_values(x_capacitors_f=(c_max,), series_resistance_ohm=r_min)
+    surge = (
+        engine_surge(corner_circ, cond.surge_v, {})
+        if cond.surge_v > 0
+        else SimpleNamespace(
+            level_v=0.0,
+            peak_current_a=0.0,
+            series_r_energy_j=0.0,
+            series_r_peak_voltage_v=0.0,
+            x_cap_voltage_step_v=0.0,
+            x_cap_dvdt_v_per_s=0.0,
+        )
     )
     tau = rb * (1 + tol.r_tol) * c_max
     exempt = cond.profile == "iec60335" and c <= 0.1e-6
