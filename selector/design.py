@@ -1157,7 +1157,10 @@ def _screen_chunk(setup: _Setup, G: _Group, xs: np.ndarray, budget: int, stats: 
     rg = G.rkeep[rpos]
     # keys: prune by the budget before any physics
     kx = xo.key[xg] + ro.key[rg]
-    m = kx + G.min_comp_key < budget
+    # the cheapest completion: Zener, rectifier, reservoir, bleeder, and a fuse unless the
+    # series resistor is fusible
+    fuse_min = int(np.min(setup.fo.key)) if len(setup.fo) else 0
+    m = kx + G.min_comp_key + np.where(ro.attrs["fusible_flag"][rg], 0, fuse_min) < budget
     xg, rg, kx = xg[m], rg[m], kx[m]
     if len(xg) == 0:
         return None
@@ -1181,7 +1184,8 @@ def _screen_chunk(setup: _Setup, G: _Group, xs: np.ndarray, budget: int, stats: 
     xns, rns = xo.ns(xg), ro.ns(rg)
     ok = _screen_rules_x_r(s, xns, rns, pol, which="cheap")
     stats["points"] += len(ok)
-    _count_block(stats, s, xns, rns, pol, ok)
+    if budget >= _BIG:  # diagnostics for an infeasible request; not needed once a set exists
+        _count_block(stats, s, xns, rns, pol, ok)
     # quick completion checks before the costlier surge bounds
     room0 = pol.standby_limit_w - (
         b["max_zener_power_w"] + b["max_series_r_power_w"] + b["rectifier_loss_w"]
