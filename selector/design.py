@@ -1121,11 +1121,94 @@ def _r_window_hi(req, topology, vz, vf_lo, c_min, need):
     return np.where(k >= 1, r, -1.0)
 
 
-def _screen_chunk(setup: _Setup, G: _Group, xs: np.ndarray, budget: int, stats: dict):
-    """Screen the points (x in ``xs``) x (series R in the window that x allows).
+#: the screen works on at most this many points at a time (bounds the memory)
+_POINTS_PER_BATCH: Final[int] = 150_000
 
-    Returns (x indices, R indices, lower-bound keys) of the points that pass, key < budget.
+
+def _screen_chunk(setup: _Setup, G: _Group, xs: np.ndarray, budget: int, stats: dict):
+    """Screen the points (x in ``xs``) x (series R in the window that x allows), in batches of
+    at most _POINTS_PER_BATCH points. Returns (x indices, R indices, lower-bound keys,
+    completion indices) of the points that pass with key < budget, in key order."""
+    outs = []
+    start = 0
+    while start < len(xs):
+        n = _batch_len(setup, G, xs[start:])
+        out = _screen_batch(setup, G, xs[start : start + n], budget, stats)
+        if out is not None:
+            outs.append(out)
+        start += n
+    if not outs:
+        return None
+    if len(outs) == 1:
+        return outs[0]
+    xg, rg, key, comp = (np.concatenate([o[i] for o in outs]) for i in range(4))
+    order = np.argsort(key, kind="stable")
+    return xg[order], rg[order], key[order], comp[order]
+
+
+def _batch_len(setup: _Setup, G: _Group, xs: np.ndarray) -> int:
+    """How many of ``xs`` fit in one batch (their R windows summed), at least one."""
+    req, pol = setup.req, setup.policy
+    avg_a, _ = _bus_demand(req)
+    need = avg_a * (1 + pol.load_margin)
+    xo = setup.xo
+    xtol = np.nan_to_num(xo.attrs["tolerance"][xs], nan=0.2)
+    c_min = xo.attrs["value"][xs] * (1 - xtol) * (1 - req.cap_loss)
+    r_hi = _r_window_hi(req, G.topology, G.vz, G.vf_lo, c_min, need)
+    cnt = np.searchsorted(G.r_sorted, r_hi, side="right")
+    over = np.flatnonzero(np.cumsum(cnt) > _POINTS_PER_BATCH)
+    return max(1, int(over[0]) if len(over) else len(xs))
+
+
+def _x_completion_lb(setup: _Setup, G: _Group, xs: np.ndarray, r_hi: np.ndarray) -> np.ndarray:
+    """Per X: how much the cheapest Zener and bleeder it can use cost above the group's cheapest
+    (a lower bound; _BIG where none can serve).
+
+    Zener: its power at the largest series resistance the load allows (the power falls as R
+    rises) must fit; bleeder: the discharge rule at this capacitance caps its resistance.
     """
+    req, pol = setup.req, setup.policy
+    xo = setup.xo
+    cx = xo.attrs["value"][xs]
+    xtol = np.nan_to_num(xo.attrs["tolerance"][xs], nan=0.2)
+    zero = np.zeros(len(xs))
+    r_use = np.maximum(r_hi, 1e-3)
+    b = _screen_bounds(
+        req,
+        G.topology,
+        G.vz,
+        cx,
+        xtol,
+        r_use,
+        zero,
+        G.vf_lo,
+        G.vf_hi,
+        G.ztol_min,
+        G.zz_min,
+        surge=False,
+    )
+    zsel = _cheapest_at_least(G.z_cap, G.zo.key, b["max_zener_power_w"])
+    z_extra = np.where(zsel >= 0, G.zo.key[np.maximum(zsel, 0)] - int(np.min(G.zo.key)), _BIG)
+    limit_v, allowed_s, tau_rule = _PROFILE_LIMITS[req.conditions.profile]
+    c_dis = cx * (1 + xtol)
+    v0 = _SQRT2 * req.mains.high_v
+    if tau_rule:
+        rb_hi = allowed_s / (c_dis * (1 - SCREEN_SLACK))
+    else:
+        rb_hi = allowed_s / (c_dis * math.log(max(v0 / limit_v, 1.0 + 1e-12)) * (1 - SCREEN_SLACK))
+    if req.conditions.profile == "iec60335":
+        rb_hi = np.where(cx * (1 - xtol) <= _EXEMPT_C, np.inf, rb_hi)
+    bsel = G.b_table.query(np.zeros(len(xs)), rb_hi)
+    b_min = G.min_comp_key - (
+        int(np.min(G.zo.key)) + int(np.min(G.rect.key)) + int(np.min(G.co.key))
+    )
+    b_extra = np.where(bsel >= 0, setup.bo.key[np.maximum(bsel, 0)] - b_min, _BIG)
+    del pol
+    return np.minimum(z_extra + b_extra, _BIG)
+
+
+def _screen_batch(setup: _Setup, G: _Group, xs: np.ndarray, budget: int, stats: dict):
+    """One batch of _screen_chunk."""
     req, pol = setup.req, setup.policy
     xo, ro = setup.xo, setup.ro
     s0 = _context_scalars(req)
@@ -1160,7 +1243,8 @@ def _screen_chunk(setup: _Setup, G: _Group, xs: np.ndarray, budget: int, stats: 
     # the cheapest completion: Zener, rectifier, reservoir, bleeder, and a fuse unless the
     # series resistor is fusible
     fuse_min = int(np.min(setup.fo.key)) if len(setup.fo) else 0
-    m = kx + G.min_comp_key + np.where(ro.attrs["fusible_flag"][rg], 0, fuse_min) < budget
+    comp_lb = G.min_comp_key + _x_completion_lb(setup, G, xs, r_hi)[xpos]
+    m = kx + comp_lb + np.where(ro.attrs["fusible_flag"][rg], 0, fuse_min) < budget
     xg, rg, kx = xg[m], rg[m], kx[m]
     if len(xg) == 0:
         return None
@@ -1835,6 +1919,7 @@ def design(
     pending: list[list[Any]] = []  # [keys, xs, rs, group, pointer]
     found: list[tuple[int, Any]] = []
     cuts: dict[tuple[int, int], float] = {}
+    eager_limit = 40
 
     def bound() -> int:
         if len(found) < req.top:
@@ -1868,7 +1953,10 @@ def design(
                 if head is None:
                     break
                 lbk = int(head[0][head[4]])
-                if lbk >= nxt or lbk >= bound():
+                # without a verified set, check the best pending point at once (out of order,
+                # which costs nothing in exactness): its cost then prunes the screen
+                eager = len(found) < req.top and stats["verified"] < eager_limit
+                if (lbk >= nxt and not eager) or lbk >= bound():
                     break
                 xi, ri, G = int(head[1][head[4]]), int(head[2][head[4]]), head[3]
                 guess = tuple(int(v) for v in head[5][head[4]])
@@ -1898,8 +1986,10 @@ def design(
                         cuts[ck] = min(cuts.get(ck, math.inf), r_corner)
             if stats.get("verify_limit") or g is None or nxt >= bound():
                 break
-            xs = g.xkeep[g.cursor : g.cursor + chunk]
-            g.cursor += chunk
+            # small chunks until a set is verified (its cost then prunes the rest), then larger
+            size = chunk if found else min(chunk, 4 << min(done_chunks, 6))
+            xs = g.xkeep[g.cursor : g.cursor + size]
+            g.cursor += size
             out = _screen_chunk(setup, g, xs, bound(), stats)
             if out is not None:
                 pending.append([out[2], out[0], out[1], g, 0, out[3]])
