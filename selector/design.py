@@ -159,6 +159,8 @@ class Design:
     binding: list[str]
     circuit: Any = None
     rated_parts: dict[str, list[R.RatedPart]] = field(default_factory=dict)
+    #: how the search went: points screened, candidates verified, and whether it was exhaustive
+    search: dict[str, Any] = field(default_factory=dict)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -2003,7 +2005,22 @@ def design(
     setup.stats = stats
     if not found:
         raise _infeasible(setup, stats, verified=stats["verified"])
-    return [_to_design(setup, rank + 1, res) for rank, (_, res) in enumerate(found[: req.top])]
+    out = [_to_design(setup, rank + 1, res) for rank, (_, res) in enumerate(found[: req.top])]
+    limited = bool(stats.get("verify_limit") or stats.get("pairs_truncated"))
+    search = {
+        "points_screened": int(stats["points"]),
+        "candidates_verified": int(stats["verified"]),
+        "x_pairs": int(stats.get("pairs", 0)),
+        "exhaustive": not limited,
+        "note": (
+            "search limited (verification or pair cap reached): cheapest found, not proven optimal"
+            if limited
+            else "optimal over the search space (screen bounds + exact check at every corner)"
+        ),
+    }
+    for d in out:
+        d.search = search
+    return out
 
 
 def _precheck(setup: _Setup) -> None:
@@ -2264,6 +2281,7 @@ def design_to_dict(d: Design) -> dict[str, Any]:
         "effective": d.effective,
         "worst_case": d.worst_case,
         "binding": d.binding,
+        "search": d.search,
         "checks": [
             {
                 "rule": f.rule,

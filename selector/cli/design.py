@@ -288,6 +288,8 @@ def _echo_design(d: Any, n: int, req: Any) -> None:
             ("no-load real power", w.no_load_real_power_w, "W", w.no_load_real_power_corner),
         ):
             typer.echo(f"    {label:<20} {format_value(val, unit):>10}   {describe_corner(corner)}")
+    if d.search:
+        typer.echo(f"  search: {d.search['note']}")
     typer.echo(f"  checks (binding: {', '.join(d.binding)}):")
     for f in d.checks:
         if f.stress is None or f.unit == "class":
