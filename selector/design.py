@@ -435,40 +435,6 @@ def _window_pairs(
     return ia, ib, truncated
 
 
-def _x_pairs(single: _Options, minimize: str) -> _Options:
-    """Singles plus every unordered pair (i <= j) in parallel; pair ratings = the weaker one."""
-    n = len(single)
-    i, j = np.triu_indices(n)
-    v = single.attrs["value"]
-    t = np.nan_to_num(single.attrs["tolerance"], nan=0.2)
-    attrs: dict[str, np.ndarray] = {}
-    for k, arr in single.attrs.items():
-        if k == "value":
-            attrs[k] = np.concatenate([arr, arr[i] + arr[j]])
-        elif k == "tolerance":
-            tw = (v[i] * t[i] + v[j] * t[j]) / (v[i] + v[j])
-            attrs[k] = np.concatenate([t, tw])
-        else:
-            attrs[k] = np.concatenate([arr, np.fmin(arr[i], arr[j])])
-    rows = list(single.rows) + [single.rows[a] + single.rows[b] for a, b in zip(i, j, strict=True)]
-    price = np.concatenate([single.price, single.price[i] + single.price[j]])
-    area = np.concatenate([single.area, single.area[i] + single.area[j]])
-    count = np.concatenate([single.count, single.count[i] + single.count[j]])
-    arrs = list(single.arrangement) + ["parallel"] * len(i)
-    qty = np.concatenate([single.qty, np.full(len(i), 2)])
-    return _Options(
-        single.role,
-        rows,
-        qty,
-        arrs,
-        objective_key(price, area, count, minimize),
-        price,
-        area,
-        count,
-        attrs,
-    )
-
-
 # ---------------------------------------------------------------------------------------------
 # sorted look-ups
 
@@ -785,6 +751,7 @@ def _screen_bounds(
     ztol_min: float = 0.0,
     zz_min: float = 0.0,
     surge: bool = True,
+    rd_max: float = 0.0,
 ) -> dict[str, np.ndarray]:
     """Bounds of the exact worst-case figures, widened by SCREEN_SLACK.
 
@@ -840,7 +807,7 @@ def _screen_bounds(
         "inrush_series_r_energy_j": 0.5 * c_max * v_on**2 * lb,
         "inrush_i2t_a2s": v_on**2 * c_max / (2 * r_min) * lb,
         "inrush_x_cap_dvdt_v_per_s": i_on / c_max * lb,
-        **(_surge_bounds(req.conditions.surge_v, r_min, c_max, lb) if surge else {}),
+        **(_surge_bounds(req.conditions.surge_v, r_min, c_max, lb, rd_max) if surge else {}),
         "series_resistance_ohm": r_min,
         "c_max": c_max,
         "c_min_nom": c_nom * (1 - c_tol),
@@ -850,59 +817,28 @@ def _screen_bounds(
     return out
 
 
-#: IEC 61000-4-5 combination wave: 1.2 us front time of the open-circuit voltage [S]
-_SURGE_FRONT_S: Final[float] = 1.2e-6
-#: IEC 61000-4-5: effective output impedance of the generator, line to line [S]
-_SURGE_Z_OHM: Final[float] = 2.0
-
-
-def _surge_vr_lb(vs: float, r: Any, c: Any) -> Any:
-    """Lower bound of the surge peak voltage across the series resistance [V].
-
-    The front of the wave rises to Vs in about t_f (1.2 us; the bound uses 2 t_f, a slower
-    front, to stay below any faithful model): through (R + 2 ohm) into C a linear ramp gives
-    i(t_f) = (Vs / (R + 2)) (tau / t_f) (1 - exp(-t_f / tau)), tau = (R + 2) C (RC ramp
-    response, textbook [S]); V_R = i R. For tau >> t_f this is Vs R / (R + 2); for tau << t_f
-    it is the capacitor's charging current C Vs / t_f times R.
-    """
-    rz = r + _SURGE_Z_OHM
-    tf = 2 * _SURGE_FRONT_S
-    tau = rz * c
-    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        frac = np.where(tau > 0, tau / tf * (1 - np.exp(-tf / np.maximum(tau, 1e-30))), 0.0)
-    return vs * r / rz * frac
-
-
-#: IEC 61000-4-5 combination wave: 50 us time to half value of the open-circuit voltage [S]
-_SURGE_HALF_S: Final[float] = 50e-6
-
-
-def _surge_energy_lb(vs: float, r_min: Any, r_max: Any, c: Any) -> Any:
-    """Lower bound of the surge energy in the series resistance [J].
-
-    Between the end of the front and the time to half value the open-circuit voltage stays
-    above Vs / 2 while the capacitor has charged by at most Vs t / ((R + 2) C), so the current
-    is at least (Vs / 2) (1 - t_half / ((R + 2) C)) / (R + 2) for (t_half - t_front).
-    """
-    rz_lo = r_min + _SURGE_Z_OHM
-    rz_hi = r_max + _SURGE_Z_OHM
-    i = 0.5 * vs * np.maximum(1 - _SURGE_HALF_S / (rz_lo * c), 0.0) / rz_hi
-    return r_min * i**2 * (_SURGE_HALF_S - _SURGE_FRONT_S)
-
-
 _SURGE_T: Final[np.ndarray] = np.geomspace(5e-9, 300e-6, 40)
 
 
-def _surge_bounds(vs: float, r: Any, c: Any, lb: float) -> dict[str, Any]:
+def _rd_max(rect: _Options, topology: str) -> float:
+    """Largest rectifier resistance in the surge loop [ohm]: two diodes of a bridge, one in
+    a half-wave (as the engine's surge model counts them)."""
+    rs = rect.attrs["rs_ohm"] if len(rect) else np.zeros(0)
+    if len(rs) == 0 or np.all(np.isnan(rs)):
+        return 0.0
+    return float(np.nanmax(rs)) * (2 if topology == "bridge" else 1)
+
+
+def _surge_bounds(vs: float, r: Any, c: Any, lb: float, rd: float = 0.0) -> dict[str, Any]:
     """Lower bounds of the surge stresses, vectorised, from the engine's own surge model.
 
     The loop (2 ohm generator + R) and C driven by the open-circuit 1.2/50 us double
     exponential ``v = A V (exp(-t/t2) - exp(-t/t1 - t/t2))`` (selector.engine.transients, whose
     constants are marked [M] there): i(t) = sum of four exponentials, solved exactly; the peak
     is taken over 40 sampled times (never above the true peak), the energy R integral(i^2) in
-    closed form. Evaluated at the lowest R and C of the tolerance band and scaled by ``lb``;
-    the rectifier's resistance, which only lowers the current, is left out of the loop (the
-    slack covers it).
+    closed form. Evaluated at the engine's transient corner (lowest R, highest C) with the
+    largest rectifier resistance ``rd`` in the loop (it only lowers the current), scaled by
+    ``lb`` (the slack).
     """
     from .engine import transients as T
 
@@ -916,7 +852,7 @@ def _surge_bounds(vs: float, r: Any, c: Any, lb: float) -> dict[str, Any]:
             "surge_series_r_peak_voltage_v": z,
             "surge_x_cap_dvdt_v_per_s": z,
         }
-    rl = T.SURGE_SOURCE_OHM + r
+    rl = T.SURGE_SOURCE_OHM + r + rd
     kappa = 1.0 / (rl * c)
     av = T.SURGE_A * vs
     rates = (1.0 / T.SURGE_TAU2_S, 1.0 / T.SURGE_TAU1_S + 1.0 / T.SURGE_TAU2_S)
@@ -1290,7 +1226,11 @@ def _screen_batch(setup: _Setup, G: _Group, xs: np.ndarray, budget: int, stats: 
     }
     b.update(
         _surge_bounds(
-            req.conditions.surge_v, b["series_resistance_ohm"], b["c_max"], 1 - SCREEN_SLACK
+            req.conditions.surge_v,
+            b["series_resistance_ohm"],
+            b["c_max"],
+            1 - SCREEN_SLACK,
+            _rd_max(G.rect, G.topology),
         )
     )
     s = {**s0, **b, "load_a": avg_a}
@@ -1402,7 +1342,17 @@ def _prune(setup, topology, vz, vf_lo, vf_hi, z_cap_max, ztol_min=0.0, zz_min=0.
     )
     rk = b["min_dc_current_a"] >= need
     b2 = _screen_bounds(
-        req, topology, vz, np.full(n, c_least), np.zeros(n), r_tot, rtol, vf_lo, vf_hi, ztol_min
+        req,
+        topology,
+        vz,
+        np.full(n, c_least),
+        np.zeros(n),
+        r_tot,
+        rtol,
+        vf_lo,
+        vf_hi,
+        ztol_min,
+        rd_max=_rd_max(setup.rect[topology], topology),
     )
     s = {**s0, **b2, "load_a": 0.0}
     rns = ro.ns()
