@@ -4,12 +4,11 @@ from __future__ import annotations
 
 import math
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
 import typer
 
 from ..cautions import CAUTIONS
-from ..engine import Analysis, analyse
 from ..errors import EXIT_FINDINGS
 from ..units import format_value
 from ._app import app, echo_cautions, print_json, to_jsonable
@@ -50,6 +49,9 @@ from ._circuit import (
     mains_from_options,
     tolerances_from_options,
 )
+
+if TYPE_CHECKING:
+    from ..engine import Analysis
 
 
 @app.command()
@@ -105,6 +107,8 @@ def check(
         dropout=dropout,
         quiescent=quiescent,
     )
+    from ..engine import analyse
+
     result = analyse(
         circuit,
         mains_from_options(mains, mains_tol, freq),

@@ -11,34 +11,85 @@ Public surface (SI floats throughout)::
 
 from __future__ import annotations
 
-from . import closed_form
-from .analysis import Analysis, Corner, Nominal, WorstCase, analyse, corner_circuit, corners
-from .circuit import (
-    DISCHARGE_PROFILES,
-    TOPOLOGIES,
-    Circuit,
-    Conditions,
-    Load,
-    Mains,
-    Regulator,
-    Tolerances,
-)
-from .steady_state import SteadyState, solve_steady_state
-from .transients import (
-    DISCHARGE_RULES,
-    Discharge,
-    Holdup,
-    Inrush,
-    Startup,
-    Surge,
-    discharge,
-    holdup,
-    inrush,
-    startup,
-    surge,
-    surge_wave,
-)
-from .waveforms import switch_on_waveform, waveforms
+from importlib import import_module
+from typing import TYPE_CHECKING
+
+# Names are loaded on first use (PEP 562), so `import selector.engine.circuit` - all the CLI needs
+# to declare its options - does not pull numpy into `dropper --help`.
+_WHERE = {
+    "closed_form": None,
+    "Analysis": "analysis",
+    "Corner": "analysis",
+    "Nominal": "analysis",
+    "WorstCase": "analysis",
+    "analyse": "analysis",
+    "corner_circuit": "analysis",
+    "corners": "analysis",
+    "DISCHARGE_PROFILES": "circuit",
+    "TOPOLOGIES": "circuit",
+    "Circuit": "circuit",
+    "Conditions": "circuit",
+    "Load": "circuit",
+    "Mains": "circuit",
+    "Regulator": "circuit",
+    "Tolerances": "circuit",
+    "SteadyState": "steady_state",
+    "solve_steady_state": "steady_state",
+    "DISCHARGE_RULES": "transients",
+    "Discharge": "transients",
+    "Holdup": "transients",
+    "Inrush": "transients",
+    "Startup": "transients",
+    "Surge": "transients",
+    "discharge": "transients",
+    "holdup": "transients",
+    "inrush": "transients",
+    "startup": "transients",
+    "surge": "transients",
+    "surge_wave": "transients",
+    "switch_on_waveform": "waveforms",
+    "waveforms": "waveforms",
+}
+
+
+def __getattr__(name: str):
+    if name not in _WHERE:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    module = import_module(f".{_WHERE[name] or name}", __name__)
+    value = module if _WHERE[name] is None else getattr(module, name)
+    globals()[name] = value
+    return value
+
+
+if TYPE_CHECKING:  # pragma: no cover
+    from . import closed_form
+    from .analysis import Analysis, Corner, Nominal, WorstCase, analyse, corner_circuit, corners
+    from .circuit import (
+        DISCHARGE_PROFILES,
+        TOPOLOGIES,
+        Circuit,
+        Conditions,
+        Load,
+        Mains,
+        Regulator,
+        Tolerances,
+    )
+    from .steady_state import SteadyState, solve_steady_state
+    from .transients import (
+        DISCHARGE_RULES,
+        Discharge,
+        Holdup,
+        Inrush,
+        Startup,
+        Surge,
+        discharge,
+        holdup,
+        inrush,
+        startup,
+        surge,
+        surge_wave,
+    )
+    from .waveforms import switch_on_waveform, waveforms
 
 __all__ = [
     "DISCHARGE_PROFILES",
