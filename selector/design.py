@@ -620,6 +620,9 @@ def _prepare(df_all: pd.DataFrame, req: Requirement, policy: Policy) -> _Setup:
         ),
         k,
     )
+    # an option that another of the same resistance, tolerance and fusibility beats in every
+    # rating at no higher cost can be left out (the R rules only ever ask for more rating)
+    ro = ro.take(_pareto_r(ro, np.arange(len(ro)), k))
     # bleeders: 1-3 equal in series, intrinsic rules (power at high line, voltage) screened
     bi = ri[rv >= 1e3 / 3]
     bo = _single_options(df, bi, "bleeder", mz, [1, 2, 3], "series")
@@ -1352,7 +1355,7 @@ def _prune(setup, topology, vz, vf_lo, vf_hi, z_cap_max, ztol_min=0.0, zz_min=0.
         vf_lo,
         vf_hi,
         ztol_min,
-        rd_max=_rd_max(setup.rect[topology], topology),
+        surge=False,
     )
     s = {**s0, **b2, "load_a": 0.0}
     rns = ro.ns()
@@ -1360,14 +1363,23 @@ def _prune(setup, topology, vz, vf_lo, vf_hi, z_cap_max, ztol_min=0.0, zz_min=0.
         "series_r.power",
         "series_r.switch_on_energy",
         "series_r.switch_on_voltage",
-        "series_r.surge_voltage",
         "series_r.peak_voltage",
     ):
         st, lim, _ = _rule(rid).check(s, rns, pol)
         rk &= np.asarray(st <= lim)
     rk &= b2["max_series_r_power_w"] <= pol.standby_limit_w
     rkeep = np.flatnonzero(rk)
-    rkeep = _pareto_r(ro, rkeep, setup.req.top)
+    # the surge rule (costlier bound) on the survivors only
+    if len(rkeep):
+        sb = _surge_bounds(
+            req.conditions.surge_v,
+            b2["series_resistance_ohm"][rkeep],
+            np.full(len(rkeep), c_least),
+            1 - SCREEN_SLACK,
+            _rd_max(setup.rect[topology], topology),
+        )
+        st, lim, _ = _rule("series_r.surge_voltage").check(sb, ro.ns(rkeep), pol)
+        rkeep = rkeep[np.asarray(st <= lim)]
     return xkeep, rkeep
 
 
@@ -1480,20 +1492,28 @@ def _pareto_r(ro: _Options, idx: np.ndarray, keep: int) -> np.ndarray:
     key = ro.key[idx]
     _, inv = np.unique(grp, axis=0, return_inverse=True)
     inv = np.asarray(inv).ravel()
-    out = []
-    for g in np.unique(inv):
-        m = np.flatnonzero(inv == g)
-        c = cap[m]
-        k = key[m]
-        # dom[i, j]: j dominates i
-        ge = np.all(c[None, :, :] >= c[:, None, :], axis=2)
-        better = (k[None, :] < k[:, None]) | (
-            (k[None, :] == k[:, None]) & np.any(c[None, :, :] > c[:, None, :], axis=2)
-        )
-        dom = ge & better
-        np.fill_diagonal(dom, False)
-        out.append(m[dom.sum(axis=1) < keep])
-    return np.sort(idx[np.concatenate(out)])
+    order = np.argsort(inv, kind="stable")
+    inv_s = inv[order]
+    starts = np.flatnonzero(np.r_[True, inv_s[1:] != inv_s[:-1]])
+    sizes = np.diff(np.r_[starts, len(inv_s)])
+    keep_mask = np.zeros(len(idx), dtype=bool)
+    # groups of one: nothing to compare; larger ones in buckets of equal size, vectorised
+    keep_mask[order[starts[sizes == 1]]] = True
+    for size in np.unique(sizes[sizes > 1]):
+        st = starts[sizes == size]
+        for b0 in range(0, len(st), 4096):
+            sb = st[b0 : b0 + 4096]
+            m = order[sb[:, None] + np.arange(size)[None, :]]  # (groups, size)
+            c = cap[m]  # (groups, size, 5)
+            k = key[m]  # (groups, size)
+            # dom[g, i, j]: j dominates i (ratings all >=, and cheaper or strictly better)
+            ge = np.all(c[:, None, :, :] >= c[:, :, None, :], axis=3)
+            gt = np.any(c[:, None, :, :] > c[:, :, None, :], axis=3)
+            better = (k[:, None, :] < k[:, :, None]) | ((k[:, None, :] == k[:, :, None]) & gt)
+            dom = ge & better
+            dom[:, np.arange(size), np.arange(size)] = False
+            keep_mask[m[dom.sum(axis=2) < keep]] = True
+    return np.sort(idx[keep_mask])
 
 
 def _tally(stats: dict, rule_id: str, bad: np.ndarray) -> None:
