@@ -1062,8 +1062,8 @@ def _r_window_hi(req, topology, vz, vf_lo, c_min, need):
     return np.where(k >= 1, r, -1.0)
 
 
-#: the screen works on at most this many points at a time (bounds the memory)
-_POINTS_PER_BATCH: Final[int] = 150_000
+#: the ragged expansion of X by R windows works on at most this many pairs at a time
+_POINTS_PER_BATCH: Final[int] = 2_000_000
 
 
 def _screen_chunk(setup: _Setup, G: _Group, xs: np.ndarray, budget: int, stats: dict):
@@ -1152,8 +1152,7 @@ def _screen_batch(setup: _Setup, G: _Group, xs: np.ndarray, budget: int, stats: 
     """One batch of _screen_chunk."""
     req, pol = setup.req, setup.policy
     xo, ro = setup.xo, setup.ro
-    s0 = _context_scalars(req)
-    avg_a, peak_a = _bus_demand(req)
+    avg_a, _ = _bus_demand(req)
     need = avg_a * (1 + pol.load_margin)
     xtol = np.nan_to_num(xo.attrs["tolerance"][xs], nan=0.2)
     cx = xo.attrs["value"][xs]
@@ -1189,6 +1188,30 @@ def _screen_batch(setup: _Setup, G: _Group, xs: np.ndarray, budget: int, stats: 
     xg, rg, kx = xg[m], rg[m], kx[m]
     if len(xg) == 0:
         return None
+    # the physics in slices of bounded size
+    outs = []
+    for s0_ in range(0, len(xg), _PHYSICS_SLICE):
+        sl = slice(s0_, s0_ + _PHYSICS_SLICE)
+        out = _screen_points(setup, G, xg[sl], rg[sl], kx[sl], budget, stats)
+        if out is not None:
+            outs.append(out)
+    if not outs:
+        return None
+    if len(outs) == 1:
+        return outs[0]
+    return tuple(np.concatenate([o[i] for o in outs]) for i in range(4))
+
+
+#: points per slice of the physics screen (bounds the memory of the bound arrays)
+_PHYSICS_SLICE: Final[int] = 150_000
+
+
+def _screen_points(setup: _Setup, G: _Group, xg, rg, kx, budget: int, stats: dict):
+    """The physics screen of a set of points (X index, R index, their key)."""
+    req, pol = setup.req, setup.policy
+    xo, ro = setup.xo, setup.ro
+    s0 = _context_scalars(req)
+    avg_a, peak_a = _bus_demand(req)
     rtol = np.nan_to_num(ro.attrs["tolerance"][rg], nan=0.05)
     r_tot = ro.attrs["value"][rg] * ro.qty[rg]
     b = _screen_bounds(
