@@ -1199,7 +1199,9 @@ def _screen_batch(setup: _Setup, G: _Group, xs: np.ndarray, budget: int, stats: 
         return None
     if len(outs) == 1:
         return outs[0]
-    return tuple(np.concatenate([o[i] for o in outs]) for i in range(4))
+    xg, rg, key, comp = (np.concatenate([o[i] for o in outs]) for i in range(4))
+    order = np.argsort(key, kind="stable")  # the pending lists must stay in key order
+    return xg[order], rg[order], key[order], comp[order]
 
 
 #: points per slice of the physics screen (bounds the memory of the bound arrays)
