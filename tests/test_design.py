@@ -268,3 +268,18 @@ def test_bom_written_atomically_with_formula_cells_escaped(tmp_path):
     assert not [p for p in tmp_path.iterdir() if p.name.startswith(".bom-")]
     for cell in ("+1", "-1", "@x", "=1"):
         assert D._cell(cell) == "'" + cell
+
+
+@pytest.mark.parametrize("req", _random_requirements(22)[:8], ids=lambda r: f"{r.load_a * 1e3:g}mA")
+def test_tiny_batches_give_the_same_optimum(req, monkeypatch):
+    # the screen splits work into batches and slices; the branch and bound must not depend on
+    # where the cuts fall (regression: slices once left the pending list out of key order)
+    monkeypatch.setattr(D, "_PHYSICS_SLICE", 7)
+    monkeypatch.setattr(D, "_POINTS_PER_BATCH", 23)
+    brute = _brute(req)
+    if brute is None:
+        with pytest.raises(InfeasibleError):
+            D.design(CAT, req, Policy(), analyse=standin_analyse)
+        return
+    got = D.design(CAT, req, Policy(), analyse=standin_analyse)
+    assert design_key(got[0], req.minimize) == brute[0]
