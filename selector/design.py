@@ -1763,7 +1763,9 @@ def _verify(setup, topology, vz, xi, ri, scr):
                 for name, v in zip(
                     ("zener", "rectifier", "reservoir", "bleeder"), new, strict=True
                 ):
-                    if v < 0:
+                    if v == _BLOCKED_BY_STANDBY:
+                        fails["whole.standby_power"] = fails.get("whole.standby_power", 0) + 1
+                    elif v < 0:
                         fails[name + ".*"] = fails.get(name + ".*", 0) + 1
             return None
         if new == (zi, di, ci, bi):
@@ -1811,6 +1813,7 @@ def _best_passing(
         return -1
     ns = opts.ns()
     ok = np.ones(len(opts), dtype=bool)
+    standby_ok = None
     if role == "bleeder" and rb_now is not None and "total_ohm" in opts.attrs:
         ratio = opts.attrs["total_ohm"] / rb_now
         s = dict(s)
@@ -1822,7 +1825,9 @@ def _best_passing(
             s["max_bleeder_power_w"] = pb / ratio
             nl = s.get("no_load_real_power_w")
             if not _missing(nl):
-                ok &= nl + pb * (1 / ratio - 1) <= setup.policy.standby_limit_w
+                standby_ok = nl + pb * (1 / ratio - 1) <= setup.policy.standby_limit_w
+    else:
+        standby_ok = None
     for rule in R.rules_for(role):
         if rule.role == "whole" or rule.applies is not None:
             continue
@@ -1836,10 +1841,18 @@ def _best_passing(
         ok &= cmin >= deficit * s["burst_duration_s"] / (
             s["zener_voltage_v"] * setup.policy.burst_droop_fraction
         )
+    if standby_ok is not None:
+        if ok.any() and not (ok & standby_ok).any():
+            return _BLOCKED_BY_STANDBY  # the bleeder's own rules pass; the whole-supply rule fails
+        ok &= standby_ok
     idx = np.flatnonzero(ok)
     if len(idx) == 0:
         return -1
     return int(idx[np.argmin(opts.key[idx])])
+
+
+#: returned by _best_passing when only the no-load (standby) power limit rejects every bleeder
+_BLOCKED_BY_STANDBY: Final = -2
 
 
 def _missing(v: Any) -> bool:
@@ -2108,6 +2121,17 @@ def _infeasible(setup: _Setup, stats: dict, verified: int = 0) -> InfeasibleErro
     comp = stats.get("completion", {})
     blk = stats.get("blocking", {})
     if verified:
+        fails = stats.get("exact_fail", {})
+        if fails:
+            rid = max(fails.items(), key=lambda kv: kv[1])[0]
+            hint = _HINTS.get(rid, "a lower surge level or a looser --policy")
+            return InfeasibleError(
+                f"blocked by rule {rid}: the {verified} candidates the screen let through all fail "
+                f"the exact check at some corner ({rid} most often, {fails[rid]} times); "
+                f"relax: {hint}",
+                rule=rid,
+                relaxation=hint,
+            )
         return InfeasibleError(
             f"no design passes every rule at every corner: the {verified} candidates the screen "
             "let through all fail the exact check; relax: a lower surge level or a looser "

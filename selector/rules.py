@@ -915,10 +915,13 @@ def _corner_text(c: Any) -> str:
                 parts.append(label + format_value(float(v), unit, digits=3))
         if "loaded" in c:
             parts.append("loaded" if c["loaded"] else "no load")
+        load = c.get("load_a")
+        if isinstance(load, (int, float)) and "loaded" not in c:
+            parts.append(f"load {format_value(float(load), 'A')}" if load > 0 else "no load")
         rest = [
             f"{k}={v}"
             for k, v in c.items()
-            if k not in {f[0] for f in _CORNER_FIELDS} and k != "loaded"
+            if k not in {f[0] for f in _CORNER_FIELDS} and k not in {"loaded", "load_a"}
         ]
         return " ".join(parts + rest)
     if dataclasses.is_dataclass(c):
