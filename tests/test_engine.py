@@ -261,3 +261,18 @@ def test_periodic_orbit_balances_charge(c, r, vz, v, f, top, load_frac, resistiv
     scale = s.line_current_rms_a
     assert abs(m(o["i_res"])) < 1e-4 * scale
     assert abs(m(o["i_line"]) - m(o["v_c"]) / 1e6) < 1e-4 * scale
+
+
+def test_package_names_resolve_to_the_functions_not_their_modules() -> None:
+    # the engine package loads names lazily; a submodule named like a function (waveforms)
+    # must not shadow the function, whichever name is asked for first (regression)
+    import subprocess
+    import sys
+
+    code = (
+        "import selector.engine as e; e.switch_on_waveform; "
+        "from selector.engine import waveforms, analyse, closed_form; "
+        "import types; assert callable(waveforms) and callable(analyse); "
+        "assert isinstance(closed_form, types.ModuleType)"
+    )
+    subprocess.run([sys.executable, "-c", code], check=True)

@@ -55,10 +55,17 @@ _WHERE = {
 def __getattr__(name: str):
     if name not in _WHERE:
         raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-    module = import_module(f".{_WHERE[name] or name}", __name__)
-    value = module if _WHERE[name] is None else getattr(module, name)
-    globals()[name] = value
-    return value
+    where = _WHERE[name] or name
+    module = import_module(f".{where}", __name__)
+    if _WHERE[name] is None:
+        globals()[name] = module
+        return module
+    # bind every name of that module now: importing `.waveforms` also binds the package
+    # attribute `waveforms` to the module, which must not shadow the function of that name
+    for other, home in _WHERE.items():
+        if home == where:
+            globals()[other] = getattr(module, other)
+    return globals()[name]
 
 
 if TYPE_CHECKING:  # pragma: no cover
