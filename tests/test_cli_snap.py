@@ -115,3 +115,18 @@ def test_every_command_has_help():
         assert (cmd.help or "").strip(), f"command {name} has no help text"
         result = runner.invoke(app, [name, "--help"])
         assert result.exit_code == 0
+
+
+def test_an_internal_error_is_one_line_with_its_own_exit_code(monkeypatch):
+    # a bug must not print a traceback at the user (DOMAIN.md section 9: one `Error:` line);
+    # exit code 3 keeps it apart from bad input (2) and findings (1)
+    from selector import snapping
+
+    def broken(*args, **kwargs):
+        raise ZeroDivisionError("boom")
+
+    monkeypatch.setattr(snapping, "snap_texts", broken)
+    result = runner.invoke(app, ["snap", "1"])
+    assert result.exit_code == 3
+    assert result.stderr.count("\n") == 1
+    assert result.stderr.startswith("Error: internal error (ZeroDivisionError: boom)")

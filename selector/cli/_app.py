@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import json
 import math
+import os
 import sys
 from typing import Any
 
@@ -16,6 +17,9 @@ import typer
 import typer.core
 
 from ..errors import EXIT_BAD_INPUT, DropperError
+
+#: exit code for a bug in dropper itself (outside the 0 / 1 / 2 contract, so scripts notice)
+EXIT_INTERNAL = 3
 
 __all__ = ["app", "echo_cautions", "fail", "print_json", "to_jsonable"]
 
@@ -48,7 +52,14 @@ class _Group(typer.core.TyperGroup):
                     typer.echo(exc.format_message())
                     sys.exit(0)
                 _error(exc.format_message(), EXIT_BAD_INPUT)
-            raise
+            if os.environ.get("DROPPER_DEBUG"):
+                raise
+            # a bug of ours: still one line, but with its own code so CI can tell it apart
+            _error(
+                f"internal error ({type(exc).__name__}: {exc}); please report it, and set "
+                "DROPPER_DEBUG=1 to see the traceback",
+                EXIT_INTERNAL,
+            )
         sys.exit(rv if isinstance(rv, int) else 0)
 
 
