@@ -1754,7 +1754,9 @@ def _verify(setup, topology, vz, xi, ri, scr):
         new = (
             _best_passing(setup, zo, "zener", s),
             _best_passing(setup, rect, "rectifier", s),
-            _best_passing(setup, co, "reservoir", {**s, "reservoir_min_f": 0.0}),
+            _best_passing(
+                setup, co, "reservoir", {**s, "reservoir_min_f": 0.0}, c_now=circ.reservoir_f
+            ),
             _best_passing(setup, bo, "bleeder", s, rb_now=circ.bleeder_resistance_ohm),
         )
         if any(v < 0 for v in new):
@@ -1801,7 +1803,12 @@ def _verify(setup, topology, vz, xi, ri, scr):
 
 
 def _best_passing(
-    setup, opts: _Options, role: str, s: dict[str, Any], rb_now: float | None = None
+    setup,
+    opts: _Options,
+    role: str,
+    s: dict[str, Any],
+    rb_now: float | None = None,
+    c_now: float | None = None,
 ) -> int:
     """Cheapest option of ``opts`` that passes every rule of ``role`` under stresses ``s``.
 
@@ -1814,6 +1821,10 @@ def _best_passing(
     ns = opts.ns()
     ok = np.ones(len(opts), dtype=bool)
     standby_ok = None
+    if role == "reservoir" and c_now and not _missing(s.get("max_output_ripple_v")):
+        # ripple between charging pulses scales as 1 / C (C dV = I dt [S]) for each candidate
+        s = dict(s)
+        s["max_output_ripple_v"] = s["max_output_ripple_v"] * c_now / opts.attrs["value"]
     if role == "bleeder" and rb_now is not None and "total_ohm" in opts.attrs:
         ratio = opts.attrs["total_ohm"] / rb_now
         s = dict(s)
@@ -2122,13 +2133,18 @@ def _infeasible(setup: _Setup, stats: dict, verified: int = 0) -> InfeasibleErro
     blk = stats.get("blocking", {})
     if verified:
         fails = stats.get("exact_fail", {})
+        limited = (
+            " (search limited: the verification cap was reached, so a passing set may exist)"
+            if stats.get("verify_limit")
+            else ""
+        )
         if fails:
             rid = max(fails.items(), key=lambda kv: kv[1])[0]
             hint = _HINTS.get(rid, "a lower surge level or a looser --policy")
             return InfeasibleError(
                 f"blocked by rule {rid}: the {verified} candidates the screen let through all fail "
-                f"the exact check at some corner ({rid} most often, {fails[rid]} times); "
-                f"relax: {hint}",
+                f"the exact check at some corner ({rid} most often, {fails[rid]} times)"
+                f"{limited}; relax: {hint}",
                 rule=rid,
                 relaxation=hint,
             )

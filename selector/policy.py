@@ -70,6 +70,8 @@ class Policy:
     standby_limit_w: float = 0.5
     #: whole: bus droop allowed during a load burst, fraction of the Zener voltage [P]
     burst_droop_fraction: float = 0.1
+    #: reservoir: steady output ripple (peak to peak, worst corner) <= Zener voltage x this [P]
+    output_ripple_fraction: float = 0.1
 
     def to_dict(self) -> dict[str, float]:
         return dataclasses.asdict(self)
@@ -91,6 +93,7 @@ _FRACTIONS: Final[frozenset[str]] = frozenset(
         "rectifier_surge_fraction",
         "fuse_i2t_fraction",
         "burst_droop_fraction",
+        "output_ripple_fraction",
     }
 )
 _MAY_BE_ZERO: Final[frozenset[str]] = frozenset({"load_margin", "reservoir_temp_margin_c"})

@@ -463,6 +463,11 @@ def _w_standby(s, p, pol):
     return s["no_load_real_power_w"], pol.standby_limit_w
 
 
+def _c_ripple_voltage(s, p, pol):
+    # steady output ripple p-p at the worst corner against a fraction of the bus voltage
+    return s["max_output_ripple_v"], s["zener_voltage_v"] * pol.output_ripple_fraction
+
+
 def _w_burst(s, p, pol):
     # reservoir droop during a burst the dropper cannot feed: dV = (I_burst - I_min) t / C_min
     deficit = np.maximum(s["burst_current_a"] - s["min_dc_current_a"], 0.0)
@@ -730,6 +735,17 @@ RULES: Final[tuple[Rule, ...]] = (
         ratings=("ripple_a",),
         stress_keys=("max_reservoir_ripple_current_a",),
         corner_key="max_reservoir_ripple_current_a",
+    ),
+    Rule(
+        "reservoir.output_ripple",
+        "reservoir",
+        "output ripple (peak to peak, worst corner) <= Zener voltage x policy fraction",
+        SOURCE_P + "; ripple of a reservoir between charging pulses, C dV = I dt [S]",
+        "V",
+        _c_ripple_voltage,
+        ratings=("value",),
+        stress_keys=("max_output_ripple_v", "zener_voltage_v"),
+        corner_key="max_output_ripple_v",
     ),
     Rule(
         "reservoir.temperature",

@@ -170,13 +170,13 @@ def test_help_text():
         assert opt in r.stdout
 
 
-def test_standby_limit_blocks_a_12v_15ma_supply():
+def test_standby_limit_blocks_a_12v_20ma_supply():
     # EU Regulation 2023/826: off/standby <= 0.5 W [S]. At no load a 12 V dropper sized for
-    # 15 mA (+10 % margin, low corner) dumps about 12.6 V x 33 mA ~ 0.42 W in the Zener at the
+    # 20 mA (+10 % margin, low corner) dumps about 12.6 V x 40 mA ~ 0.5 W in the Zener at the
     # high corner, plus the series resistor and bleeder, so no set passes: the error must name
     # the whole-supply rule, not a part.
     result = runner.invoke(
-        app, ["design", "--load", "15m", "--vout", "12", "--mains", "230", "--freq", "50"]
+        app, ["design", "--load", "20m", "--vout", "12", "--mains", "230", "--freq", "50"]
     )
     assert result.exit_code == 1
     assert "blocked by rule whole.standby_power" in result.stderr

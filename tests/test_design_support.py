@@ -256,6 +256,8 @@ def standin_analyse(circuit, mains, tol, cond):
         max_rectifier_reverse_voltage_v=vpk_hi,
         max_line_current_rms_a=irmax[3],
         max_reservoir_ripple_current_a=0.5 * i_hi,
+        # stand-in ripple: the load fed by the reservoir for a quarter cycle (C dV = I dt)
+        max_output_ripple_v=demand / (4 * min(f_set) * circuit.reservoir_f),
         no_load_real_power_w=pzmax[1] + prmax[2] + mains.nominal_v**2 / rb,
         load_met=imin[0] >= demand,
         load_margin_a=imin[0] - demand,

@@ -276,3 +276,28 @@ def test_package_names_resolve_to_the_functions_not_their_modules() -> None:
         "assert isinstance(closed_form, types.ModuleType)"
     )
     subprocess.run([sys.executable, "-c", code], check=True)
+
+
+def test_output_ripple_falls_with_the_reservoir() -> None:
+    # C dV = I dt [S]: between charging pulses the reservoir alone feeds the load, so the
+    # worst-corner ripple must shrink as the reservoir grows (roughly as 1/C while it is small)
+    from selector.engine import Conditions, Mains, Tolerances, analyse
+
+    def ripple(c_res: float) -> float:
+        circuit = Circuit(
+            topology="bridge",
+            x_capacitors_f=(330e-9,),
+            series_resistance_ohm=47.0,
+            bleeder_resistance_ohm=330e3,
+            zener_voltage_v=5.1,
+            reservoir_f=c_res,
+            load=Load(current_a=10e-3),
+        )
+        a = analyse(circuit, Mains(230.0, 0.10, (50.0, 60.0)), Tolerances(), Conditions())
+        assert a.worst_case.max_output_ripple_v >= a.nominal.ripple_v - 1e-12
+        return a.worst_case.max_output_ripple_v
+
+    r10, r22, r100 = ripple(10e-6), ripple(22e-6), ripple(100e-6)
+    assert r10 > r22 > r100
+    # the load cannot be carried by the reservoir for longer than a half cycle at 50 Hz
+    assert r10 <= 10e-3 * (1 / 100) / 10e-6

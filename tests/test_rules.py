@@ -235,6 +235,24 @@ def test_reservoir_voltage_vz_over_08():
     assert not _find(_eval({"reservoir": ok}, ambient_c=70.0), "reservoir.temperature").ok
 
 
+def test_reservoir_output_ripple():
+    # C dV = I dt [S, any circuits textbook]: 12 mA drawn for 5 ms from 100 uF droops 0.6 V.
+    droop = 12e-3 * 5e-3 / 100e-6
+    assert droop == pytest.approx(0.6)
+    # policy [P]: ripple p-p <= 10 % of the Zener voltage; on a 5.1 V bus the limit is 0.51 V
+    part = R.RatedPart("reservoir", value=100e-6, rated_voltage_v=10.0, temp_max_c=105.0)
+    over = _find(
+        _eval({"reservoir": part}, max_output_ripple_v=droop, zener_voltage_v=5.1),
+        "reservoir.output_ripple",
+    )
+    assert not over.ok and over.limit == pytest.approx(0.51)
+    under = _find(
+        _eval({"reservoir": part}, max_output_ripple_v=0.43, zener_voltage_v=5.1),
+        "reservoir.output_ripple",
+    )
+    assert under.ok
+
+
 def test_fuse_rules():
     # I^2t of RC charging V^2 C / (2 R) [S]: 357.8^2 x 330n / 940 = 4.49e-5 A^2 s
     i2t = (math.sqrt(2) * 253) ** 2 * 330e-9 / (2 * 470)

@@ -134,6 +134,9 @@ class WorstCase:
     max_output_voltage_corner: dict
     min_output_voltage_v: float
     min_output_voltage_corner: dict
+    #: largest peak-to-peak output ripple over the solved corners (reservoir sizing)
+    max_output_ripple_v: float
+    max_output_ripple_corner: dict
     max_rectifier_avg_current_a: float
     max_rectifier_peak_current_a: float
     max_rectifier_reverse_voltage_v: float
@@ -338,6 +341,8 @@ def analyse(
         max_output_voltage_corner=corner_of(s_pz),
         min_output_voltage_v=s_vmin.output_min_v,
         min_output_voltage_corner=corner_of(s_vmin),
+        max_output_ripple_v=max(s.ripple_v for s in solved),
+        max_output_ripple_corner=corner_of(max(solved, key=lambda s: s.ripple_v)),
         max_rectifier_avg_current_a=max(s.rectifier_avg_current_a for s in solved),
         max_rectifier_peak_current_a=rect_s.rectifier_peak_current_a,
         # design basis [P]: a shorted X capacitor or an open clamp puts the full crest across it
