@@ -17,9 +17,10 @@ import textwrap
 from pathlib import Path
 
 import pytest
+from catalogue_util import count_parts as _count
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
-from sqlalchemy import func, select
+from sqlalchemy import select
 
 from selector.catalogue import parts_frame
 from selector.catalogue.db import make_engine
@@ -46,14 +47,6 @@ def engine(catalogue_copy_url):
     eng = make_engine(catalogue_copy_url)
     yield eng
     eng.dispose()
-
-
-def _count(engine, source: str | None = None) -> int:
-    with engine.connect() as conn:
-        stmt = select(func.count()).select_from(Part)
-        if source is not None:
-            stmt = stmt.where(Part.source == source)
-        return conn.execute(stmt).scalar_one()
 
 
 def _snapshot(engine) -> tuple:

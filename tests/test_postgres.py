@@ -22,6 +22,7 @@ import uuid
 from pathlib import Path
 
 import pytest
+from catalogue_util import count_parts as _count
 from sqlalchemy import func, inspect, select, text
 from sqlalchemy.engine import make_url
 from sqlalchemy.exc import OperationalError
@@ -92,14 +93,6 @@ def pg_catalogue(pg_url):
     engine = open_catalogue(pg_url)
     yield engine
     engine.dispose()
-
-
-def _count(engine, source: str | None = None) -> int:
-    with engine.connect() as conn:
-        stmt = select(func.count()).select_from(Part)
-        if source is not None:
-            stmt = stmt.where(Part.source == source)
-        return conn.execute(stmt).scalar_one()
 
 
 def _snapshot(engine) -> tuple:
