@@ -211,7 +211,7 @@ def test_smd_only_removes_tht_parts_or_is_infeasible():
 def test_cheapest_at_least_matches_naive(caps, keys, needs):
     cap = np.array(caps)
     key = np.array(keys[: len(caps)], dtype=np.int64)
-    got = D._cheapest_at_least(cap, key, np.array(needs))
+    got = D.lookups.cheapest_at_least(cap, key, np.array(needs))
     for g, need in zip(got, needs, strict=True):
         ok = [i for i in range(len(cap)) if cap[i] >= need]
         if not ok:
@@ -230,7 +230,7 @@ def test_cheapest_at_least_matches_naive(caps, keys, needs):
 def test_range_min_matches_naive(vals, keys, lo, width):
     v = np.array(vals)
     k = np.array(keys[: len(vals)], dtype=np.int64)
-    rm = D._RangeMin(v, k)
+    rm = D.lookups.RangeMinimum(v, k)
     g = int(rm.query(np.array([lo]), np.array([lo + width]))[0])
     ok = [i for i in range(len(v)) if lo <= v[i] <= lo + width]
     if not ok:
@@ -267,15 +267,15 @@ def test_bom_written_atomically_with_formula_cells_escaped(tmp_path):
     assert {r["Role"] for r in rows} >= {"x_capacitor", "series_resistor", "bleeder", "zener"}
     assert not [p for p in tmp_path.iterdir() if p.name.startswith(".bom-")]
     for cell in ("+1", "-1", "@x", "=1"):
-        assert D._cell(cell) == "'" + cell
+        assert D.result.bom_cell(cell) == "'" + cell
 
 
 @pytest.mark.parametrize("req", _random_requirements(22)[:8], ids=lambda r: f"{r.load_a * 1e3:g}mA")
 def test_tiny_batches_give_the_same_optimum(req, monkeypatch):
     # the screen splits work into batches and slices; the branch and bound must not depend on
     # where the cuts fall (regression: slices once left the pending list out of key order)
-    monkeypatch.setattr(D, "_PHYSICS_SLICE", 7)
-    monkeypatch.setattr(D, "_POINTS_PER_BATCH", 23)
+    monkeypatch.setattr(D.screen, "PHYSICS_SLICE", 7)
+    monkeypatch.setattr(D.screen, "POINTS_PER_BATCH", 23)
     brute = _brute(req)
     if brute is None:
         with pytest.raises(InfeasibleError):

@@ -1,0 +1,191 @@
+"""Screen bounds: the engine's closed forms (DOMAIN.md section 2) as bounds of the exact worst-case
+figures, vectorised over grid points.
+
+Proof obligation: every figure returned here is a LOWER bound of the stress the exact engine
+reports at its worst corner (an UPPER bound for the minimum DC current), so a point whose bound
+already fails a rule fails it exactly. The closed forms are within 0.83 % of the exact solution
+(tests/test_closed_form.py); they are widened by ``SCREEN_SLACK`` (5 %) and ``CURRENT_SLACK`` (2 %
+for the current) so that this holds with room. The surge figures come from the engine's own
+surge model solved in closed form, sampled at times never above the true peak.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any, Final
+
+import numpy as np
+
+from .candidates import OptionTable
+from .requirement import SQRT2, Requirement
+
+#: relative widening of the closed-form screen (their error against the exact periodic solution
+#: is documented by the engine, <= 0.83 %; 5 % covers it with room) -- a larger value only
+#: costs time, a smaller one could drop a feasible set
+SCREEN_SLACK: Final[float] = 0.05
+
+
+#: the same for the minimum DC current, the quantity most candidates sit close to: the engine's
+#: R-corrected closed forms are within 0.83 % of the exact solution at zero load and within
+#: 0.3 % at full load (measured against analyse(), both topologies); 2 % covers that
+CURRENT_SLACK: Final[float] = 0.02
+
+
+def screen_bounds(
+    req: Requirement,
+    topology: str,
+    vz: float,
+    c_nom: np.ndarray,
+    c_tol: np.ndarray,
+    r_nom: np.ndarray,
+    r_tol: np.ndarray,
+    vf_lo: float,
+    vf_hi: float,
+    ztol_min: float = 0.0,
+    zz_min: float = 0.0,
+    surge: bool = True,
+    rd_max: float = 0.0,
+) -> dict[str, np.ndarray]:
+    """Bounds of the exact worst-case figures, widened by SCREEN_SLACK.
+
+    Upper bound of the minimum DC current; lower bounds of every stress. Closed forms:
+    bridge I_dc = 4 f C (Vpk - Vo') / sqrt(1 + (w R C)^2); half-wave I = f C (2 Vpk - Vz - 2 Vf)
+    / sqrt(1 + (w R C)^2); switch-on peak Vpk / R, energy 0.5 C V^2, I^2t = V^2 C / (2 R);
+    RC discharge. Sources: DOMAIN.md section 2 (textbook RC circuits [S]).
+    """
+    m = req.mains
+    r_nom = np.maximum(r_nom, 1e-9)
+    lo = SCREEN_SLACK
+    f_lo, f_hi = min(m.frequencies_hz), max(m.frequencies_hz)
+    vpk_hi = SQRT2 * m.high_v
+    c_min = c_nom * (1 - c_tol) * (1 - req.cap_loss)
+    c_max = c_nom * (1 + c_tol)
+    r_min = r_nom * (1 - r_tol)
+    r_max = r_nom * (1 + r_tol)
+    w_hi = 2 * math.pi * f_hi
+    from ..engine import closed_form as cf
+
+    # engine closed forms (documented error <= 0.83 % against the exact solution for
+    # w R C <= 0.4): the minimum current at low line / low f / -C / +R / nominal Vz (the exact
+    # corner has Vz at its upper tolerance: less current), the Zener power at high line / high f
+    # / +C / -R / Vz raised by the smallest Zener tolerance in the group, zero load
+    vz_hi = vz * (1 + ztol_min)
+    i_ub = cf.dc_current(topology, m.low_v, c_min, f_lo, vz, vf_lo, r_max)
+    i_hi = cf.dc_current(topology, m.high_v, c_max, f_hi, vz_hi, vf_hi, r_min)
+    pz = cf.zener_power_no_load(topology, m.high_v, c_max, f_hi, vz_hi, vf_hi, r_min)
+    # the Zener's dynamic impedance raises its voltage by Zz I at that current
+    pz = pz + zz_min * i_hi**2
+    vo_hi = vz_hi + 2 * vf_hi if topology == "bridge" else vz_hi
+    i_ub = np.maximum(i_ub, 0.0) * (1 + CURRENT_SLACK)
+    lb = 1 - lo
+    fac = max(0.0, 1 - vo_hi / vpk_hi)
+    i_rms = m.high_v * w_hi * c_max / np.sqrt(1 + (w_hi * r_max * c_max) ** 2) * fac
+    # switch-on and surge: the engine takes both at the +C / -R corner of the highest mains
+    # (selector.engine.analysis, "transients at their own worst corners"), everything
+    # discharged, so only the diode drops stand against the crest
+    v_on = max(vpk_hi - 2 * vf_hi, 0.0)
+    i_on = v_on / r_min
+    out = {
+        "min_dc_current_a": i_ub,
+        "max_zener_power_w": np.maximum(pz, 0) * lb,
+        # no-load loss in the rectifier: the whole current crosses two diodes of a bridge
+        "rectifier_loss_w": (2 * vf_lo * i_hi * lb) if topology == "bridge" else 0.0 * i_hi,
+        # the engine takes the largest power over the corners, so the +R corner bounds it
+        "max_series_r_power_w": i_rms**2 * r_max * lb,
+        "max_line_current_rms_a": i_rms * lb,
+        "max_rectifier_avg_current_a": np.zeros_like(i_ub),
+        "max_reservoir_ripple_current_a": np.zeros_like(i_ub),
+        "inrush_peak_current_a": i_on * lb,
+        "inrush_rectifier_peak_current_a": i_on * lb,
+        "inrush_series_r_energy_j": 0.5 * c_max * v_on**2 * lb,
+        "inrush_i2t_a2s": v_on**2 * c_max / (2 * r_min) * lb,
+        "inrush_x_cap_dvdt_v_per_s": i_on / c_max * lb,
+        **(surge_bounds(req.conditions.surge_v, r_min, c_max, lb, rd_max) if surge else {}),
+        "series_resistance_ohm": r_min,
+        "c_max": c_max,
+        "c_min_nom": c_nom * (1 - c_tol),
+        "v_on": np.full_like(i_ub, v_on),
+        "i_hi": i_hi,
+    }
+    return out
+
+
+SURGE_SAMPLE_TIMES_S: Final[np.ndarray] = np.geomspace(5e-9, 300e-6, 40)
+
+
+def max_rectifier_resistance(rect: OptionTable, topology: str) -> float:
+    """Largest rectifier resistance in the surge loop [ohm]: two diodes of a bridge, one in
+    a half-wave (as the engine's surge model counts them)."""
+    rs = rect.attrs["rs_ohm"] if len(rect) else np.zeros(0)
+    if len(rs) == 0 or np.all(np.isnan(rs)):
+        return 0.0
+    return float(np.nanmax(rs)) * (2 if topology == "bridge" else 1)
+
+
+def surge_bounds(vs: float, r: Any, c: Any, lb: float, rd: float = 0.0) -> dict[str, Any]:
+    """Lower bounds of the surge stresses, vectorised, from the engine's own surge model.
+
+    The loop (2 ohm generator + R) and C driven by the open-circuit 1.2/50 us double
+    exponential ``v = A V (exp(-t/t2) - exp(-t/t1 - t/t2))`` (selector.engine.transients, whose
+    constants are marked [M] there): i(t) = sum of four exponentials, solved exactly; the peak
+    is taken over 40 sampled times (never above the true peak), the energy R integral(i^2) in
+    closed form. Evaluated at the engine's transient corner (lowest R, highest C) with the
+    largest rectifier resistance ``rd`` in the loop (it only lowers the current), scaled by
+    ``lb`` (the slack).
+    """
+    from ..engine import transients as T
+
+    r = np.asarray(r, dtype=float)
+    c = np.asarray(c, dtype=float)
+    shape = np.broadcast(r, c).shape
+    if vs <= 0:
+        z = np.zeros(shape)
+        return {
+            "surge_series_r_energy_j": z,
+            "surge_series_r_peak_voltage_v": z,
+            "surge_x_cap_dvdt_v_per_s": z,
+        }
+    rl = T.SURGE_SOURCE_OHM + r + rd
+    kappa = 1.0 / (rl * c)
+    av = T.SURGE_A * vs
+    rates = (1.0 / T.SURGE_TAU2_S, 1.0 / T.SURGE_TAU1_S + 1.0 / T.SURGE_TAU2_S)
+    amps = (av, -av)
+    coef, pole = [], []
+    for a, rk in zip(amps, rates, strict=True):
+        d = kappa - rk
+        d = np.where(np.abs(d) < 1e-9 * rk, 1e-9 * rk, d)  # a coincident pole: nudge it
+        coef += [a * kappa / (rl * d), -a * rk / (rl * d)]
+        pole += [kappa, np.full(shape, rk)]
+    cf = np.stack(np.broadcast_arrays(*coef), axis=-1)
+    pl = np.stack(np.broadcast_arrays(*pole), axis=-1)
+    i2t = np.sum(
+        cf[..., :, None] * cf[..., None, :] / (pl[..., :, None] + pl[..., None, :]), axis=(-1, -2)
+    )
+    peak = np.zeros(shape)
+    for tt in SURGE_SAMPLE_TIMES_S:
+        peak = np.maximum(peak, np.abs(np.sum(cf * np.exp(-pl * tt), axis=-1)))
+    return {
+        "surge_series_r_energy_j": np.maximum(r * i2t, 0.0) * lb,
+        "surge_series_r_peak_voltage_v": r * peak * lb,
+        "surge_x_cap_dvdt_v_per_s": peak / c * lb,
+    }
+
+
+def max_series_resistance_for_current(req, topology, vz, vf_lo, c_min, need):
+    """Largest total series resistance that can still meet ``need`` [ohm] (necessary).
+
+    Inverts the screen's upper bound of the minimum current, (1 + slack) times the engine's
+    closed form 4 f C (Vpk / k - Vz - 2 Vf) (bridge) or f C (2 Vpk / k - Vz - Vf) (half-wave),
+    k = sqrt(1 + (w R C)^2), for k, then R = sqrt(k^2 - 1) / (w C). -1 where even R = 0 fails.
+    """
+    f = min(req.mains.frequencies_hz)
+    w = 2 * math.pi * f
+    vpk = SQRT2 * req.mains.low_v
+    g = 1 + CURRENT_SLACK
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if topology == "bridge":
+            k = vpk / (need / (g * 4 * f * c_min) + vz + 2 * vf_lo)
+        else:
+            k = 2 * vpk / (need / (g * f * c_min) + vz + vf_lo)
+        r = np.sqrt(np.maximum(k * k - 1, 0.0)) / (w * c_min)
+    return np.where(k >= 1, r, -1.0)

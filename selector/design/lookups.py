@@ -1,0 +1,84 @@
+"""Sorted look-ups the screen uses to pick the cheapest completion of many grid points at once.
+
+``cheapest_at_least``: options sorted by a capability, suffix minima of the key, searchsorted:
+exact (the returned option is the cheapest with capability >= need). ``RangeMinimum``: a sparse
+table over options sorted by value: the cheapest option whose value lies in a closed interval,
+exact, O(1) per query after O(n log n) set-up.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+
+def cheapest_at_least(cap: np.ndarray, key: np.ndarray, need: np.ndarray) -> np.ndarray:
+    """Index of the cheapest option with capability >= need (-1 if none), vectorised.
+
+    Options sorted by capability; suffix minima of the key; searchsorted.
+    """
+    if len(cap) == 0:
+        return np.full(np.shape(need), -1, dtype=np.int64)
+    ok = ~np.isnan(cap)
+    ids = np.flatnonzero(ok)
+    order = ids[np.argsort(cap[ids], kind="stable")]
+    c = cap[order]
+    k = key[order]
+    # suffix argmin of the key (a loop over the options, never over the grid)
+    best = np.empty(len(k), dtype=np.int64)
+    cur = len(k) - 1
+    for pos in range(len(k) - 1, -1, -1):
+        if k[pos] <= k[cur]:
+            cur = pos
+        best[pos] = cur
+    pos = np.searchsorted(c, need, side="left")
+    out = np.full(np.shape(need), -1, dtype=np.int64)
+    has = pos < len(c)
+    out[has] = order[best[pos[has]]]
+    return out
+
+
+class RangeMinimum:
+    """Sparse table: cheapest option whose sort value lies in [lo, hi], vectorised queries."""
+
+    def __init__(self, value: np.ndarray, key: np.ndarray) -> None:
+        ok = ~np.isnan(value)
+        ids = np.flatnonzero(ok)
+        self.order = ids[np.argsort(value[ids], kind="stable")]
+        self.v = value[self.order]
+        k = key[self.order]
+        n = len(k)
+        self.k = k
+        table = [np.arange(n, dtype=np.int64)]
+        j = 1
+        while (1 << j) <= n:
+            prev = table[-1]
+            half = 1 << (j - 1)
+            a = prev[: n - (1 << j) + 1]
+            b = prev[half : half + n - (1 << j) + 1]
+            table.append(np.where(k[a] <= k[b], a, b))
+            j += 1
+        self.table = table
+
+    def query(self, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+        n = len(self.v)
+        lo_b = np.broadcast_to(lo, np.broadcast(lo, hi).shape)
+        hi_b = np.broadcast_to(hi, lo_b.shape)
+        out = np.full(lo_b.shape, -1, dtype=np.int64)
+        if n == 0:
+            return out
+        left = np.searchsorted(self.v, lo_b, side="left")
+        right = np.searchsorted(self.v, hi_b, side="right") - 1
+        has = right >= left
+        if not np.any(has):
+            return out
+        left_h, right_h = left[has], right[has]
+        length = right_h - left_h + 1
+        lev = np.floor(np.log2(length)).astype(np.int64)
+        res = np.empty(len(left_h), dtype=np.int64)
+        for j in np.unique(lev):
+            m = lev == j
+            a = self.table[j][left_h[m]]
+            b = self.table[j][right_h[m] - (1 << j) + 1]
+            res[m] = np.where(self.k[a] <= self.k[b], a, b)
+        out[has] = self.order[res]
+        return out

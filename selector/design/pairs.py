@@ -1,0 +1,195 @@
+"""X-capacitor pairs: two X capacitors in parallel join the search after the singles.
+
+Method: the total capacitance a feasible set of a group can have lies in a window
+(``capacitance_window``: the X criteria of ``prune_options`` on a fine grid at zero tolerance,
+the most permissive case), and a pair dearer than the best set found so far minus the cheapest
+completion cannot win. ``pairs_in_window`` enumerates exactly the pairs (i <= j) inside both
+limits, vectorised by sorted search over the capacitance. Proof obligation: a pair outside the
+window fails a necessary condition, a pair over the budget costs more than the incumbent.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Final
+
+import numpy as np
+
+from .bounds import max_series_resistance_for_current, screen_bounds
+from .candidates import OptionTable, SearchSetup, concat_options, keep_best_per_signature
+from .groups import ZenerGroup, prune_options
+from .requirement import bus_demand, objective_key
+
+
+def parallel_pairs(single: OptionTable, i: np.ndarray, j: np.ndarray, minimize: str) -> OptionTable:
+    """The pairs (i[k], j[k]) of single X options in parallel; ratings = the weaker one,
+    tolerance = the capacitance-weighted one (exact for both extremes)."""
+    v = single.attrs["value"]
+    t = np.nan_to_num(single.attrs["tolerance"], nan=0.2)
+    attrs: dict[str, np.ndarray] = {}
+    for k, arr in single.attrs.items():
+        if k == "value":
+            attrs[k] = arr[i] + arr[j]
+        elif k == "tolerance":
+            attrs[k] = (v[i] * t[i] + v[j] * t[j]) / (v[i] + v[j])
+        else:
+            attrs[k] = np.fmin(arr[i], arr[j])
+    rows = [single.rows[a] + single.rows[b] for a, b in zip(i.tolist(), j.tolist(), strict=True)]
+    price = single.price[i] + single.price[j]
+    area = single.area[i] + single.area[j]
+    count = single.count[i] + single.count[j]
+    return OptionTable(
+        single.role,
+        rows,
+        np.full(len(i), 2, dtype=np.int64),
+        ["parallel"] * len(i),
+        objective_key(price, area, count, minimize),
+        price,
+        area,
+        count,
+        attrs,
+    )
+
+
+#: at most this many X pairs enter the search (the cheapest in the capacitance window); when
+#: the window holds more, the result says the search was limited
+PAIR_CAP: Final[int] = 400_000
+
+
+def pairs_in_window(
+    single: OptionTable, c_lo: float, c_hi: float, budget: int, cap: int
+) -> tuple[np.ndarray, np.ndarray, bool]:
+    """Index pairs (i <= j) of singles with c_lo <= C_i + C_j <= c_hi and key_i + key_j <
+    budget; the ``cap`` cheapest when there are more (then the flag says so)."""
+    n = len(single)
+    if n == 0:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64), False
+    order = np.argsort(single.attrs["value"], kind="stable")
+    vs = single.attrs["value"][order]
+    ks = single.key[order]
+    lo = np.maximum(np.searchsorted(vs, c_lo - vs, side="left"), np.arange(n))
+    hi = np.searchsorted(vs, c_hi - vs, side="right")
+    cnt = np.maximum(hi - lo, 0)
+    best_i: list[np.ndarray] = []
+    best_j: list[np.ndarray] = []
+    best_k: list[np.ndarray] = []
+    truncated = False
+    block = 2_000_000
+    start = 0
+    while start < n:
+        stop = start
+        tot = 0
+        while stop < n and (tot + cnt[stop] <= block or stop == start):
+            tot += int(cnt[stop])
+            stop += 1
+        c = cnt[start:stop]
+        if tot:
+            a = np.repeat(np.arange(start, stop), c)
+            offs = np.repeat(lo[start:stop] - np.concatenate([[0], np.cumsum(c)[:-1]]), c)
+            b = np.arange(tot) + offs
+            k = ks[a] + ks[b]
+            m = k < budget
+            a, b, k = a[m], b[m], k[m]
+            best_i.append(a)
+            best_j.append(b)
+            best_k.append(k)
+            allk = np.concatenate(best_k)
+            if len(allk) > cap:
+                truncated = True
+                keep = np.argpartition(allk, cap - 1)[:cap]
+                best_i = [np.concatenate(best_i)[keep]]
+                best_j = [np.concatenate(best_j)[keep]]
+                best_k = [allk[keep]]
+        start = stop
+    if not best_i:
+        return np.zeros(0, np.int64), np.zeros(0, np.int64), False
+    ia = order[np.concatenate(best_i)]
+    ib = order[np.concatenate(best_j)]
+    return ia, ib, truncated
+
+
+def capacitance_window(setup: SearchSetup, G: ZenerGroup) -> tuple[float, float]:
+    """Total X capacitance range a feasible set of this group can have [F] (necessary).
+
+    The X criteria of ``prune_options`` on a fine log grid of capacitances at zero tolerance
+    (the most permissive case: tolerance only lowers the minimum current
+    and raises the Zener power).
+    """
+    req, pol = setup.req, setup.policy
+    avg_a, _ = bus_demand(req)
+    need = avg_a * (1 + pol.load_margin)
+    ro = setup.ro
+    r_tot = ro.attrs["value"] * ro.qty
+    rtol = np.nan_to_num(ro.attrs["tolerance"], nan=0.05)
+    r_lo = float(np.min(r_tot * (1 - rtol)))
+    r_hi = float(np.max(r_tot * (1 + rtol)))
+    grid = np.geomspace(1e-9, 4e-5, 1200)
+    step = grid[1] / grid[0]
+    zero = np.zeros(len(grid))
+    r_allow = max_series_resistance_for_current(
+        req, G.topology, G.vz, G.vf_lo, grid * (1 - req.cap_loss), need
+    )
+    ok = r_allow >= r_lo
+    b = screen_bounds(
+        req,
+        G.topology,
+        G.vz,
+        grid,
+        zero,
+        np.clip(r_allow, r_lo, r_hi),
+        zero,
+        G.vf_lo,
+        G.vf_hi,
+        G.ztol_min,
+        G.zz_min,
+    )
+    ok &= b["max_zener_power_w"] <= float(np.max(G.z_cap))
+    ok &= b["max_zener_power_w"] + b["rectifier_loss_w"] <= pol.standby_limit_w
+    idx = np.flatnonzero(ok)
+    if len(idx) == 0:
+        return math.inf, -math.inf
+    return float(grid[idx[0]] / step), float(grid[idx[-1]] * step)
+
+
+def add_x_pairs(setup: SearchSetup, groups: list[ZenerGroup], budget: int, stats: dict) -> None:
+    """Phase 2 of the search: X pairs within the capacitance window and under the cost budget
+    join the options; each group gets them (pruned, in key order) as its next X list."""
+    windows = [capacitance_window(setup, g) for g in groups]
+    c_lo = min(w[0] for w in windows)
+    c_hi = max(w[1] for w in windows)
+    if not c_lo <= c_hi:
+        return
+    xs = setup.xs
+    ia, ib, trunc = pairs_in_window(xs, c_lo, c_hi, budget, PAIR_CAP)
+    stats["pairs"] = len(ia)
+    if trunc:
+        stats["pairs_truncated"] = True
+    if len(ia) == 0:
+        return
+    pairs = parallel_pairs(xs, ia, ib, setup.req.minimize)
+    pairs = keep_best_per_signature(pairs, ("value", "tolerance", "dvdt_v_per_s"), setup.req.top)
+    start = len(setup.xo)
+    setup.xo = concat_options([setup.xo, pairs])
+    new = np.arange(start, len(setup.xo))
+    for g in groups:
+        xk, rk = prune_options(
+            setup,
+            g.topology,
+            g.vz,
+            g.vf_lo,
+            g.vf_hi,
+            float(np.max(g.z_cap)),
+            g.ztol_min,
+            g.zz_min,
+            xidx=new,
+        )
+        if len(xk) == 0 or len(rk) == 0:
+            g.xkeep = np.zeros(0, dtype=np.int64)
+            g.cursor = 0
+            continue
+        g.xkeep = xk[np.argsort(setup.xo.key[xk], kind="stable")]
+        g.cursor = 0
+        r_tot = setup.ro.attrs["value"][rk] * setup.ro.qty[rk]
+        order = np.argsort(r_tot, kind="stable")
+        g.rkeep, g.r_sorted = rk[order], r_tot[order]
+        g.min_r_key = int(np.min(setup.ro.key[g.rkeep]))

@@ -1,0 +1,327 @@
+"""Exact verification of one candidate point with the engine at every corner.
+
+The point (X option, series-R option) and the screen's completion are built into an engine
+``Circuit``; ``analyse`` solves the corners exactly; the completion (Zener, rectifier, reservoir,
+bleeder, fuse) is re-chosen against the exact stresses (``cheapest_passing``, with the stresses that
+depend on the chosen part rescaled per option) until it no longer changes; then every rule is
+evaluated (``selector.rules.evaluate``) on the final set. A set is returned only when every rule
+passes.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from types import SimpleNamespace
+from typing import Any, Final
+
+import numpy as np
+import pandas as pd
+
+from .. import rules as R
+from .candidates import OptionTable, SearchSetup
+from .requirement import bus_demand, context_scalars
+
+
+def catalogue_row(setup: SearchSetup, i: int) -> pd.Series:
+    return setup.df.iloc[i]
+
+
+def rated_option(setup: SearchSetup, opts: OptionTable, i: int, role: str) -> R.RatedPart:
+    rows = opts.rows[i]
+    arr = opts.arrangement[i]
+    if arr == "bridge":
+        arr = "single"  # four discrete diodes as a bridge: each diode sees the full stress
+    return R.rated_part_from_row(
+        catalogue_row(setup, rows[0]).to_dict(), role, qty=len(rows), arrangement=arr
+    )
+
+
+def rated_x_parts(setup: SearchSetup, i: int) -> list[R.RatedPart]:
+    rows = setup.xo.rows[i]
+    if len(rows) == 1:
+        return [R.rated_part_from_row(catalogue_row(setup, rows[0]).to_dict(), "x_capacitor")]
+    if rows[0] == rows[1]:
+        return [
+            R.rated_part_from_row(
+                catalogue_row(setup, rows[0]).to_dict(),
+                "x_capacitor",
+                qty=2,
+                arrangement="parallel",
+            )
+        ]
+    return [R.rated_part_from_row(catalogue_row(setup, r).to_dict(), "x_capacitor") for r in rows]
+
+
+def engine_api():
+    """The engine's dataclasses (selector.engine.circuit) plus its analyse()."""
+    from ..engine import circuit as C
+
+    ns = SimpleNamespace(**{k: getattr(C, k) for k in C.__all__})
+    try:
+        from ..engine import analyse
+
+        ns.analyse = analyse
+    except ImportError:  # pragma: no cover - the engine is a dependency of the package
+        ns.analyse = None
+    return ns
+
+
+def circuit_for(setup, topology, vz, xi, ri, zi, di, ci, bi):
+    E = engine_api()
+    req = setup.req
+    df = setup.df
+    xrows = setup.xo.rows[xi]
+    caps = tuple(float(df.at[r, "value"]) for r in xrows)
+    rr = setup.ro.rows[ri]
+    r_tot = float(sum(float(df.at[r, "value"]) for r in rr))
+    rect = setup.rect[topology]
+    drow = df.iloc[rect.rows[di][0]]
+    zo = setup.zo[(topology, vz)]
+    zrows = zo.rows[zi]
+    zrow = df.iloc[zrows[0]]
+    z_v = float(sum(float(df.at[r, "value"]) for r in zrows))
+    zz = number_or(zrow.get("zz_ohm"), 0.0) * len(zrows)
+    crow = df.iloc[setup.co.rows[ci][0]]
+    brows = setup.bo.rows[bi]
+    rb = float(sum(float(df.at[r, "value"]) for r in brows))
+    vf = number_or(drow.get("vf_v"), 0.8)
+    rs = number_or(drow.get("rs_ohm"), 0.1)
+    if drow.get("kind") == "bridge":
+        pass  # a bridge part's vf is per diode (DEVELOPERS.md)
+    load = E.Load(
+        current_a=req.load_a,
+        burst_current_a=req.burst_current_a,
+        burst_duration_s=req.burst_duration_s,
+        burst_period_s=req.burst_period_s,
+    )
+    reg = None
+    if req.regulator:
+        reg = E.Regulator(
+            output_v=req.vout_v,
+            dropout_v=req.regulator_dropout_v,
+            quiescent_a=req.regulator_quiescent_a,
+        )
+    circ = E.Circuit(
+        topology=topology,
+        x_capacitors_f=caps,
+        series_resistance_ohm=r_tot,
+        bleeder_resistance_ohm=rb,
+        diode_drop_v=vf,
+        diode_resistance_ohm=rs,
+        zener_voltage_v=z_v,
+        zener_impedance_ohm=zz,
+        reservoir_f=float(crow["value"]),
+        load=load,
+        regulator=reg,
+    )
+    xt = [number_or(df.at[r, "tolerance"], 0.2) for r in xrows]
+    cap_tol = float(sum(c * t for c, t in zip(caps, xt, strict=True)) / sum(caps))
+    tol = E.Tolerances(
+        cap_tol=cap_tol,
+        cap_loss=req.cap_loss,
+        r_tol=max(number_or(df.at[r, "tolerance"], 0.05) for r in rr + brows),
+        zener_tol=number_or(zrow.get("tolerance"), 0.05),
+    )
+    return circ, tol
+
+
+def number_or(v: Any, default: float) -> float:
+    try:
+        f = float(v)
+    except (TypeError, ValueError):
+        return default
+    return default if math.isnan(f) else f
+
+
+def rule_context(setup, circ, vz, ci, r_tol=0.0):
+    req = setup.req
+    avg_a, peak_a = bus_demand(req)
+    crow = setup.df.iloc[setup.co.rows[ci][0]]
+    ctx = {
+        **context_scalars(req),
+        "load_a": avg_a,
+        # fault current with a shorted X capacitor: series resistance at its upper tolerance
+        "series_resistance_ohm": circ.series_resistance_ohm * (1 + r_tol),
+        "zener_voltage_v": vz,
+        "reservoir_min_f": float(crow["value"]) * (1 - number_or(crow.get("tolerance"), 0.2)),
+    }
+    if req.burst_current_a > 0:
+        ctx["burst_current_a"] = peak_a
+        ctx["burst_duration_s"] = req.burst_duration_s
+    return ctx
+
+
+def verify_candidate(setup, topology, vz, xi, ri, scr):
+    """Analyse one grid point exactly; re-choose its completion; evaluate every rule.
+
+    Returns (key, parts indices, analysis, findings) or None when no completion passes.
+    """
+    pol = setup.policy
+    req = setup.req
+    zo, rect, co, bo, fo = (
+        setup.zo[(topology, vz)],
+        setup.rect[topology],
+        setup.co,
+        setup.bo,
+        setup.fo,
+    )
+    zi, di, ci, bi = scr
+    for _ in range(4):
+        circ, tol = circuit_for(setup, topology, vz, xi, ri, zi, di, ci, bi)
+        an = setup.analyse(circ, req.mains, tol, req.conditions)
+        ctx = rule_context(setup, circ, vz, ci, float(setup.ro.attrs["tolerance"][ri]))
+        s, corners = R.stresses_from_analysis(an, ctx)
+        new = (
+            cheapest_passing(setup, zo, "zener", s),
+            cheapest_passing(setup, rect, "rectifier", s),
+            cheapest_passing(
+                setup, co, "reservoir", {**s, "reservoir_min_f": 0.0}, c_now=circ.reservoir_f
+            ),
+            cheapest_passing(setup, bo, "bleeder", s, rb_now=circ.bleeder_resistance_ohm),
+        )
+        if any(v < 0 for v in new):
+            if setup.stats is not None:
+                fails = setup.stats.setdefault("exact_fail", {})
+                for name, v in zip(
+                    ("zener", "rectifier", "reservoir", "bleeder"), new, strict=True
+                ):
+                    if v == BLOCKED_BY_STANDBY:
+                        fails["whole.standby_power"] = fails.get("whole.standby_power", 0) + 1
+                    elif v < 0:
+                        fails[name + ".*"] = fails.get(name + ".*", 0) + 1
+            return None
+        if new == (zi, di, ci, bi):
+            break
+        zi, di, ci, bi = new
+    else:
+        return None
+    parts = parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, None)
+    fsel = None
+    if not bool(setup.ro.attrs["fusible_flag"][ri]):
+        fsel = cheapest_fuse(setup, s, parts)
+        if fsel is None:
+            return None
+        parts = parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, fsel)
+    findings = R.evaluate(parts, an, pol, context=ctx)
+    bad = [f.rule for f in findings if f.severity != "pass"]
+    setup.last_exact = (bad, s, circ)
+    if bad:
+        fails = setup.stats.setdefault("exact_fail", {}) if setup.stats is not None else {}
+        for b in bad:
+            fails[b] = fails.get(b, 0) + 1
+        return None
+    key = (
+        setup.xo.key[xi]
+        + setup.ro.key[ri]
+        + zo.key[zi]
+        + rect.key[di]
+        + co.key[ci]
+        + bo.key[bi]
+        + (fo.key[fsel] if fsel is not None else 0)
+    )
+    return int(key), (topology, vz, xi, ri, zi, di, ci, bi, fsel), an, findings, circ, parts
+
+
+def cheapest_passing(
+    setup,
+    opts: OptionTable,
+    role: str,
+    s: dict[str, Any],
+    rb_now: float | None = None,
+    c_now: float | None = None,
+) -> int:
+    """Cheapest option of ``opts`` that passes every rule of ``role`` under stresses ``s``.
+
+    For the bleeder the stresses that depend on its own resistance are rescaled per candidate:
+    discharge time (and time constant) in proportion to R, power in inverse proportion (RC
+    discharge, P = V^2 / R [S]), and the no-load power changes by the bleeder's difference.
+    """
+    if len(opts) == 0:
+        return -1
+    ns = opts.ns()
+    ok = np.ones(len(opts), dtype=bool)
+    standby_ok = None
+    if role == "reservoir" and c_now and not is_missing(s.get("max_output_ripple_v")):
+        # ripple between charging pulses scales as 1 / C (C dV = I dt [S]) for each candidate
+        s = dict(s)
+        s["max_output_ripple_v"] = s["max_output_ripple_v"] * c_now / opts.attrs["value"]
+    if role == "bleeder" and rb_now is not None and "total_ohm" in opts.attrs:
+        ratio = opts.attrs["total_ohm"] / rb_now
+        s = dict(s)
+        for k in ("discharge_time_s", "discharge_time_constant_s"):
+            if not is_missing(s.get(k)):
+                s[k] = s[k] * ratio
+        pb = s.get("max_bleeder_power_w")
+        if not is_missing(pb):
+            s["max_bleeder_power_w"] = pb / ratio
+            nl = s.get("no_load_real_power_w")
+            if not is_missing(nl):
+                standby_ok = nl + pb * (1 / ratio - 1) <= setup.policy.standby_limit_w
+    else:
+        standby_ok = None
+    for rule in R.rules_for(role):
+        if rule.role == "whole" or rule.applies is not None:
+            continue
+        if any(is_missing(s.get(k)) for k in rule.stress_keys):
+            continue  # the exact evaluate() turns this into a warn and rejects the design
+        st, lim, _ = rule.check(s, ns, setup.policy)
+        ok &= np.asarray(st <= lim)
+    if role == "reservoir" and s.get("burst_current_a"):
+        deficit = max(s["burst_current_a"] - s["min_dc_current_a"], 0.0)
+        cmin = opts.attrs["value"] * (1 - np.nan_to_num(opts.attrs["tolerance"], nan=0.2))
+        ok &= cmin >= deficit * s["burst_duration_s"] / (
+            s["zener_voltage_v"] * setup.policy.burst_droop_fraction
+        )
+    if standby_ok is not None:
+        if ok.any() and not (ok & standby_ok).any():
+            return BLOCKED_BY_STANDBY  # the bleeder's own rules pass; the whole-supply rule fails
+        ok &= standby_ok
+    idx = np.flatnonzero(ok)
+    if len(idx) == 0:
+        return -1
+    return int(idx[np.argmin(opts.key[idx])])
+
+
+#: returned by cheapest_passing when only the no-load (standby) power limit rejects every bleeder
+BLOCKED_BY_STANDBY: Final = -2
+
+
+def is_missing(v: Any) -> bool:
+    return v is None or (isinstance(v, float) and math.isnan(v))
+
+
+def cheapest_fuse(setup, s, parts) -> int | None:
+    fo = setup.fo
+    if len(fo) == 0:
+        return None
+    for j in np.argsort(fo.key):
+        p = rated_option(setup, fo, int(j), "fuse")
+        ok = True
+        for rule in R.rules_for("fuse"):
+            if rule.applies is not None and not rule.applies(s, p):
+                continue
+            st, lim, _ = rule.check(s, p, setup.policy)
+            if not st <= lim:
+                ok = False
+                break
+        if ok:
+            return int(j)
+    return None
+
+
+def parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, fi):
+    out: dict[str, Any] = {
+        "x_capacitor": rated_x_parts(setup, xi),
+        "series_resistor": rated_option(setup, setup.ro, ri, "series_resistor"),
+        "zener": rated_option(setup, setup.zo[(topology, vz)], zi, "zener"),
+        "rectifier": rated_option(setup, setup.rect[topology], di, "rectifier"),
+        "reservoir": rated_option(setup, setup.co, ci, "reservoir"),
+        "bleeder": rated_option(setup, setup.bo, bi, "bleeder"),
+    }
+    if fi is not None:
+        out["fuse"] = rated_option(setup, setup.fo, fi, "fuse")
+    elif bool(setup.ro.attrs["fusible_flag"][ri]):
+        sr = out["series_resistor"]
+        out["fuse"] = dataclasses.replace(sr, role="fuse")
+    return out
