@@ -111,6 +111,12 @@ def screen_bounds(
 
 
 SURGE_SAMPLE_TIMES_S: Final[np.ndarray] = np.geomspace(5e-9, 300e-6, 40)
+#: samples between the neighbours of the best coarse sample (refines the peak of i(t))
+_SURGE_REFINE: Final[int] = 12
+#: widening of the surge bounds: they evaluate the engine's own surge model in closed form (the
+#: same equations, the largest rectifier resistance, the peak sampled at times where the engine
+#: samples it to 1e-4), so only the engine's peak location error needs covering
+SURGE_SLACK: Final[float] = 0.002
 
 
 def max_rectifier_resistance(rect: OptionTable, topology: str) -> float:
@@ -128,8 +134,9 @@ def surge_bounds(vs: float, r: Any, c: Any, lb: float, rd: float = 0.0) -> dict[
     The loop (2 ohm generator + R) and C driven by the open-circuit 1.2/50 us double
     exponential ``v = A V (exp(-t/t2) - exp(-t/t1 - t/t2))`` (selector.engine.transients, whose
     constants are marked [M] there): i(t) = sum of four exponentials, solved exactly; the peak
-    is taken over 40 sampled times (never above the true peak), the energy R integral(i^2) in
-    closed form. Evaluated at the engine's transient corner (lowest R, highest C) with the
+    is taken over 40 log-spaced times and refined between the neighbours of the best one (a
+    sampled value is never above the true peak), the energy R integral(i^2) in closed form.
+    Evaluated at the engine's transient corner (lowest R, highest C) with the
     largest rectifier resistance ``rd`` in the loop (it only lowers the current), scaled by
     ``lb`` (the slack).
     """
@@ -138,6 +145,14 @@ def surge_bounds(vs: float, r: Any, c: Any, lb: float, rd: float = 0.0) -> dict[
     r = np.asarray(r, dtype=float)
     c = np.asarray(c, dtype=float)
     shape = np.broadcast(r, c).shape
+    if vs > 0 and len(shape) == 1 and shape[0] > 64:
+        # many points share (R, C): solve each distinct loop once
+        rc = np.column_stack(np.broadcast_arrays(r, c))
+        uniq, inv = np.unique(rc, axis=0, return_inverse=True)
+        if len(uniq) < 0.8 * len(rc):
+            out = surge_bounds(vs, uniq[:, 0].copy(), uniq[:, 1].copy(), lb, rd)
+            inv = np.asarray(inv).ravel()
+            return {k: v[inv] for k, v in out.items()}
     if vs <= 0:
         z = np.zeros(shape)
         return {
@@ -161,9 +176,16 @@ def surge_bounds(vs: float, r: Any, c: Any, lb: float, rd: float = 0.0) -> dict[
     i2t = np.sum(
         cf[..., :, None] * cf[..., None, :] / (pl[..., :, None] + pl[..., None, :]), axis=(-1, -2)
     )
-    peak = np.zeros(shape)
-    for tt in SURGE_SAMPLE_TIMES_S:
-        peak = np.maximum(peak, np.abs(np.sum(cf * np.exp(-pl * tt), axis=-1)))
+    ts = SURGE_SAMPLE_TIMES_S
+    coarse = np.abs(np.einsum("...k,...tk->...t", cf, np.exp(-pl[..., None, :] * ts[:, None])))
+    best = np.argmax(coarse, axis=-1)
+    peak = np.take_along_axis(coarse, best[..., None], axis=-1)[..., 0]
+    t_lo = ts[np.maximum(best - 1, 0)]
+    t_hi = ts[np.minimum(best + 1, len(ts) - 1)]
+    frac = np.linspace(0.0, 1.0, _SURGE_REFINE)
+    tf = t_lo[..., None] + (t_hi - t_lo)[..., None] * frac
+    fine = np.abs(np.einsum("...k,...tk->...t", cf, np.exp(-pl[..., None, :] * tf[..., None])))
+    peak = np.maximum(peak, np.max(fine, axis=-1))
     return {
         "surge_series_r_energy_j": np.maximum(r * i2t, 0.0) * lb,
         "surge_series_r_peak_voltage_v": r * peak * lb,
@@ -189,3 +211,75 @@ def max_series_resistance_for_current(req, topology, vz, vf_lo, c_min, need):
             k = 2 * vpk / (need / (g * f * c_min) + vz + vf_lo)
         r = np.sqrt(np.maximum(k * k - 1, 0.0)) / (w * c_min)
     return np.where(k >= 1, r, -1.0)
+
+
+def ripple_discharge_time(
+    topology: str,
+    vpk_v: Any,
+    freq_hz: float,
+    swing_v: Any,
+    r_ohm: Any,
+    c_f: Any,
+) -> Any:
+    """Lower bound of the time the reservoir alone feeds the bus in each cycle [s].
+
+    Bridge: the line current (nearly sinusoidal, leading the mains by pi/2 - phi with
+    phi = atan(w R C)) stops no earlier than phase pi/2 + phi of the mains; the rectifier then
+    blocks until the mains has fallen by ``swing_v`` (the X capacitor must reverse across the bus
+    and four diode drops): ``sin(pi/2 + phi + d) = cos(phi) - swing / Vpk``, so
+    ``t >= d / w = (acos(cos phi - swing / Vpk) - phi) / w``. Half-wave: the reservoir is fed on
+    the positive half cycle only; the negative half cycle flows through the Zener, so
+    ``t >= pi / w``. (Phasor current of an RC branch and the rectifier's blocking condition:
+    any circuits textbook [S]; the bound is a derivation of ours, checked against the exact
+    engine in tests/test_design_bounds.py.) Arrays broadcast; SI units.
+
+    Example: bridge, 207 V rms (Vpk 292.7 V), 50 Hz, swing 13.5 V, R C -> 0:
+    acos(1 - 13.5 / 292.7) / (2 pi 50) = 0.970 ms.
+    """
+    w = 2 * math.pi * freq_hz
+    if topology != "bridge":
+        return np.full(np.broadcast(vpk_v, swing_v, r_ohm, c_f).shape, math.pi / w)
+    phi = np.arctan(w * np.asarray(r_ohm, float) * np.asarray(c_f, float))
+    arg = np.clip(np.cos(phi) - np.maximum(swing_v, 0.0) / np.asarray(vpk_v, float), -1.0, 1.0)
+    return np.maximum(np.arccos(arg) - phi, 0.0) / w
+
+
+def ripple_reservoir_need(
+    req: Any, topology: str, vz: float, ztol_max: float, vf_lo: float, limit_v: float, r_max, c_min
+) -> Any:
+    """Least nominal reservoir capacitance that can keep the worst-corner ripple within
+    ``limit_v`` [F] (necessary), at the engine's weakest corner (low line, lowest frequency,
+    smallest X capacitance ``c_min``, largest series resistance ``r_max``), which the engine
+    solves with its load.
+
+    The rectified supply current is at most I^ |cos(theta - phi)| with I^ = w C Vpk (the X
+    capacitor's current with the bus clamped, R -> 0 an upper bound) and is zero during the
+    reversal of ``ripple_discharge_time`` (delta, in radians of the mains). While it is below the
+    bus demand I the bus falls (the Zener is off), so the reservoir loses at least the deficit
+    charge Q = (I^ / w) * D, with k = I / I^, theta_a = acos(k):
+    bridge    D = [k (pi/2 - theta_a) - (1 - sin theta_a)] + k delta
+                  + [k (theta_e - delta) + cos theta_e - cos delta],
+              theta_e = max(delta, pi/2 - theta_a);
+    half-wave D = 2 [k (pi/2 - theta_a) - (1 - sin theta_a)] + k pi  (no supply for half a cycle).
+    The peak-to-peak ripple is then at least Q / C (C dV = I dt [S]); it stays within the limit
+    only if C >= Q / limit. If the ripple is within the limit, the bus sags by at most the
+    limit, so the bridge's reversal swing is at least 2 (Vz_min + 2 Vf) - limit. The demand is the
+    steady bus demand without bursts. Derivation ours; tests/test_design_bounds.py checks the
+    bound against the exact engine.
+    """
+    f_lo = min(req.mains.frequencies_hz)
+    w = 2 * math.pi * f_lo
+    vpk_lo = SQRT2 * req.mains.low_v
+    demand = req.load_a + (req.regulator_quiescent_a if req.regulator else 0.0)
+    i_hat = w * np.asarray(c_min, float) * vpk_lo
+    k = np.clip(demand / np.maximum(i_hat, 1e-30), 0.0, 1.0)
+    th_a = np.arccos(k)
+    side = k * (math.pi / 2 - th_a) - (1 - np.sin(th_a))
+    if topology == "bridge":
+        swing = 2 * (vz * (1 - ztol_max) + 2 * vf_lo) - limit_v
+        delta = ripple_discharge_time(topology, vpk_lo, f_lo, swing, r_max, c_min) * w
+        th_e = np.maximum(delta, math.pi / 2 - th_a)
+        deficit = side + k * delta + (k * (th_e - delta) + np.cos(th_e) - np.cos(delta))
+    else:
+        deficit = 2 * side + k * math.pi
+    return i_hat / w * np.maximum(deficit, 0.0) / limit_v

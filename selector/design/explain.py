@@ -8,8 +8,8 @@ import numpy as np
 
 from ..errors import InfeasibleError
 from .bounds import screen_bounds
-from .candidates import SearchSetup
 from .requirement import SQRT2, bus_demand
+from .setup import SearchSetup
 
 
 def precheck(setup: SearchSetup) -> None:

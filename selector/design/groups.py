@@ -11,20 +11,23 @@ capacitance for a series option), so no pruned option belongs to a feasible set.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from types import SimpleNamespace
 from typing import Final
 
 import numpy as np
 
 from .bounds import (
     SCREEN_SLACK,
+    SURGE_SLACK,
     max_rectifier_resistance,
     max_series_resistance_for_current,
     screen_bounds,
     surge_bounds,
 )
-from .candidates import OptionTable, SearchSetup, rule_by_id, tally
+from .candidates import OptionTable, rule_by_id, tally
 from .lookups import RangeMinimum
 from .requirement import SQRT2, bus_demand, context_scalars
+from .setup import SearchSetup
 
 
 @dataclass
@@ -50,6 +53,7 @@ class ZenerGroup:
     min_r_key: int
     min_comp_key: int
     ztol_min: float = 0.0
+    ztol_max: float = 0.0
     zz_min: float = 0.0
     cursor: int = 0
 
@@ -98,6 +102,7 @@ def make_group(setup: SearchSetup, topology: str, vz: float, stats: dict) -> Zen
     b_ok &= np.asarray(st <= lim)
     b_table = RangeMinimum(np.where(b_ok, bo.attrs["total_ohm"] * (1 - btol), np.nan), bo.key)
     ztol_min = float(np.nanmin(np.nan_to_num(zo.attrs["tolerance"], nan=0.0)))
+    ztol_max = float(np.nanmax(np.nan_to_num(zo.attrs["tolerance"], nan=0.05)))
     zz_min = float(np.min(np.nan_to_num(zo.attrs["zz_ohm"], nan=0.0) * zo.qty))
     xkeep, rkeep = prune_options(
         setup, topology, vz, vf_lo, vf_hi, float(np.max(z_cap)), ztol_min, zz_min
@@ -111,7 +116,7 @@ def make_group(setup: SearchSetup, topology: str, vz: float, stats: dict) -> Zen
         xkeep = np.zeros(0, dtype=np.int64)
         rkeep = np.zeros(0, dtype=np.int64)
     xkeep = xkeep[np.argsort(setup.xo.key[xkeep], kind="stable")]
-    r_tot = setup.ro.attrs["value"][rkeep] * setup.ro.qty[rkeep]
+    r_tot = setup.ro.attrs["total_ohm"][rkeep]
     order = np.argsort(r_tot, kind="stable")
     rkeep, r_sorted = rkeep[order], r_tot[order]
     min_comp = (
@@ -139,8 +144,9 @@ def make_group(setup: SearchSetup, topology: str, vz: float, stats: dict) -> Zen
         r_sorted,
         int(np.min(setup.ro.key[rkeep])) if len(rkeep) else 0,
         min_comp,
-        ztol_min,
-        zz_min,
+        ztol_min=ztol_min,
+        ztol_max=ztol_max,
+        zz_min=zz_min,
     )
 
 
@@ -148,7 +154,7 @@ NO_BOUND: Final[int] = np.iinfo(np.int64).max // 4
 
 
 def prune_options(
-    setup, topology, vz, vf_lo, vf_hi, z_cap_max, ztol_min=0.0, zz_min=0.0, xidx=None
+    setup, topology, vz, vf_lo, vf_hi, z_cap_max, ztol_min=0.0, zz_min=0.0, xidx=None, ridx=None
 ):
     """X and series-R options that can take part in any feasible point of this group.
 
@@ -156,15 +162,14 @@ def prune_options(
     X: the current at the smallest series resistance meets the load; the Zener power at the
     largest series resistance fits the largest Zener and the standby limit. R: the current
     with the largest kept capacitance meets the load; the R rules hold with the smallest kept
-    capacitance. Then R options dominated by another of the same resistance and tolerance
-    (higher or equal ratings, lower or equal key) by ``top`` or more are dropped.
+    capacitance. ``xidx`` / ``ridx`` restrict the options examined (default: all); the
+    resistance range the X test uses is always that of every series option.
     """
     req, pol = setup.req, setup.policy
     xo, ro = setup.xo, setup.ro
-    s0 = context_scalars(req)
     avg_a, _ = bus_demand(req)
     need = avg_a * (1 + pol.load_margin)
-    r_tot = ro.attrs["value"] * ro.qty
+    r_tot = ro.attrs["total_ohm"]
     rtol = np.nan_to_num(ro.attrs["tolerance"], nan=0.05)
     if xidx is None:
         xidx = np.arange(len(xo))
@@ -187,11 +192,29 @@ def prune_options(
     xkeep = xidx[np.flatnonzero(xk)]
     if len(xkeep) == 0:
         return xkeep, np.zeros(0, dtype=np.int64)
-    cx = xo.attrs["value"]
-    xtol = xtol_all
-    c_best = float(np.max(cx[xkeep] * (1 - xtol[xkeep])))
-    c_least = float(np.min(cx[xkeep] * (1 - xtol[xkeep])))
-    n = len(ro)
+    if ridx is None:
+        ridx = np.arange(len(ro))
+    ok = series_necessary(
+        setup, topology, vz, vf_lo, vf_hi, ztol_min, xkeep, r_tot[ridx], rtol[ridx], ro.ns(ridx)
+    )
+    return xkeep, ridx[ok]
+
+
+def series_necessary(setup, topology, vz, vf_lo, vf_hi, ztol_min, xkeep, r_tot, rtol, rns):
+    """Mask of series options (total resistance, tolerance, rule namespace) that can take part
+    in a feasible point with some X option of ``xkeep``: the current with the largest kept
+    capacitance meets the load; the series-R rules hold with the smallest (their stresses grow
+    with C); the series-R loss alone stays within the standby limit."""
+    req, pol = setup.req, setup.policy
+    xo = setup.xo
+    s0 = context_scalars(req)
+    avg_a, _ = bus_demand(req)
+    need = avg_a * (1 + pol.load_margin)
+    n = len(r_tot)
+    if len(xkeep) == 0 or n == 0:
+        return np.zeros(n, dtype=bool)
+    cmin = xo.attrs["value"][xkeep] * (1 - np.nan_to_num(xo.attrs["tolerance"][xkeep], nan=0.2))
+    c_best, c_least = float(np.max(cmin)), float(np.min(cmin))
     b = screen_bounds(
         req, topology, vz, np.full(n, c_best), np.zeros(n), r_tot, rtol, vf_lo, vf_hi, ztol_min
     )
@@ -210,7 +233,6 @@ def prune_options(
         surge=False,
     )
     s = {**s0, **b2, "load_a": 0.0}
-    rns = ro.ns()
     for rid in (
         "series_r.power",
         "series_r.switch_on_energy",
@@ -220,16 +242,19 @@ def prune_options(
         st, lim, _ = rule_by_id(rid).check(s, rns, pol)
         rk &= np.asarray(st <= lim)
     rk &= b2["max_series_r_power_w"] <= pol.standby_limit_w
-    rkeep = np.flatnonzero(rk)
     # the surge rule (costlier bound) on the survivors only
-    if len(rkeep):
+    live = np.flatnonzero(rk)
+    if len(live):
         sb = surge_bounds(
             req.conditions.surge_v,
-            b2["series_resistance_ohm"][rkeep],
-            np.full(len(rkeep), c_least),
-            1 - SCREEN_SLACK,
+            b2["series_resistance_ohm"][live],
+            np.full(len(live), c_least),
+            1 - SURGE_SLACK,
             max_rectifier_resistance(setup.rect[topology], topology),
         )
-        st, lim, _ = rule_by_id("series_r.surge_voltage").check(sb, ro.ns(rkeep), pol)
-        rkeep = rkeep[np.asarray(st <= lim)]
-    return xkeep, rkeep
+        sub = SimpleNamespace(
+            **{k: (v[live] if isinstance(v, np.ndarray) else v) for k, v in vars(rns).items()}
+        )
+        st, lim, _ = rule_by_id("series_r.surge_voltage").check(sb, sub, pol)
+        rk[live] = np.asarray(st <= lim)
+    return rk

@@ -82,3 +82,22 @@ class RangeMinimum:
             res[m] = np.where(self.k[a] <= self.k[b], a, b)
         out[has] = self.order[res]
         return out
+
+
+def cheapest_meeting_both(
+    cap_a: np.ndarray, need_a: np.ndarray, cap_b: np.ndarray, need_b: np.ndarray, key: np.ndarray
+) -> np.ndarray:
+    """Index of the cheapest option with cap_a >= need_a AND cap_b >= need_b (-1 if none).
+
+    Exact: options are tried in ascending key, vectorised over the points (options are few).
+    """
+    need_a, need_b = np.broadcast_arrays(np.asarray(need_a, float), np.asarray(need_b, float))
+    out = np.full(need_a.shape, -1, dtype=np.int64)
+    open_ = np.ones(need_a.shape, dtype=bool)
+    for j in np.argsort(key, kind="stable"):
+        hit = open_ & (cap_a[j] >= need_a) & (cap_b[j] >= need_b)
+        out[hit] = j
+        open_ &= ~hit
+        if not open_.any():
+            break
+    return out

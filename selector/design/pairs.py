@@ -1,4 +1,4 @@
-"""X-capacitor pairs: two X capacitors in parallel join the search after the singles.
+"""Later phases of the search: X pairs in parallel, then unequal series-resistor pairs.
 
 Method: the total capacitance a feasible set of a group can have lies in a window
 (``capacitance_window``: the X criteria of ``prune_options`` on a fine grid at zero tolerance,
@@ -11,14 +11,17 @@ window fails a necessary condition, a pair over the budget costs more than the i
 from __future__ import annotations
 
 import math
+from types import SimpleNamespace
 from typing import Final
 
 import numpy as np
 
 from .bounds import max_series_resistance_for_current, screen_bounds
-from .candidates import OptionTable, SearchSetup, concat_options, keep_best_per_signature
-from .groups import ZenerGroup, prune_options
+from .candidates import OptionTable, concat_options, keep_best_per_signature
+from .groups import NO_BOUND, ZenerGroup, prune_options, series_necessary
 from .requirement import bus_demand, objective_key
+from .series import unequal_series_pairs
+from .setup import SearchSetup
 
 
 def parallel_pairs(single: OptionTable, i: np.ndarray, j: np.ndarray, minimize: str) -> OptionTable:
@@ -119,7 +122,7 @@ def capacitance_window(setup: SearchSetup, G: ZenerGroup) -> tuple[float, float]
     avg_a, _ = bus_demand(req)
     need = avg_a * (1 + pol.load_margin)
     ro = setup.ro
-    r_tot = ro.attrs["value"] * ro.qty
+    r_tot = ro.attrs["total_ohm"]
     rtol = np.nan_to_num(ro.attrs["tolerance"], nan=0.05)
     r_lo = float(np.min(r_tot * (1 - rtol)))
     r_hi = float(np.max(r_tot * (1 + rtol)))
@@ -183,13 +186,103 @@ def add_x_pairs(setup: SearchSetup, groups: list[ZenerGroup], budget: int, stats
             g.zz_min,
             xidx=new,
         )
-        if len(xk) == 0 or len(rk) == 0:
-            g.xkeep = np.zeros(0, dtype=np.int64)
-            g.cursor = 0
+        _set_group_options(setup, g, xk, rk)
+
+
+def _set_group_options(setup: SearchSetup, g: ZenerGroup, xk: np.ndarray, rk: np.ndarray) -> None:
+    """The group's next phase: X options ``xk`` (in key order) against series options ``rk``."""
+    g.cursor = 0
+    if len(xk) == 0 or len(rk) == 0:
+        g.xkeep = np.zeros(0, dtype=np.int64)
+        return
+    g.xkeep = xk[np.argsort(setup.xo.key[xk], kind="stable")]
+    r_tot = setup.ro.attrs["total_ohm"][rk]
+    order = np.argsort(r_tot, kind="stable")
+    g.rkeep, g.r_sorted = rk[order], r_tot[order]
+    g.min_r_key = int(np.min(setup.ro.key[g.rkeep]))
+
+
+def add_series_pairs(
+    setup: SearchSetup, groups: list[ZenerGroup], budget: int, stats: dict
+) -> None:
+    """Phase 3 of the search: two different series resistors join the options; each group gets
+    every X option (singles and pairs) against the new series options.
+
+    Necessary conditions (see ``series``): a pair's total is at most the largest resistance that
+    still meets the load with the largest capacitance of any group's window; its key is below
+    the budget less the cheapest X option and the cheapest completion of any group.
+    """
+    req, pol = setup.req, setup.policy
+    if setup.series_elements is None or not groups:
+        return
+    avg_a, _ = bus_demand(req)
+    need = avg_a * (1 + pol.load_margin)
+    r_max = 0.0
+    for g in groups:
+        _, c_hi = capacitance_window(setup, g)
+        if not math.isfinite(c_hi) or c_hi <= 0:
             continue
-        g.xkeep = xk[np.argsort(setup.xo.key[xk], kind="stable")]
-        g.cursor = 0
-        r_tot = setup.ro.attrs["value"][rk] * setup.ro.qty[rk]
-        order = np.argsort(r_tot, kind="stable")
-        g.rkeep, g.r_sorted = rk[order], r_tot[order]
-        g.min_r_key = int(np.min(setup.ro.key[g.rkeep]))
+        r = max_series_resistance_for_current(
+            req, g.topology, g.vz, g.vf_lo, np.array([c_hi * (1 - req.cap_loss)]), need
+        )
+        r_max = max(r_max, float(r[0]))
+    r_max = min(r_max, 1e5)
+    if r_max <= 0:
+        return
+    base = int(np.min(setup.xo.key)) + min(g.min_comp_key for g in groups)
+    key_budget = budget if budget >= NO_BOUND else budget - base
+    # the X options of each group (singles and pairs) that a series pair would meet
+    group_x = []
+    for g in groups:
+        xk, _ = prune_options(
+            setup,
+            g.topology,
+            g.vz,
+            g.vf_lo,
+            g.vf_hi,
+            float(np.max(g.z_cap)),
+            g.ztol_min,
+            g.zz_min,
+            ridx=np.zeros(0, dtype=np.int64),
+        )
+        group_x.append(xk)
+
+    def necessary(attrs: dict[str, np.ndarray]) -> np.ndarray:
+        rns = SimpleNamespace(
+            **attrs, power_share=1.0, voltage_share=1.0, fusible=attrs["fusible_flag"]
+        )
+        ok = np.zeros(len(attrs["total_ohm"]), dtype=bool)
+        for g, xk in zip(groups, group_x, strict=True):
+            ok |= series_necessary(
+                setup,
+                g.topology,
+                g.vz,
+                g.vf_lo,
+                g.vf_hi,
+                g.ztol_min,
+                xk,
+                attrs["total_ohm"],
+                attrs["tolerance"],
+                rns,
+            )
+        return ok
+
+    pairs = unequal_series_pairs(
+        setup.series_elements, r_max, key_budget, req.minimize, req.top, necessary
+    )
+    stats["series_pairs"] = len(pairs)
+    if len(pairs) == 0:
+        for g in groups:
+            _set_group_options(setup, g, np.zeros(0, np.int64), np.zeros(0, np.int64))
+        return
+    start = len(setup.ro)
+    setup.ro = concat_options([setup.ro, pairs])
+    new = np.arange(start, len(setup.ro))
+    for g, xk in zip(groups, group_x, strict=True):
+        rns = setup.ro.ns(new)
+        r_tot = setup.ro.attrs["total_ohm"][new]
+        rtol = setup.ro.attrs["tolerance"][new]
+        ok = series_necessary(
+            setup, g.topology, g.vz, g.vf_lo, g.vf_hi, g.ztol_min, xk, r_tot, rtol, rns
+        )
+        _set_group_options(setup, g, xk, new[ok])

@@ -7,9 +7,9 @@ from collections.abc import Sequence
 from typing import Any, Final
 
 from .. import rules as R
-from .candidates import SearchSetup
 from .requirement import Design, DesignPart
-from .verify import number_or
+from .setup import SearchSetup
+from .verify import catalogue_row, number_or
 
 RATING_KEYS: Final[dict[str, tuple[str, ...]]] = {
     "x_capacitor": ("safety_class", "rated_voltage_ac_v", "dvdt_v_per_s", "impulse_v"),
@@ -23,7 +23,7 @@ RATING_KEYS: Final[dict[str, tuple[str, ...]]] = {
 
 
 def design_part(setup, role, rows, arrangement) -> DesignPart:
-    row = setup.df.iloc[rows[0]]
+    row = catalogue_row(setup, rows[0])
     qty = len(rows)
     price = number_or(row.get("unit_price"), 0.0)
     ratings = {}
@@ -62,8 +62,12 @@ def to_design(setup: SearchSetup, rank: int, res) -> Design:
         parts.append(
             design_part(setup, "x_capacitor", xrows, "parallel" if len(xrows) > 1 else "single")
         )
+    srows = setup.ro.rows[ri]
+    if len(srows) == 2 and srows[0] != srows[1]:
+        parts += [design_part(setup, "series_resistor", (r,), "series") for r in srows]
+    else:
+        parts.append(design_part(setup, "series_resistor", srows, setup.ro.arrangement[ri]))
     for role, opts, i in (
-        ("series_resistor", setup.ro, ri),
         ("bleeder", setup.bo, bi),
         ("rectifier", setup.rect[topology], di),
         ("zener", setup.zo[(topology, vz)], zi),
@@ -78,7 +82,7 @@ def to_design(setup: SearchSetup, rank: int, res) -> Design:
     count = int(sum(p.qty for p in parts))
     binding = binding_rules(findings)
     zopt = setup.zo[(topology, vz)]
-    zrow = setup.df.iloc[zopt.rows[zi][0]]
+    zrow = catalogue_row(setup, zopt.rows[zi][0])
     effective = {
         "x_capacitance_f": float(circ.x_capacitance_f),
         "series_resistance_ohm": float(circ.series_resistance_ohm),

@@ -22,15 +22,18 @@ import numpy as np
 from ..policy import Policy
 from .bounds import (
     SCREEN_SLACK,
+    SURGE_SLACK,
     max_rectifier_resistance,
     max_series_resistance_for_current,
+    ripple_reservoir_need,
     screen_bounds,
     surge_bounds,
 )
-from .candidates import SearchSetup, rule_by_id, tally
+from .candidates import rule_by_id, tally
 from .groups import NO_BOUND, ZenerGroup
-from .lookups import cheapest_at_least
+from .lookups import cheapest_at_least, cheapest_meeting_both
 from .requirement import DISCHARGE_EXEMPT_F, PROFILE_LIMITS, SQRT2, bus_demand, context_scalars
+from .setup import SearchSetup
 
 SURGE_RULES: Final[frozenset[str]] = frozenset(
     {"x_cap.dvdt_surge", "series_r.surge_energy", "series_r.surge_voltage"}
@@ -230,7 +233,7 @@ def screen_points(setup: SearchSetup, G: ZenerGroup, xg, rg, kx, budget: int, st
     s0 = context_scalars(req)
     avg_a, peak_a = bus_demand(req)
     rtol = np.nan_to_num(ro.attrs["tolerance"][rg], nan=0.05)
-    r_tot = ro.attrs["value"][rg] * ro.qty[rg]
+    r_tot = ro.attrs["total_ohm"][rg]
     b = screen_bounds(
         req,
         G.topology,
@@ -272,7 +275,7 @@ def screen_points(setup: SearchSetup, G: ZenerGroup, xg, rg, kx, budget: int, st
             req.conditions.surge_v,
             b["series_resistance_ohm"],
             b["c_max"],
-            1 - SCREEN_SLACK,
+            1 - SURGE_SLACK,
             max_rectifier_resistance(G.rect, G.topology),
         )
     )
@@ -293,7 +296,21 @@ def screen_points(setup: SearchSetup, G: ZenerGroup, xg, rg, kx, budget: int, st
     ok &= rsel >= 0
     deficit = np.maximum(peak_a - b["min_dc_current_a"], 0.0)
     need_c = deficit * req.burst_duration_s / (G.vz * pol.burst_droop_fraction)
-    csel = cheapest_at_least(G.cres_min, co.key, need_c)
+    # the output ripple rule: the nominal capacitance the engine's ripple needs at least
+    need_ripple = ripple_reservoir_need(
+        req,
+        G.topology,
+        G.vz,
+        G.ztol_max,
+        G.vf_lo,
+        G.vz * pol.output_ripple_fraction,
+        ro.attrs["total_ohm"][rg] * (1 + np.nan_to_num(ro.attrs["tolerance"][rg], nan=0.05)),
+        b["c_min_nom"] * (1 - req.cap_loss),
+    )
+    if req.burst_current_a > 0:
+        csel = cheapest_meeting_both(G.cres_min, need_c, co.attrs["value"], need_ripple, co.key)
+    else:
+        csel = cheapest_at_least(co.attrs["value"], co.key, need_ripple)
     tally(stats, "whole.burst_holdup", ok_xr & (csel < 0))
     ok &= csel >= 0
     limit_v, allowed_s, tau_rule = PROFILE_LIMITS[req.conditions.profile]
@@ -346,6 +363,7 @@ def cheapest_fuse_per_point(fo, ro, rg, b, s0, pol, fusible):
     # fusible resistor: fault power rule on the resistor itself
     if np.any(fusible):
         rns = ro.ns(rg)
+        rns.power_w = rns.fusible_power_w  # the fusible element's rating per share (series)
         st, lim, _ = rule_by_id("fuse.fusible_opens_on_short").check(
             {**s0, "series_resistance_ohm": b["series_resistance_ohm"] * 1.0}, rns, pol
         )

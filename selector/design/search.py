@@ -18,13 +18,13 @@ import numpy as np
 import pandas as pd
 
 from ..policy import Policy
-from .candidates import prepare
 from .explain import infeasible_error, precheck
 from .groups import NO_BOUND, ZenerGroup, make_group
-from .pairs import add_x_pairs
+from .pairs import add_series_pairs, add_x_pairs
 from .requirement import Design, Requirement
 from .result import to_design
 from .screen import screen_x_chunk
+from .setup import prepare
 from .verify import engine_api, verify_candidate
 
 #: a candidate whose exact minimum current misses the load by more than this fraction also
@@ -83,13 +83,16 @@ def design(
                     best, bg = lb, g
         return best, bg
 
-    for phase in ("singles", "pairs"):
-        if phase == "pairs":
+    for phase in ("singles", "x pairs", "series pairs"):
+        if phase != "singles":
             if stats.get("verify_limit") or not groups:
                 break
-            base = min(g.min_r_key + g.min_comp_key for g in groups)
             b = bound()
-            add_x_pairs(setup, groups, NO_BOUND if b >= NO_BOUND else b - base, stats)
+            if phase == "x pairs":
+                base = min(g.min_r_key + g.min_comp_key for g in groups)
+                add_x_pairs(setup, groups, NO_BOUND if b >= NO_BOUND else b - base, stats)
+            else:
+                add_series_pairs(setup, groups, b, stats)
         while True:
             nxt, g = next_chunk_lb()
             # verify pending points whose lower bound is below anything still unscreened
@@ -112,7 +115,7 @@ def design(
                 if stats["verified"] >= max_verify:
                     stats["verify_limit"] = True
                     break
-                r_corner = float(setup.ro.attrs["value"][ri] * setup.ro.qty[ri]) * (
+                r_corner = float(setup.ro.attrs["total_ohm"][ri]) * (
                     1 + float(np.nan_to_num(setup.ro.attrs["tolerance"][ri], nan=0.05))
                 )
                 ck = (id(G), xi)

@@ -16,15 +16,20 @@ from types import SimpleNamespace
 from typing import Any, Final
 
 import numpy as np
-import pandas as pd
 
 from .. import rules as R
-from .candidates import OptionTable, SearchSetup
+from .candidates import OptionTable
 from .requirement import bus_demand, context_scalars
+from .setup import SearchSetup
 
 
-def catalogue_row(setup: SearchSetup, i: int) -> pd.Series:
-    return setup.df.iloc[i]
+def catalogue_row(setup: SearchSetup, i: int) -> dict[str, Any]:
+    """Catalogue row ``i`` of the filtered frame as a dict (cached: pandas row access is slow)."""
+    cache = setup.row_cache
+    row = cache.get(i)
+    if row is None:
+        row = cache[i] = setup.df.iloc[i].to_dict()
+    return row
 
 
 def rated_option(setup: SearchSetup, opts: OptionTable, i: int, role: str) -> R.RatedPart:
@@ -33,24 +38,24 @@ def rated_option(setup: SearchSetup, opts: OptionTable, i: int, role: str) -> R.
     if arr == "bridge":
         arr = "single"  # four discrete diodes as a bridge: each diode sees the full stress
     return R.rated_part_from_row(
-        catalogue_row(setup, rows[0]).to_dict(), role, qty=len(rows), arrangement=arr
+        catalogue_row(setup, rows[0]), role, qty=len(rows), arrangement=arr
     )
 
 
 def rated_x_parts(setup: SearchSetup, i: int) -> list[R.RatedPart]:
     rows = setup.xo.rows[i]
     if len(rows) == 1:
-        return [R.rated_part_from_row(catalogue_row(setup, rows[0]).to_dict(), "x_capacitor")]
+        return [R.rated_part_from_row(catalogue_row(setup, rows[0]), "x_capacitor")]
     if rows[0] == rows[1]:
         return [
             R.rated_part_from_row(
-                catalogue_row(setup, rows[0]).to_dict(),
+                catalogue_row(setup, rows[0]),
                 "x_capacitor",
                 qty=2,
                 arrangement="parallel",
             )
         ]
-    return [R.rated_part_from_row(catalogue_row(setup, r).to_dict(), "x_capacitor") for r in rows]
+    return [R.rated_part_from_row(catalogue_row(setup, r), "x_capacitor") for r in rows]
 
 
 def engine_api():
@@ -70,21 +75,20 @@ def engine_api():
 def circuit_for(setup, topology, vz, xi, ri, zi, di, ci, bi):
     E = engine_api()
     req = setup.req
-    df = setup.df
     xrows = setup.xo.rows[xi]
-    caps = tuple(float(df.at[r, "value"]) for r in xrows)
+    caps = tuple(float(catalogue_row(setup, r)["value"]) for r in xrows)
     rr = setup.ro.rows[ri]
-    r_tot = float(sum(float(df.at[r, "value"]) for r in rr))
+    r_tot = float(sum(float(catalogue_row(setup, r)["value"]) for r in rr))
     rect = setup.rect[topology]
-    drow = df.iloc[rect.rows[di][0]]
+    drow = catalogue_row(setup, rect.rows[di][0])
     zo = setup.zo[(topology, vz)]
     zrows = zo.rows[zi]
-    zrow = df.iloc[zrows[0]]
-    z_v = float(sum(float(df.at[r, "value"]) for r in zrows))
+    zrow = catalogue_row(setup, zrows[0])
+    z_v = float(sum(float(catalogue_row(setup, r)["value"]) for r in zrows))
     zz = number_or(zrow.get("zz_ohm"), 0.0) * len(zrows)
-    crow = df.iloc[setup.co.rows[ci][0]]
+    crow = catalogue_row(setup, setup.co.rows[ci][0])
     brows = setup.bo.rows[bi]
-    rb = float(sum(float(df.at[r, "value"]) for r in brows))
+    rb = float(sum(float(catalogue_row(setup, r)["value"]) for r in brows))
     vf = number_or(drow.get("vf_v"), 0.8)
     rs = number_or(drow.get("rs_ohm"), 0.1)
     if drow.get("kind") == "bridge":
@@ -115,12 +119,12 @@ def circuit_for(setup, topology, vz, xi, ri, zi, di, ci, bi):
         load=load,
         regulator=reg,
     )
-    xt = [number_or(df.at[r, "tolerance"], 0.2) for r in xrows]
+    xt = [number_or(catalogue_row(setup, r)["tolerance"], 0.2) for r in xrows]
     cap_tol = float(sum(c * t for c, t in zip(caps, xt, strict=True)) / sum(caps))
     tol = E.Tolerances(
         cap_tol=cap_tol,
         cap_loss=req.cap_loss,
-        r_tol=max(number_or(df.at[r, "tolerance"], 0.05) for r in rr + brows),
+        r_tol=max(number_or(catalogue_row(setup, r)["tolerance"], 0.05) for r in rr + brows),
         zener_tol=number_or(zrow.get("tolerance"), 0.05),
     )
     return circ, tol
@@ -137,7 +141,7 @@ def number_or(v: Any, default: float) -> float:
 def rule_context(setup, circ, vz, ci, r_tol=0.0):
     req = setup.req
     avg_a, peak_a = bus_demand(req)
-    crow = setup.df.iloc[setup.co.rows[ci][0]]
+    crow = catalogue_row(setup, setup.co.rows[ci][0])
     ctx = {
         **context_scalars(req),
         "load_a": avg_a,
@@ -310,10 +314,26 @@ def cheapest_fuse(setup, s, parts) -> int | None:
     return None
 
 
+def rated_series_parts(setup: SearchSetup, i: int) -> list[R.RatedPart]:
+    """The series option ``i`` as the rules see it: one part, two equal parts in series, or
+    two different parts each carrying its share R_i / R_total of power and voltage."""
+    rows = setup.ro.rows[i]
+    if len(rows) == 1 or rows[0] == rows[1]:
+        arr = "single" if len(rows) == 1 else "series"
+        row = catalogue_row(setup, rows[0])
+        return [R.rated_part_from_row(row, "series_resistor", qty=len(rows), arrangement=arr)]
+    values = [float(catalogue_row(setup, r)["value"]) for r in rows]
+    total = sum(values)
+    return [
+        R.rated_part_from_row(catalogue_row(setup, r), "series_resistor", share=v / total)
+        for r, v in zip(rows, values, strict=True)
+    ]
+
+
 def parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, fi):
     out: dict[str, Any] = {
         "x_capacitor": rated_x_parts(setup, xi),
-        "series_resistor": rated_option(setup, setup.ro, ri, "series_resistor"),
+        "series_resistor": rated_series_parts(setup, ri),
         "zener": rated_option(setup, setup.zo[(topology, vz)], zi, "zener"),
         "rectifier": rated_option(setup, setup.rect[topology], di, "rectifier"),
         "reservoir": rated_option(setup, setup.co, ci, "reservoir"),
@@ -322,6 +342,7 @@ def parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, fi):
     if fi is not None:
         out["fuse"] = rated_option(setup, setup.fo, fi, "fuse")
     elif bool(setup.ro.attrs["fusible_flag"][ri]):
-        sr = out["series_resistor"]
+        # the fusible element (listed first) serves as the fuse, with its share of the fault
+        sr = out["series_resistor"][0]
         out["fuse"] = dataclasses.replace(sr, role="fuse")
     return out
