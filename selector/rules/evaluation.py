@@ -83,30 +83,21 @@ def _finding(
         ref=part.ref if part is not None else None,
         description=rule.description,
     )
-    missing_ratings = [r for r in rule.ratings if part is not None and _missing(getattr(part, r))]
+    missing_ratings = [
+        name for name in rule.ratings if part is not None and _missing(getattr(part, name))
+    ]
     if part is not None and rule.id in {"x_cap.safety_class", "x_cap.impulse"}:
         if _missing(part.safety_class):
             missing_ratings = ["safety_class"]
-    missing_stresses = [k for k in rule.stress_keys if _missing(stresses.get(k))]
-    if missing_ratings:
-        return Finding(
-            stress=None,
-            limit=None,
-            margin=None,
-            ok=False,
-            severity="warn",
-            note=f"rating unknown: {', '.join(missing_ratings)}",
-            **common,
+    missing_stresses = [key for key in rule.stress_keys if _missing(stresses.get(key))]
+    if missing_ratings or missing_stresses:
+        note = (
+            f"rating unknown: {', '.join(missing_ratings)}"
+            if missing_ratings
+            else f"stress not computed: {', '.join(missing_stresses)}"
         )
-    if missing_stresses:
         return Finding(
-            stress=None,
-            limit=None,
-            margin=None,
-            ok=False,
-            severity="warn",
-            note=f"stress not computed: {', '.join(missing_stresses)}",
-            **common,
+            stress=None, limit=None, margin=None, ok=False, severity="warn", note=note, **common
         )
     stress, limit, margin = rule.check(stresses, part, policy)
     stress, limit, margin = float(stress), float(limit), float(margin)
