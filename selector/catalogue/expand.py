@@ -10,6 +10,7 @@ invented (``price_note``).
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Callable
 from dataclasses import dataclass
 from datetime import datetime
@@ -31,7 +32,7 @@ from .datafiles import (
 from .formulas import diode_i2t, resistor_working_voltage, x_impulse_test_voltage, zener_impedance
 from .models import Part
 
-__all__ = ["EXPANDERS", "Context"]
+__all__ = ["EXPANDERS", "KIND_WORDS", "Context", "tolerance_tag", "unit_tag"]
 
 _COLUMNS: Final[tuple[str, ...]] = tuple(c.name for c in Part.__table__.columns if c.name != "id")
 
@@ -75,10 +76,78 @@ def _pct(tol: float) -> str:
     return f"{tol * 100:g} %"
 
 
-def _volt_tag(v: float) -> str:
-    """5.1 -> '5V1', 12 -> '12V', 6.3 -> '6V3' (the trade's way of writing voltages in codes)."""
-    text = f"{v:g}"
-    return text.replace(".", "V") if "." in text else f"{text}V"
+# ---------------------------------------------------------------------------------------------
+# part codes: <kind>.<family>.<variant>.<value>[.<tolerance>] (catalogue/README.md lists them)
+
+#: the first word of every built-in code, by kind
+KIND_WORDS: Final[dict[str, str]] = {
+    "x_capacitor": "xcap",
+    "film_capacitor": "film",
+    "resistor": "res",
+    "diode": "diode",
+    "bridge": "bridge",
+    "zener": "zener",
+    "electrolytic": "elcap",
+    "fuse": "fuse",
+}
+_WORD_RE: Final = re.compile(r"[a-z0-9]+")
+_VALUE_RE: Final = re.compile(r"[A-Za-z0-9]+")
+
+
+def unit_tag(value: float, unit: str) -> str:
+    """A rating written with its unit letter where the decimal point would be (IEC 60062 style).
+
+    ``unit`` is one lower-case letter (``v``, ``a``, ``w``): 5.1, 'v' -> '5v1'; 12, 'v' -> '12v';
+    0.5, 'w' -> '0w5'; 6.3, 'v' -> '6v3'. The value is written with ``:g`` (6 significant digits).
+
+    >>> unit_tag(5.1, "v"), unit_tag(0.5, "w"), unit_tag(1000, "v")
+    ('5v1', '0w5', '1000v')
+    """
+    text = f"{value:g}"
+    if "e" in text or value <= 0:
+        raise BadValueError(f"no unit tag for {value!r} {unit}")
+    whole, _, frac = text.partition(".")
+    return f"{whole}{unit}{frac}"
+
+
+def tolerance_tag(tol: float) -> str:
+    """A tolerance as a code word: 0.05 -> '5pct', 0.005 -> '0p5pct' (no dots inside a word).
+
+    >>> tolerance_tag(0.05), tolerance_tag(0.2), tolerance_tag(0.0025)
+    ('5pct', '20pct', '0p25pct')
+    """
+    return f"{tol * 100:g}".replace(".", "p") + "pct"
+
+
+def _code_prefix(e: Entry, kind: str) -> str:
+    """The family's ``code`` field, checked: dot-separated lower-case words, the kind's word
+    first, at least one family word after it (e.g. ``res.thick``)."""
+    prefix = e.text("code")
+    words = prefix.split(".")
+    first = KIND_WORDS[kind]
+    if len(words) < 2 or words[0] != first or not all(_WORD_RE.fullmatch(w) for w in words):
+        raise e.fail(
+            "code",
+            f"{prefix!r}: write '{first}.<family word>[.<word>...]' in lower-case letters and "
+            "digits, dots between the words",
+        )
+    return prefix
+
+
+def _code(prefix: str, *words: str) -> str:
+    """``prefix.word.word...``; each word is letters and digits only (the value may hold
+    IEC 60062 capitals such as 4M7)."""
+    for word in words:
+        if not _VALUE_RE.fullmatch(word):
+            raise BadValueError(f"code word {word!r} of {prefix} must be letters and digits")
+    return ".".join((prefix, *words))
+
+
+def _word(e: Entry, field: str, default: str | None = None) -> str:
+    text = e.text(field, default=default)
+    if not _WORD_RE.fullmatch(text):
+        raise e.fail(field, f"{text!r} must be lower-case letters and digits (it goes into codes)")
+    return text
 
 
 def _band(e: Entry, bands: list[Entry], key: float, what: str) -> Entry:
@@ -115,7 +184,8 @@ def _expand_film(ctx: Context, fam: Family) -> list[dict]:
     bands = e.items("body")
     for band in bands:
         band.check_keys({"max_cv", "pitch_mm", "l_mm", "w_mm", "h_mm", "dvdt_v_per_us"})
-    title, code, mount = e.text("title"), e.text("code"), e.text("mount")
+    title, mount = e.text("title"), e.text("mount")
+    code = _code_prefix(e, fam.kind)
     temp_max = e.number("temp_max_c")
     dielectric = e.text("dielectric")
     rows = []
@@ -128,13 +198,13 @@ def _expand_film(ctx: Context, fam: Family) -> list[dict]:
             pitch = band.number("pitch_mm")
             dims = (band.number("l_mm"), band.number("w_mm"), band.number("h_mm"))
             for letter, tol in tolerances:
-                vtag = f"{ac:g}" if is_x else f"{dc:g}"
+                vtag = f"{unit_tag(ac, 'v')}ac" if is_x else f"{unit_tag(dc, 'v')}dc"
                 vtext = f"{ac:g} VAC" if is_x else f"{dc:g} VDC / {ac:g} VAC"
                 row = _row(
                     ctx,
                     fam,
                     e,
-                    code=f"{code}-{vtag}-{iec60062_code(c, 'F')}-{letter}",
+                    code=_code(code, vtag, iec60062_code(c, "F"), tolerance_tag(tol)),
                     description=(
                         f"{title}, {format_value(c, 'F')} ±{_pct(tol)} {vtext}, pitch {pitch:g} mm"
                     ),
@@ -202,12 +272,12 @@ def _expand_resistor(ctx: Context, fam: Family) -> list[dict]:
     letter, tol = e.tolerance("tolerance")
     per_w = e.number("pulse_j_per_w")
     fusible = e.flag("fusible")
-    title, code = e.text("title"), e.text("code")
+    title, code = e.text("title"), _code_prefix(e, fam.kind)
     values = e.series_values("ohm")
     rows = []
     for s in e.items("size"):
         size = _size_of(ctx, s)
-        tag = s.text("tag", default=size.size)
+        tag = _word(s, "tag", default=size.size)
         price = s.number("price")
         length = size.pitch_mm if size.pitch_mm else size.body_l_mm
         area = _area(ctx, size.mount, length, size.body_w_mm)
@@ -219,7 +289,7 @@ def _expand_resistor(ctx: Context, fam: Family) -> list[dict]:
                     fam,
                     s,
                     mount=size.mount,
-                    code=f"{code}{tag}-{iec60062_code(r, 'ohm')}-{letter}",
+                    code=_code(code, tag, iec60062_code(r, "ohm"), tolerance_tag(tol)),
                     description=(
                         f"{title} {size.size}, {format_value(r, 'ohm')} ±{_pct(tol)}, "
                         f"{size.power_w:g} W, LEV {size.lev_v:g} V"
@@ -249,7 +319,8 @@ def _expand_diode(ctx: Context, fam: Family) -> list[dict]:
         _COMMON_KEYS
         | {"package", "l_mm", "w_mm", "if_av_a", "ifsm_a", "vf_v", "rs_ohm", "tj_max_c", "vrrm"}
     )
-    title, code, mount = e.text("title"), e.text("code"), e.text("mount")
+    title, mount = e.text("title"), e.text("mount")
+    code = _code_prefix(e, fam.kind)
     ifav, ifsm = e.number("if_av_a"), e.number("ifsm_a")
     area = _area(ctx, mount, e.number("l_mm"), e.number("w_mm"))
     rows = []
@@ -261,7 +332,7 @@ def _expand_diode(ctx: Context, fam: Family) -> list[dict]:
                 ctx,
                 fam,
                 e,
-                code=f"{code}-{vrrm:g}",
+                code=_code(code, unit_tag(ifav, "a"), unit_tag(vrrm, "v")),
                 description=f"{title}, {vrrm:g} V, IFSM {ifsm:g} A",
                 value=ifav,
                 package=e.text("package"),
@@ -288,7 +359,8 @@ def _expand_zener(ctx: Context, fam: Family) -> list[dict]:
         | {"derate_start_c", "tj_max_c", "vf_v", "zz_ref_ohm", "zz_ref_v", "zz_exp", "price"}
     )
     letter, tol = e.tolerance("tolerance")
-    title, code, mount = e.text("title"), e.text("code"), e.text("mount")
+    title, mount = e.text("title"), e.text("mount")
+    code = _code_prefix(e, fam.kind)
     power, tj = e.number("power_w"), e.number("tj_max_c")
     start = e.number("derate_start_c")
     if tj <= start:
@@ -307,7 +379,7 @@ def _expand_zener(ctx: Context, fam: Family) -> list[dict]:
                 ctx,
                 fam,
                 e,
-                code=f"{code}-{_volt_tag(vz)}",
+                code=_code(code, unit_tag(power, "w"), unit_tag(vz, "v"), tolerance_tag(tol)),
                 description=f"{title}, {vz:g} V ±{_pct(tol)}, {e.text('package')}",
                 value=vz,
                 tolerance=tol,
@@ -334,7 +406,8 @@ def _expand_electrolytic(ctx: Context, fam: Family) -> list[dict]:
         | {"price_base", "price_per_cv", "body"}
     )
     letter, tol = e.tolerance("tolerance")
-    title, code, mount = e.text("title"), e.text("code"), e.text("mount")
+    title, mount = e.text("title"), e.text("mount")
+    code = _code_prefix(e, fam.kind)
     volts = e.raw("voltages")
     if not isinstance(volts, list) or not volts:
         raise e.fail("voltages", "must be a non-empty list of rated DC voltages")
@@ -358,7 +431,9 @@ def _expand_electrolytic(ctx: Context, fam: Family) -> list[dict]:
                     ctx,
                     fam,
                     e,
-                    code=f"{code}-{iec60062_code(c, 'F')}-{_volt_tag(float(v))}",
+                    code=_code(
+                        code, unit_tag(float(v), "v"), iec60062_code(c, "F"), tolerance_tag(tol)
+                    ),
                     description=f"{title}, {format_value(c, 'F')} {v:g} V, {d:g}x{length:g} mm",
                     value=c,
                     tolerance=tol,
@@ -379,7 +454,8 @@ def _expand_fuse(ctx: Context, fam: Family) -> list[dict]:
     e.check_keys(
         _COMMON_KEYS | {"package", "l_mm", "w_mm", "rated_ac_v", "ratings", "i2t_per_a2", "price"}
     )
-    title, code, mount = e.text("title"), e.text("code"), e.text("mount")
+    title, mount = e.text("title"), e.text("mount")
+    code = _code_prefix(e, fam.kind)
     ratings = e.raw("ratings")
     if not isinstance(ratings, list) or not ratings:
         raise e.fail("ratings", "must be a non-empty list of rated currents like '100m'")
@@ -398,7 +474,7 @@ def _expand_fuse(ctx: Context, fam: Family) -> list[dict]:
                 ctx,
                 fam,
                 e,
-                code=f"{code}-{round(amps * 1000):d}mA",
+                code=_code(code, f"{round(amps * 1000):d}ma"),
                 description=f"{title}, {format_value(amps, 'A')} {e.number('rated_ac_v'):g} VAC",
                 value=amps,
                 package=e.text("package"),
