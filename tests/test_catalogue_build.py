@@ -250,3 +250,33 @@ def test_every_code_follows_the_pattern():
         code = row["code"]
         assert re.fullmatch(rf"{word}(\.{word})+(\.[A-Za-z0-9]+)(\.{word})*", code), code
         assert code.split(".")[0] == KIND_WORDS[row["kind"]], code
+
+
+@pytest.mark.parametrize(
+    ("value", "unit", "tag"),
+    [
+        (5.1, "v", "5v1"),
+        (12.0, "v", "12v"),
+        (6.3, "v", "6v3"),
+        (0.5, "w", "0w5"),
+        (0.5, "a", "0a5"),
+    ],
+)
+def test_unit_tag_writes_the_unit_letter_for_the_point(value, unit, tag):
+    # the IEC 60062 principle (4R7 = 4.7 ohm: the letter stands for the decimal point) [S],
+    # carried over to volts, amperes and watts by our own convention
+    from selector.catalogue.expand import unit_tag
+
+    assert unit_tag(value, unit) == tag
+
+
+def test_tolerance_tag_has_no_dot():
+    from selector.catalogue.expand import tolerance_tag
+
+    assert [tolerance_tag(t) for t in (0.05, 0.1, 0.2, 0.01, 0.005)] == [
+        "5pct",
+        "10pct",
+        "20pct",
+        "1pct",
+        "0p5pct",
+    ]

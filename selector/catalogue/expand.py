@@ -269,7 +269,7 @@ def _expand_resistor(ctx: Context, fam: Family) -> list[dict]:
     e = Entry(fam.file, fam.row, fam.data, fam.name)
     keys = (_COMMON_KEYS - {"mount"}) | {"series", "min", "max", "tolerance", "pulse_j_per_w"}
     e.check_keys(keys | {"size", "fusible"})
-    letter, tol = e.tolerance("tolerance")
+    _, tol = e.tolerance("tolerance")
     per_w = e.number("pulse_j_per_w")
     fusible = e.flag("fusible")
     title, code = e.text("title"), _code_prefix(e, fam.kind)
@@ -358,7 +358,7 @@ def _expand_zener(ctx: Context, fam: Family) -> list[dict]:
         | {"package", "l_mm", "w_mm", "series", "min", "max", "tolerance", "power_w"}
         | {"derate_start_c", "tj_max_c", "vf_v", "zz_ref_ohm", "zz_ref_v", "zz_exp", "price"}
     )
-    letter, tol = e.tolerance("tolerance")
+    _, tol = e.tolerance("tolerance")
     title, mount = e.text("title"), e.text("mount")
     code = _code_prefix(e, fam.kind)
     power, tj = e.number("power_w"), e.number("tj_max_c")
@@ -405,7 +405,7 @@ def _expand_electrolytic(ctx: Context, fam: Family) -> list[dict]:
         | {"series", "min", "max", "voltages", "tolerance", "temp_max_c", "ripple_a_per_sqrt_cv"}
         | {"price_base", "price_per_cv", "body"}
     )
-    letter, tol = e.tolerance("tolerance")
+    _, tol = e.tolerance("tolerance")
     title, mount = e.text("title"), e.text("mount")
     code = _code_prefix(e, fam.kind)
     volts = e.raw("voltages")
