@@ -134,12 +134,12 @@ def _code_prefix(e: Entry, kind: str) -> str:
     return prefix
 
 
-def _code(prefix: str, *words: str) -> str:
+def _code(e: Entry, prefix: str, *words: str) -> str:
     """``prefix.word.word...``; each word is letters and digits only (the value may hold
     IEC 60062 capitals such as 4M7)."""
     for word in words:
         if not _VALUE_RE.fullmatch(word):
-            raise BadValueError(f"code word {word!r} of {prefix} must be letters and digits")
+            raise e.fail("code", f"code word {word!r} after {prefix} is not letters and digits")
     return ".".join((prefix, *words))
 
 
@@ -204,7 +204,7 @@ def _expand_film(ctx: Context, fam: Family) -> list[dict]:
                     ctx,
                     fam,
                     e,
-                    code=_code(code, vtag, iec60062_code(c, "F"), tolerance_tag(tol)),
+                    code=_code(e, code, vtag, iec60062_code(c, "F"), tolerance_tag(tol)),
                     description=(
                         f"{title}, {format_value(c, 'F')} ±{_pct(tol)} {vtext}, pitch {pitch:g} mm"
                     ),
@@ -289,7 +289,7 @@ def _expand_resistor(ctx: Context, fam: Family) -> list[dict]:
                     fam,
                     s,
                     mount=size.mount,
-                    code=_code(code, tag, iec60062_code(r, "ohm"), tolerance_tag(tol)),
+                    code=_code(e, code, tag, iec60062_code(r, "ohm"), tolerance_tag(tol)),
                     description=(
                         f"{title} {size.size}, {format_value(r, 'ohm')} ±{_pct(tol)}, "
                         f"{size.power_w:g} W, LEV {size.lev_v:g} V"
@@ -332,7 +332,7 @@ def _expand_diode(ctx: Context, fam: Family) -> list[dict]:
                 ctx,
                 fam,
                 e,
-                code=_code(code, unit_tag(ifav, "a"), unit_tag(vrrm, "v")),
+                code=_code(e, code, unit_tag(ifav, "a"), unit_tag(vrrm, "v")),
                 description=f"{title}, {vrrm:g} V, IFSM {ifsm:g} A",
                 value=ifav,
                 package=e.text("package"),
@@ -379,7 +379,7 @@ def _expand_zener(ctx: Context, fam: Family) -> list[dict]:
                 ctx,
                 fam,
                 e,
-                code=_code(code, unit_tag(power, "w"), unit_tag(vz, "v"), tolerance_tag(tol)),
+                code=_code(e, code, unit_tag(power, "w"), unit_tag(vz, "v"), tolerance_tag(tol)),
                 description=f"{title}, {vz:g} V ±{_pct(tol)}, {e.text('package')}",
                 value=vz,
                 tolerance=tol,
@@ -432,7 +432,7 @@ def _expand_electrolytic(ctx: Context, fam: Family) -> list[dict]:
                     fam,
                     e,
                     code=_code(
-                        code, unit_tag(float(v), "v"), iec60062_code(c, "F"), tolerance_tag(tol)
+                        e, code, unit_tag(float(v), "v"), iec60062_code(c, "F"), tolerance_tag(tol)
                     ),
                     description=f"{title}, {format_value(c, 'F')} {v:g} V, {d:g}x{length:g} mm",
                     value=c,
@@ -474,7 +474,7 @@ def _expand_fuse(ctx: Context, fam: Family) -> list[dict]:
                 ctx,
                 fam,
                 e,
-                code=_code(code, f"{round(amps * 1000):d}ma"),
+                code=_code(e, code, f"{round(amps * 1000):d}ma"),
                 description=f"{title}, {format_value(amps, 'A')} {e.number('rated_ac_v'):g} VAC",
                 value=amps,
                 package=e.text("package"),
