@@ -207,7 +207,7 @@ def test_unreadable_value_names_file_row_and_column(tmp_path):
 def test_no_zener_is_a_clear_error(tmp_path):
     p = tmp_path / "nz.csv"
     p.write_text(
-        "Ref,Value,Description\nC1,220n,X2 305VAC\nR1,47R,metal oxide 1W\nBR1,MB6S,bridge\n"
+        "Ref,Value,Description\nC1,220n,X2 305VAC\nR1,47R,metal oxide 1W\nBR1,600V 0.5A,bridge\n"
         "C2,470u,electrolytic 25V\n",
         encoding="utf-8",
     )

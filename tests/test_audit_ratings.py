@@ -24,7 +24,9 @@ from selector.errors import BadValueError
         ("C4", "100n 50V X7R 0603", "ceramic_capacitor"),  # X7R: EIA dielectric, not X class
         ("C4", "1u 25V X5R", "ceramic_capacitor"),
         ("C4", "10n Y5V", "ceramic_capacitor"),  # Y5V: EIA dielectric, not Y class
-        ("C1", "470n MKT 400VDC", "film_capacitor"),
+        ("C1", "470n PET 400VDC", "film_capacitor"),
+        ("C1", "470n PP 630V", "film_capacitor"),
+        ("C1", "470n polyester 400VDC", "film_capacitor"),
         ("C1", "470n metallized polypropylene 630V", "film_capacitor"),
         ("C2", "470u 25V electrolytic", "electrolytic"),
         ("C2", "470u 25V", "capacitor"),
@@ -34,7 +36,7 @@ from selector.errors import BadValueError
         ("D1", "Zener 5.1V", "zener"),
         ("ZD1", "5V1", "zener"),
         ("D2", "1N4007 1000V 1A", "diode"),
-        ("BR1", "MB6S", "bridge"),
+        ("BR1", "600V 0.5A", "bridge"),
         ("D5", "bridge rectifier 600V", "bridge"),
         ("D3", "LED red", "other"),
         ("RV1", "varistor 275VAC", "other"),
@@ -71,8 +73,8 @@ def test_ac_and_dc_told_apart_on_x_capacitors(text, ac, dc):
     "ref, value, text, dc",
     [
         ("C2", "470u", "electrolytic 63V", 63.0),  # bare volts on an electrolytic: DC
-        ("C1", "470n", "MKT 400VDC", 400.0),
-        ("C1", "470n", "MKT 400 V=", 400.0),
+        ("C1", "470n", "PET 400VDC", 400.0),
+        ("C1", "470n", "PET 400 V=", 400.0),
         ("C5", "1n", "ceramic 1kV C0G", 1000.0),
     ],
 )
@@ -130,8 +132,15 @@ def test_class_words():
     assert read_ratings("R1", "47R", "metal oxide 2W").technology == "metal_oxide"
     assert read_ratings("R1", "47R", "wirewound 3W").technology == "wirewound"
     assert read_ratings("R1", "10R", "fusible 0.5W").fusible is True
-    assert read_ratings("C1", "470n", "MKP 630V").dielectric == "pp"
-    assert read_ratings("C1", "470n", "polyester 400V").dielectric == "pet"
+    # the trade's generic dielectric words (IEC 60384-2 polyester / PET, IEC 60384-16 PP) [M]
+    for text, dielectric in (
+        ("PP film 630V", "pp"),
+        ("metallized polypropylene 630V", "pp"),
+        ("polyester 400V", "pet"),
+        ("PET film 400V", "pet"),
+        ("polyethylene terephthalate 400V", "pet"),
+    ):
+        assert read_ratings("C1", "470n", text).dielectric == dielectric, text
     z = read_ratings("D1", "5V1", "glass Zener 0.5W")
     assert "glass" in z.words and z.package == "do35"
     assert read_ratings("C1", "100n", "safety X2 305VAC").words == ["X2", "safety"]
@@ -168,7 +177,7 @@ def test_tolerance_from_text_and_column():
 
 
 def test_diode_and_bridge_ratings():
-    b = read_ratings("BR1", "MB6S", "Bridge rectifier 600V 0.5A IFSM 30A")
+    b = read_ratings("BR1", "bridge", "Bridge rectifier 600V 0.5A IFSM 30A")
     assert (b.vrrm_v, b.if_av_a, b.ifsm_a) == (600.0, 0.5, 30.0)
 
 

@@ -88,7 +88,8 @@ def test_four_diodes_make_a_bridge(tmp_path):
 def test_ambiguous_series_resistors_name_refs_and_the_fix(tmp_path):
     items = _csv(
         tmp_path,
-        "C1,220n,X2 305VAC\nR1,100R,metal oxide 1W\nR7,1k,resistor 0603 1/10W\nBR1,MB6S,bridge\n"
+        "C1,220n,X2 305VAC\nR1,100R,metal oxide 1W\nR7,1k,resistor 0603 1/10W\n"
+        "BR1,600V 0.5A,bridge\n"
         "D1,12V,Zener 1W\nC2,470u,electrolytic 25V\n",
     )
     with pytest.raises(BadValueError) as info:
@@ -101,7 +102,8 @@ def test_ambiguous_series_resistors_name_refs_and_the_fix(tmp_path):
 def test_explicit_role_resolves_the_ambiguity(tmp_path):
     items = _csv(
         tmp_path,
-        "C1,220n,X2 305VAC\nR1,100R,metal oxide 1W\nR7,1k,resistor 0603 1/10W\nBR1,MB6S,bridge\n"
+        "C1,220n,X2 305VAC\nR1,100R,metal oxide 1W\nR7,1k,resistor 0603 1/10W\n"
+        "BR1,600V 0.5A,bridge\n"
         "D1,12V,Zener 1W\nC2,470u,electrolytic 25V\n",
     )
     rm = infer_roles("", items, parse_role_options(["R7=other"]))
@@ -112,7 +114,7 @@ def test_explicit_role_resolves_the_ambiguity(tmp_path):
 def test_two_reservoir_values_are_ambiguous(tmp_path):
     items = _csv(
         tmp_path,
-        "C1,220n,X2 305VAC\nR1,100R,metal oxide 1W\nBR1,MB6S,bridge\nD1,12V,Zener 1W\n"
+        "C1,220n,X2 305VAC\nR1,100R,metal oxide 1W\nBR1,600V 0.5A,bridge\nD1,12V,Zener 1W\n"
         "C2,470u,electrolytic 25V\nC5,10u,electrolytic 10V\n",
     )
     with pytest.raises(BadValueError, match="which electrolytic is the reservoir: C2.*C5"):
@@ -122,7 +124,7 @@ def test_two_reservoir_values_are_ambiguous(tmp_path):
 def test_fusible_series_resistor_also_serves_as_fuse(tmp_path):
     items = _csv(
         tmp_path,
-        "C1,220n,X2 305VAC\nR1,47R,fusible 0.5W\nBR1,MB6S,bridge\nD1,12V,Zener 1W\n"
+        "C1,220n,X2 305VAC\nR1,47R,fusible 0.5W\nBR1,600V 0.5A,bridge\nD1,12V,Zener 1W\n"
         "C2,470u,electrolytic 25V\n",
     )
     rm = infer_roles("", items)

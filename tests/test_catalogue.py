@@ -323,9 +323,9 @@ def test_price_model_is_labelled_invented(frame):
 
 def test_price_pins():
     rows = {r["code"]: r for r in builtin_rows()}
-    assert rows["XF2-305-330n-K"]["unit_price"] == pytest.approx(0.1141, abs=1e-4)
-    assert rows["RC1206-4k7-J"]["unit_price"] == 0.0025
-    assert rows["RC1206-4k7-J"]["area_mm2"] == pytest.approx(3.2 * 1.6 * 1.6, abs=0.01)
+    assert rows["xcap.x2.305vac.330n.10pct"]["unit_price"] == pytest.approx(0.1141, abs=1e-4)
+    assert rows["res.thick.1206.4k7.5pct"]["unit_price"] == 0.0025
+    assert rows["res.thick.1206.4k7.5pct"]["area_mm2"] == pytest.approx(3.2 * 1.6 * 1.6, abs=0.01)
 
 
 def test_builder_module_names_its_version():

@@ -6,6 +6,7 @@ the built rows are in test_catalogue.py.
 
 from __future__ import annotations
 
+import re
 import shutil
 from pathlib import Path
 
@@ -55,6 +56,10 @@ BAD_DATA = [
     ("families/zeners.toml", 'name = "zener-1w"', 'name = "zener-0w5"', 2, "name", "repeated"),
     ("families/fuses.toml", '"50m", "63m"', '"50m", "6x3m"', 1, "ratings[2]", "cannot read"),
     ("families/diodes.toml", "ifsm_a = 30.0", 'ifsm_a = "lots"', 1, "ifsm_a", "number"),
+    ("families/resistors.toml", 'code = "res.thick"', 'code = "RC"', 1, "code", "res.<family"),
+    ("families/resistors.toml", 'code = "res.thick"', 'code = "res"', 1, "code", "lower-case"),
+    ("families/diodes.toml", 'code = "diode.axial"', 'code = "res.x"', 1, "code", "'diode."),
+    ("families/resistors.toml", 'tag = "0w25"', 'tag = "0.25W"', 3, "size[1].tag", "lower-case"),
     (
         "standards/resistor_sizes.csv",
         "1206,chip,smd,0.25,200",
@@ -95,7 +100,8 @@ def test_bad_toml_syntax(data_copy):
 
 
 def test_duplicate_codes_are_refused(data_copy):
-    _edit(data_copy, "families/zeners.toml", 'code = "ZD1"', 'code = "ZD05"')
+    # the 3 W SMD family made a 0.5 W one: same prefix, power word and values as zener-0w5
+    _edit(data_copy, "families/zeners.toml", "power_w = 3.0", "power_w = 0.5")
     with pytest.raises(BadRowError, match="repeats"):
         builtin_rows(data_copy)
 
@@ -223,3 +229,54 @@ def test_memory_database_builds(memory_engine):
     with memory_engine.connect() as conn:
         n = conn.execute(select(func.count()).select_from(Part)).scalar_one()
     assert n == len(builtin_rows())
+
+
+def test_code_patterns_in_the_readme_cover_every_family():
+    """catalogue/README.md lists one example per family; each must be a code the build makes."""
+    text = (catalogue_dir() / "README.md").read_text(encoding="utf-8")
+    table = re.findall(r"^\| ([a-z0-9, -]+) \| `[^`]+` \| `([^`]+)` \|$", text, flags=re.M)
+    listed = {name.strip() for names, _ in table for name in names.split(",")}
+    assert listed == {f.name for f in load_families()}
+    rows = {row["code"]: row["family"] for row in builtin_rows()}
+    for names, example in table:
+        assert rows.get(example) in {n.strip() for n in names.split(",")}, example
+
+
+def test_every_code_follows_the_pattern():
+    from selector.catalogue.expand import KIND_WORDS
+
+    word = r"[a-z0-9]+"
+    for row in builtin_rows():
+        code = row["code"]
+        assert re.fullmatch(rf"{word}(\.{word})+(\.[A-Za-z0-9]+)(\.{word})*", code), code
+        assert code.split(".")[0] == KIND_WORDS[row["kind"]], code
+
+
+@pytest.mark.parametrize(
+    ("value", "unit", "tag"),
+    [
+        (5.1, "v", "5v1"),
+        (12.0, "v", "12v"),
+        (6.3, "v", "6v3"),
+        (0.5, "w", "0w5"),
+        (0.5, "a", "0a5"),
+    ],
+)
+def test_unit_tag_writes_the_unit_letter_for_the_point(value, unit, tag):
+    # the IEC 60062 principle (4R7 = 4.7 ohm: the letter stands for the decimal point) [S],
+    # carried over to volts, amperes and watts by our own convention
+    from selector.catalogue.expand import unit_tag
+
+    assert unit_tag(value, unit) == tag
+
+
+def test_tolerance_tag_has_no_dot():
+    from selector.catalogue.expand import tolerance_tag
+
+    assert [tolerance_tag(t) for t in (0.05, 0.1, 0.2, 0.01, 0.005)] == [
+        "5pct",
+        "10pct",
+        "20pct",
+        "1pct",
+        "0p5pct",
+    ]

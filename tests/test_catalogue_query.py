@@ -81,8 +81,8 @@ def test_limit_and_sorting(catalogue_engine):
 
 
 def test_result_rows_carry_units(catalogue_engine):
-    (p,) = find_parts(catalogue_engine, "RC1206-4k7-J", limit=1)
-    assert p["code"] == "RC1206-4k7-J" and p["value_unit"] == "ohm" and "score" in p
+    (p,) = find_parts(catalogue_engine, "res.thick.1206.4k7.5pct", limit=1)
+    assert p["code"] == "res.thick.1206.4k7.5pct" and p["value_unit"] == "ohm" and "score" in p
 
 
 def test_unknown_kind_names_the_nearest():
@@ -107,4 +107,4 @@ def test_stats_counts(catalogue_engine):
     assert stats["sources"] == {"builtin": n}
     assert stats["price_notes"] == {"demo price model, invented": n}
     assert stats["price_model"] == "demo price model, invented"
-    assert stats["schema_revision"] == "0002"
+    assert stats["schema_revision"] == "0003"

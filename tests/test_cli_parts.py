@@ -25,9 +25,12 @@ def test_find_exact_output(catalogue_url):
     result = invoke("parts", "find", "x2 330n 305", "--limit", "2", "--db", catalogue_url)
     assert result.exit_code == 0
     assert result.stdout == (
-        "code            kind         value   ratings                           package     price\n"
-        "XF2-305-330n-M  x_capacitor  330 nF  X2 305 VAC ±20 %, 2.5 kV impulse  box P22.5  0.1056\n"
-        "XF2-305-330n-K  x_capacitor  330 nF  X2 305 VAC ±10 %, 2.5 kV impulse  box P22.5  0.1141\n"
+        "code                       kind         value   ratings                           "
+        "package     price\n"
+        "xcap.x2.305vac.330n.20pct  x_capacitor  330 nF  X2 305 VAC ±20 %, 2.5 kV impulse  "
+        "box P22.5  0.1056\n"
+        "xcap.x2.305vac.330n.10pct  x_capacitor  330 nF  X2 305 VAC ±10 %, 2.5 kV impulse  "
+        "box P22.5  0.1141\n"
         "Prices: demo price model, invented.\n"
     )
 
@@ -47,7 +50,7 @@ def test_find_json(catalogue_url):
     doc = json.loads(result.stdout)
     assert doc["count"] == 1
     (part,) = doc["parts"]
-    assert part["code"] == "RC1206-4k7-J"
+    assert part["code"] == "res.thick.1206.4k7.5pct"
     assert part["value"] == 4700.0 and part["value_unit"] == "ohm"  # SI
     assert part["power_w"] == 0.25 and part["limiting_voltage_v"] == 200.0
     assert part["price_note"] == "demo price model, invented"
@@ -70,7 +73,7 @@ def test_find_options(catalogue_url):
     )
     assert result.exit_code == 0
     codes = [p["code"] for p in json.loads(result.stdout)["parts"]]
-    assert codes == ["ZD3-5V1", "ZD5-5V1"]
+    assert codes == ["zener.smd.3w.5v1.5pct", "zener.tht.5w.5v1.5pct"]
 
 
 def test_find_bad_kind_is_one_error_line(catalogue_url):

@@ -45,7 +45,7 @@ def test_empty_to_head_creates_the_tables(empty_db_url):
     try:
         assert current_revision(engine) is None
         migrate(engine)
-        assert current_revision(engine) == head_revision() == "0002"
+        assert current_revision(engine) == head_revision() == "0003"
         assert _tables(engine) == CATALOGUE_TABLES
     finally:
         engine.dispose()
@@ -139,8 +139,92 @@ def test_alembic_command_line_with_the_ini_file(tmp_path: Path):
     assert done.returncode == 0, done.stderr
     engine = make_engine(f"sqlite:///{db}")
     try:
-        assert current_revision(engine) == "0002"
+        assert current_revision(engine) == "0003"
         assert _tables(engine) == CATALOGUE_TABLES
     finally:
         engine.dispose()
     assert not (tmp_path / "not-this.sqlite").exists()
+
+
+def _codes_migration():
+    """The 0003 migration module itself (its mapping is what the upgrade applies)."""
+    import importlib.util
+
+    path = migrations_dir() / "versions" / "0003_part_codes_of_our_own.py"
+    spec = importlib.util.spec_from_file_location("migration_0003", path)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
+
+
+# Regression pins: codes the builder-1 catalogue made (they were the expected codes in this
+# project's own tests before 0003) and the codes builder 2 makes for the same parts.
+OLD_TO_NEW = [
+    ("RC1206-4k7-J", "res.thick.1206.4k7.5pct"),
+    ("RM0207-1M-F", "res.melf.0207.1M.1pct"),
+    ("RMFA025-470k-F", "res.mfilm.0w25.470k.1pct"),
+    ("RFU05W-10R-J", "res.fusible.0w5.10R.5pct"),
+    ("XF2-305-330n-K", "xcap.x2.305vac.330n.10pct"),
+    ("XF2H-310-470n-K", "xcap.x2humid.310vac.470n.10pct"),
+    ("FPET-400-220n-K", "film.pet.400vdc.220n.10pct"),
+    ("DRS1-1000", "diode.smd.1a.1000v"),
+    ("BRM-600", "bridge.smd.0a5.600v"),
+    ("ZD3-5V1", "zener.smd.3w.5v1.5pct"),
+    ("EA105-100u-6V3", "elcap.105c.6v3.100u.20pct"),
+    ("FT-100mA", "fuse.glass.slow.100ma"),
+]
+
+
+@pytest.mark.parametrize(("old", "new"), OLD_TO_NEW)
+def test_code_mapping_pins(old, new):
+    mig = _codes_migration()
+    assert mig.new_code(old) == new
+    assert mig.old_code(new) == old
+
+
+def test_code_mapping_covers_every_builtin_code_both_ways():
+    from selector.catalogue.build import builtin_rows
+
+    mig = _codes_migration()
+    codes = [row["code"] for row in builtin_rows()]
+    olds = [mig.old_code(c) for c in codes]
+    assert None not in olds
+    assert len(set(olds)) == len(codes)  # the old codes are unique too
+    assert [mig.new_code(o) for o in olds] == codes
+    # imported codes and unknown codes are not touched by either direction
+    for other in ("S:shelf:RC0603-4K7-J", "KEEP-1", "res.thick", "RC0603-4k7-Q"):
+        assert mig.new_code(other) is None and mig.old_code(other) is None
+
+
+def test_builtin_codes_are_renamed_up_and_back_down(empty_db_url):
+    from selector.catalogue.build import builtin_rows
+
+    mig = _codes_migration()
+    built = builtin_rows()
+    new_codes = sorted(row["code"] for row in built)
+    engine = make_engine(empty_db_url)
+    try:
+        migrate(engine, "0002")
+        old_rows = [dict(row, code=mig.old_code(row["code"])) for row in built]
+        imported = [
+            _part("S:shelf:RC0603-4K7-J", source="import:shelf"),
+            _part("S:shelf:res.thick.0603.4k7.5pct", source="import:shelf"),
+        ]
+        with engine.begin() as conn:
+            conn.execute(Part.__table__.insert(), old_rows)
+            conn.execute(Part.__table__.insert(), imported)
+        old_codes = sorted(r["code"] for r in old_rows)
+
+        def codes(source_is_builtin: bool) -> list[str]:
+            cond = Part.source == "builtin" if source_is_builtin else Part.source != "builtin"
+            with engine.connect() as conn:
+                return sorted(conn.execute(select(Part.code).where(cond)).scalars())
+
+        migrate(engine, "0003")
+        assert codes(True) == new_codes
+        assert codes(False) == sorted(p["code"] for p in imported)
+        downgrade(engine, "0002")
+        assert codes(True) == old_codes
+        assert codes(False) == sorted(p["code"] for p in imported)
+    finally:
+        engine.dispose()

@@ -182,7 +182,7 @@ DESIGN_DOC = {
             "parts": [
                 {
                     "role": "x_capacitor",
-                    "code": "XF2-330N-305-K",
+                    "code": "xcap.x2.305vac.330n.10pct",
                     "description": "X2 330 nF 305 V",
                     "value": 3.3e-7,
                     "qty": 1,
@@ -190,7 +190,7 @@ DESIGN_DOC = {
                 },
                 {
                     "role": "series_resistor",
-                    "code": "RFU-100R",
+                    "code": "res.fusible.1w.100R.5pct",
                     "description": "fusible 100 ohm 1 W",
                     "value": 100.0,
                     "qty": 1,
@@ -198,7 +198,7 @@ DESIGN_DOC = {
                 },
                 {
                     "role": "zener",
-                    "code": "ZD1-5V1",
+                    "code": "zener.tht.1w.5v1.5pct",
                     "description": "Zener 5.1 V 1 W",
                     "value": 5.1,
                     "qty": 1,
@@ -383,7 +383,7 @@ def test_design_report_shows_the_first_design_and_its_prices():
     assert shown["parts[0].value"] == "330 nF"  # unit from the part's role
     assert shown["parts[1].value"] == "100 Ω"
     assert shown["checks[0].margin"] == "+75.9 %"
-    assert "XF2-330N-305-K" in "".join(page.text)
+    assert "xcap.x2.305vac.330n.10pct" in "".join(page.text)
 
 
 def test_schematics_carry_the_values():

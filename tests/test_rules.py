@@ -330,7 +330,7 @@ def test_registry_is_complete_and_cited():
 def test_rated_part_from_catalogue_row_and_arrangement_validation():
     row = {
         "kind": "resistor",
-        "code": "RC1206-1M",
+        "code": "res.thick.1206.1M.5pct",
         "value": 1e6,
         "power_w": 0.25,
         "limiting_voltage_v": 200.0,

@@ -94,8 +94,8 @@ class Ratings:
 
 _WORDS: Final[tuple[tuple[str, str, str], ...]] = (
     # (regex on upper-case text, attribute, value)
-    (r"METALL?[IY][SZ]ED\s+POLYPROPYLENE|POLYPROPYLENE|\bMKP\b|\bPP\b", "dielectric", "pp"),
-    (r"POLYESTER|\bMKT\b|\bMKS\b|\bPET\b|MYLAR", "dielectric", "pet"),
+    (r"POLYPROPYLENE|\bPP\b", "dielectric", "pp"),
+    (r"POLYESTER|POLYETHYLENE[\s-]*TEREPHTHALATE|\bPETP?\b", "dielectric", "pet"),
     (r"\bC0G\b|\bCOG\b|\bNP0\b|\bNPO\b", "dielectric", "c0g"),
     (r"\bX7R\b|\bX5R\b|\bX7S\b|\bX6S\b|\bY5V\b|\bZ5U\b", "dielectric", "class2_ceramic"),
     (r"METAL[\s-]*OXIDE|\bMOX\b", "technology", "metal_oxide"),
@@ -110,7 +110,10 @@ _ELECTROLYTIC_RE = re.compile(
     r"ELECTROLYTIC|\bELKO\b|ALUMINI?UM|\bALU\b|POLARI[SZ]ED|\bCP_|\bCP\b|\bE-?CAP\b"
 )
 _CERAMIC_RE = re.compile(r"CERAMIC|\bMLCC\b")
-_FILM_RE = re.compile(r"\bFILM\b|METALL?[IY][SZ]ED|\bMKP\b|\bMKT\b|\bMKS\b|POLYPROPYLENE|POLYESTER")
+_FILM_RE = re.compile(
+    r"\bFILM\b|METALL?[IY][SZ]ED|POLYPROPYLENE|POLYESTER|POLYETHYLENE[\s-]*TEREPHTHALATE"
+    r"|\bPETP?\b|\bPP\b"
+)
 _ZENER_RE = re.compile(r"ZENER")
 _BRIDGE_RE = re.compile(r"BRIDGE|(?<![A-Z0-9])(MBS|MBF|ABS|KBP|GBU|DBS|DB-?1)(?![A-Z0-9])")
 _FUSE_RE = re.compile(r"\bFUSE\b|\bFUSES\b")

@@ -54,11 +54,11 @@ def write_bom(path: Path, roles_path: Path, lines: int, distinct: int) -> int:
         led = f"R{7 + board % 3}"
         zpkg = "D_SMB" if pz == "3W" else "D_SMA"
         part = [
-            ("F1", "1", "T100mA", "Fuse, time-lag, 250VAC, I2t 0.5A2s", "Fuse_Holder_TR5"),
+            ("F1", "1", "T100mA", "Fuse, time-lag, 250VAC, I2t 0.5A2s", "Fuse_Holder_PCB"),
             ("R1, R2", "2", rs, "Resistor, metal oxide, 1W, 350V, 5%", "R_Axial_DIN0414"),
             ("C1", "1", cap, "Capacitor X2, metallized polypropylene, 305VAC, 10%", "C_Rect"),
             ("R3-R5", "3", "470k", "Resistor, thick film, 1/4W, 200V, 1%", "R_1206_3216Metric"),
-            ("BR1", "1", "MB6S", "Bridge rectifier 600V 0.5A IFSM 30A", "MBS"),
+            ("BR1", "1", "bridge", "Bridge rectifier 600V 0.5A IFSM 30A", "MBS"),
             ("D1", "1", vz, f"Zener diode {vz} {pz} 5%", zpkg),
             ("C2", "1", "470u", "Electrolytic capacitor 25V 105°C", "CP_Radial_D8.0mm"),
             ("C3", "1", "100n", "Ceramic capacitor 50V X7R", "C_0603_1608Metric"),

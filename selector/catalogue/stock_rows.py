@@ -1,0 +1,447 @@
+"""Validating one stock-list row into the values of a ``parts`` row, with its price breaks.
+
+The family text must name one catalogue family, the value and ratings are read by
+:func:`selector.units.parse_value` in the unit of the family's kind, prices and stock must be
+non-negative numbers. Ratings the file does not give come from the *template*: the built-in part
+of the same family nearest in value (same package / voltage / power when given). Every failure
+is a :class:`BadRowError` naming the file's row and column.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import re
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any, Final
+
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from ..errors import BadRowError, BadValueError, CatalogueError
+from ..units import parse_tolerance, parse_value
+from .build import resistor_working_voltage
+from .models import VALUE_UNITS, Part
+from .stock_families import FamilyInfo, recognise_family
+from .stock_reading import cell_text, normalise_text
+
+#: columns copied from the template part (never the identity, price or stock columns)
+TEMPLATE_COLUMNS: Final[tuple[str, ...]] = (
+    "tolerance",
+    "mount",
+    "package",
+    "area_mm2",
+    "rated_voltage_v",
+    "rated_voltage_ac_v",
+    "limiting_voltage_v",
+    "power_w",
+    "derate_start_c",
+    "derate_end_c",
+    "pulse_energy_j",
+    "safety_class",
+    "impulse_v",
+    "impulse_test_v",
+    "dvdt_v_per_s",
+    "humidity_grade",
+    "vrrm_v",
+    "if_av_a",
+    "ifsm_a",
+    "vf_v",
+    "rs_ohm",
+    "zz_ohm",
+    "tj_max_c",
+    "ripple_a",
+    "temp_max_c",
+    "i2t_a2s",
+    "fusible",
+    "dielectric",
+    "pitch_mm",
+    "body_mm",
+)
+#: what the file's "voltage" column means per kind (the column it sets)
+VOLTAGE_COLUMN: Final[dict[str, str]] = {
+    "x_capacitor": "rated_voltage_ac_v",
+    "film_capacitor": "rated_voltage_v",
+    "electrolytic": "rated_voltage_v",
+    "resistor": "limiting_voltage_v",
+    "diode": "vrrm_v",
+    "bridge": "vrrm_v",
+    "fuse": "rated_voltage_ac_v",
+}
+#: the columns an import compares to decide "unchanged"
+
+
+@dataclass
+class StockRow:
+    """One validated row, ready to write: the part's column values and its price breaks."""
+
+    row: int
+    values: dict[str, Any]
+    breaks: list[tuple[int, float]]
+
+
+def stock_code(supplier: str, supplier_code: str) -> str:
+    """The stable catalogue ``code`` of an imported part: supplier + the supplier's code.
+
+    At most 80 characters (the column's width); longer keys keep a hash so they stay unique.
+
+    >>> stock_code("bench drawer", "C-330n/X2")
+    'S:bench-drawer:C-330n/X2'
+    """
+    supplier_key = re.sub(r"\s+", "-", supplier.strip())
+    code = f"S:{supplier_key}:{supplier_code.strip()}"
+    if len(code) <= 80:
+        return code
+    digest = hashlib.sha1(code.encode("utf-8")).hexdigest()[:12]
+    return f"{code[:67]}~{digest}"
+
+
+def _number(cell: Any, what: str) -> float:
+    """A cell as a number >= 0 (currency signs dropped, one decimal comma allowed)."""
+    if isinstance(cell, (int, float)) and not isinstance(cell, bool):
+        value = float(cell)
+    else:
+        text = cell_text(cell).replace("€", "").replace("$", "").replace("£", "").strip()
+        if text.count(",") == 1 and "." not in text:
+            text = text.replace(",", ".")  # decimal comma
+        try:
+            value = float(text)
+        except ValueError:
+            raise BadValueError(f"cannot read {cell_text(cell)!r} as {what}") from None
+    if not math.isfinite(value) or value < 0:
+        raise BadValueError(f"{what} must be a number >= 0, got {cell_text(cell)!r}")
+    return value
+
+
+def _parse_breaks(cell: Any) -> list[tuple[int, float]]:
+    """``"1:0.12; 10:0.10; 100:0.08"`` (also ``1=0.12``, ``1+ 0.12``) -> [(1, 0.12), ...]."""
+    breaks = []
+    for chunk in re.split(r"[;|]", cell_text(cell)):
+        chunk = chunk.strip()
+        if not chunk:
+            continue
+        found = re.match(r"^(\d+)\s*\+?\s*[:=@ ]\s*(.+)$", chunk)
+        if not found:
+            raise BadValueError(
+                f"cannot read price break {chunk!r}; write them like '1:0.12; 10:0.10'"
+            )
+        breaks.append((int(found.group(1)), _number(found.group(2), "a price")))
+    return breaks
+
+
+def _price_at(breaks: Sequence[tuple[int, float]], qty: int) -> float:
+    """Unit price when buying ``qty`` pieces: the break with the largest min_qty <= qty (or
+    the smallest break when qty is below all)."""
+    ordered = sorted(breaks)
+    applicable = [price for min_qty, price in ordered if min_qty <= qty]
+    return applicable[-1] if applicable else ordered[0][1]
+
+
+@dataclass
+class Lookup:
+    """Per-import caches: the families, each family's built-in parts, recognised texts and
+    templates (a few thousand rows need few database queries)."""
+
+    session: Session
+    families: Sequence[FamilyInfo]
+    parts: dict[str, list[Mapping[str, Any]]] = field(default_factory=dict)
+    recognised: dict[str, FamilyInfo | BadValueError] = field(default_factory=dict)
+    templates: dict[tuple[Any, ...], dict[str, Any]] = field(default_factory=dict)
+    grouped: dict[str, dict[str, list[Mapping[str, Any]]]] = field(default_factory=dict)
+
+    def family(self, text: str) -> FamilyInfo:
+        """The family ``text`` names (each distinct text recognised once)."""
+        got = self.recognised.get(text)
+        if got is None:
+            try:
+                got = recognise_family(text, self.families)
+            except BadValueError as exc:
+                got = exc
+            self.recognised[text] = got
+        if isinstance(got, BadValueError):
+            raise got
+        return got
+
+    def family_parts(self, family: FamilyInfo) -> list[Mapping[str, Any]]:
+        """The family's built-in rows (one query per family)."""
+        if family.name not in self.parts:
+            table = Part.__table__
+            stmt = select(table).where(table.c.source == "builtin", table.c.family == family.name)
+            self.parts[family.name] = list(self.session.execute(stmt).mappings().all())
+        return self.parts[family.name]
+
+    def by_package(self, family: FamilyInfo) -> dict[str, list[Mapping[str, Any]]]:
+        """The family's built-in rows by normalised package name."""
+        key = f"{family.name}\0package"
+        if key not in self.grouped:
+            groups: dict[str, list[Mapping[str, Any]]] = {}
+            for part in self.family_parts(family):
+                if part["package"]:
+                    groups.setdefault(normalise_text(part["package"]), []).append(part)
+            self.grouped[key] = groups
+        return self.grouped[key]
+
+
+def template(
+    lookup: Lookup,
+    family: FamilyInfo,
+    value: float,
+    package: str | None,
+    voltage: float | None,
+    power: float | None = None,
+) -> dict[str, Any]:
+    """Ratings of the built-in part of ``family`` most like the row: same package if any, then
+    same power rating if any, then a voltage rating >= the row's, then nearest in value (log)
+    and in voltage."""
+    key = (family.name, round(math.log10(value), 3), package, voltage, power)
+    if key in lookup.templates:
+        return lookup.templates[key]
+    parts = lookup.family_parts(family)
+    if not parts:
+        raise CatalogueError(f"the catalogue has no built-in parts of family {family.name!r}")
+    pool = parts
+    if package:
+        pool = lookup.by_package(family).get(normalise_text(package)) or pool
+    if power is not None:
+        same_power = [
+            part
+            for part in pool
+            if part["power_w"] and math.isclose(part["power_w"], power, rel_tol=1e-6)
+        ]
+        pool = same_power or pool
+    voltage_column = VOLTAGE_COLUMN.get(family.kind)
+    if voltage is not None and voltage_column:
+        rated_enough = [
+            part
+            for part in pool
+            if part[voltage_column] is not None and part[voltage_column] >= voltage
+        ]
+        pool = rated_enough or pool
+
+    def distance(part: Mapping[str, Any]) -> tuple[float, float]:
+        part_value = part["value"] if part["value"] and part["value"] > 0 else value
+        value_distance = abs(math.log(part_value / value))
+        part_voltage = part[voltage_column] if voltage_column and voltage is not None else None
+        return (value_distance, abs(part_voltage - voltage) if part_voltage is not None else 0.0)
+
+    best = min(pool, key=distance)
+    lookup.templates[key] = {column: best[column] for column in TEMPLATE_COLUMNS}
+    return lookup.templates[key]
+
+
+@dataclass(frozen=True)
+class _RowCells:
+    """One row's cells with the file's header names, for reading fields and naming failures."""
+
+    file: str
+    number: int
+    cells: Sequence[Any]
+    columns: Mapping[str, int]
+    headers: Sequence[str]
+
+    def cell(self, field_name: str) -> Any:
+        index = self.columns.get(field_name)
+        return self.cells[index] if index is not None and index < len(self.cells) else ""
+
+    def text(self, field_name: str) -> str:
+        return cell_text(self.cell(field_name))
+
+    def fail(self, field_name: str | None, problem: str) -> BadRowError:
+        index = self.columns.get(field_name) if field_name else None
+        column = self.headers[index] if index is not None else None
+        return BadRowError(self.file, self.number, column, problem)
+
+
+def _row_family(row: _RowCells, lookup: Lookup) -> FamilyInfo:
+    """The family the row's family text (else its description) names."""
+    family_text = row.text("family") if "family" in row.columns else ""
+    family_field = "family"
+    if not family_text:
+        family_text, family_field = row.text("description"), "description"
+    if not family_text:
+        raise row.fail("family" if "family" in row.columns else None, "no family (nor description)")
+    try:
+        return lookup.family(family_text)
+    except BadValueError as exc:
+        raise row.fail(family_field, str(exc)) from None
+
+
+def _row_rating(row: _RowCells, field_name: str, unit: str) -> float | None:
+    """The row's voltage or power rating (> 0) in ``unit``, None when the cell is empty."""
+    if not row.text(field_name):
+        return None
+    try:
+        rating = parse_value(row.cell(field_name), unit)
+    except BadValueError as exc:
+        raise row.fail(field_name, str(exc)) from None
+    if rating <= 0:
+        raise row.fail(field_name, f"the {field_name} rating must be > 0")
+    return rating
+
+
+def _row_stock(row: _RowCells) -> int | None:
+    """The stock count (a whole number >= 0), None when not given."""
+    if not row.text("stock"):
+        return None
+    try:
+        stock = _number(row.cell("stock"), "a stock count")
+    except BadValueError as exc:
+        raise row.fail("stock", str(exc)) from None
+    if not float(stock).is_integer():
+        raise row.fail("stock", f"a stock count is a whole number, got {row.text('stock')!r}")
+    return int(stock)
+
+
+def _row_price_breaks(
+    row: _RowCells, break_columns: Sequence[tuple[int, int, str]]
+) -> list[tuple[int, float]]:
+    """(min qty, unit price) from the price-break columns, the price-break text and the unit
+    price (as the 1-piece break unless one is given), merged and sorted."""
+    breaks: list[tuple[int, float]] = []
+    for index, min_qty, header in break_columns:
+        cell = row.cells[index] if index < len(row.cells) else ""
+        if cell_text(cell):
+            try:
+                breaks.append((min_qty, _number(cell, "a price")))
+            except BadValueError as exc:
+                raise BadRowError(row.file, row.number, header, str(exc)) from None
+    if row.text("price_breaks"):
+        try:
+            breaks.extend(_parse_breaks(row.cell("price_breaks")))
+        except BadValueError as exc:
+            raise row.fail("price_breaks", str(exc)) from None
+    if row.text("unit_price"):
+        try:
+            single = _number(row.cell("unit_price"), "a price")
+        except BadValueError as exc:
+            raise row.fail("unit_price", str(exc)) from None
+        if not any(min_qty == 1 for min_qty, _ in breaks):
+            breaks.append((1, single))
+    merged: dict[int, float] = {}
+    for min_qty, price in breaks:
+        if min_qty < 1:
+            raise row.fail(
+                "price_breaks", f"a price break starts at 1 piece or more, got {min_qty}"
+            )
+        if min_qty in merged and merged[min_qty] != price:
+            raise row.fail(
+                "price_breaks", f"two prices for {min_qty} pieces: {merged[min_qty]} and {price}"
+            )
+        merged[min_qty] = price
+    breaks = sorted(merged.items())
+    if not breaks:
+        raise row.fail("unit_price", "no price (give a unit price or price-break columns)")
+    return breaks
+
+
+def validate_row(
+    file: str,
+    number: int,
+    cells: Sequence[Any],
+    columns: Mapping[str, int],
+    break_columns: Sequence[tuple[int, int, str]],
+    lookup: Lookup,
+    supplier: str,
+    qty: int,
+    currency: str,
+    headers: Sequence[str],
+) -> StockRow:
+    """One row of the file (``number`` is the file's own) as a :class:`StockRow`.
+
+    ``columns`` maps a field to its column index, ``break_columns`` lists (index, min qty,
+    header) of the price-break columns; ``qty`` is the order quantity whose price becomes the
+    unit price. Raises :class:`BadRowError` on the first problem.
+    """
+    row = _RowCells(file, number, cells, columns, headers)
+    code_text = row.text("supplier_code")
+    if not code_text:
+        raise row.fail("supplier_code", "no supplier part code")
+    family = _row_family(row, lookup)
+    unit = VALUE_UNITS[family.kind]
+    try:
+        value = parse_value(row.cell("value") if row.text("value") else "", unit)
+    except BadValueError as exc:
+        raise row.fail("value", str(exc)) from None
+    if not value > 0:
+        raise row.fail("value", f"the value must be > 0, got {row.text('value')!r}")
+    package = row.text("package") or None
+    voltage = _row_rating(row, "voltage", "V")
+    power = _row_rating(row, "power", "W")
+    values: dict[str, Any] = dict(template(lookup, family, value, package, voltage, power))
+    values.update(
+        code=stock_code(supplier, code_text),
+        kind=family.kind,
+        family=family.name,
+        value=value,
+        supplier=supplier,
+        supplier_code=code_text,
+        source=f"import:{supplier}",
+    )
+    description = row.text("description") if "description" in columns else ""
+    values["description"] = description or f"{family.title} (imported from {supplier})"
+    if package:
+        values["package"] = package
+    if voltage is not None:
+        voltage_column = VOLTAGE_COLUMN.get(family.kind)
+        if voltage_column is None:
+            raise row.fail("voltage", f"a voltage rating means nothing for a {family.kind}")
+        values[voltage_column] = voltage
+    if row.text("tolerance"):
+        try:
+            values["tolerance"] = parse_tolerance(row.cell("tolerance"))
+        except BadValueError as exc:
+            raise row.fail("tolerance", str(exc)) from None
+    if power is not None:
+        values["power_w"] = power
+    if row.text("safety_class"):
+        safety_class = row.text("safety_class").upper()
+        if family.kind == "x_capacitor" and safety_class != (family.safety_class or "").upper():
+            raise row.fail(
+                "safety_class",
+                f"class {safety_class} contradicts family {family.name} ({family.safety_class})",
+            )
+    if row.text("temp_max"):
+        try:
+            values["temp_max_c"] = _number(
+                re.sub(r"(?i)\s*°?\s*c$", "", row.text("temp_max")), "a temperature"
+            )
+        except BadValueError as exc:
+            raise row.fail("temp_max", str(exc)) from None
+    if row.text("ripple"):
+        try:
+            values["ripple_a"] = parse_value(row.cell("ripple"), "A")
+        except BadValueError as exc:
+            raise row.fail("ripple", str(exc)) from None
+    values["stock"] = _row_stock(row)
+    breaks = _row_price_breaks(row, break_columns)
+    values["unit_price"] = _price_at(breaks, qty)
+    shown_currency = row.text("currency") or currency
+    values["price_note"] = f"{supplier} stock list, {shown_currency} per piece at {qty} pcs"
+    return StockRow(number, values, breaks)
+
+
+def set_working_voltages(rows: Sequence[StockRow]) -> None:
+    """Resistors: the working voltage depends on the resistance, min(sqrt(P R), LEV)
+    (:func:`selector.catalogue.build.resistor_working_voltage`), so it is computed for the
+    row's own value, not taken from the template (one vectorised call for all rows)."""
+    import numpy as np
+
+    resistors = [
+        row.values
+        for row in rows
+        if row.values["kind"] == "resistor"
+        and row.values.get("power_w")
+        and row.values.get("limiting_voltage_v")
+    ]
+    if not resistors:
+        return
+    volts = np.atleast_1d(
+        resistor_working_voltage(
+            np.array([values["power_w"] for values in resistors]),
+            np.array([values["value"] for values in resistors]),
+            np.array([values["limiting_voltage_v"] for values in resistors]),
+        )
+    )
+    for values, working_v in zip(resistors, volts, strict=True):
+        values["rated_voltage_v"] = float(working_v)

@@ -1,0 +1,195 @@
+"""The parts a rule looks at and the findings it returns.
+
+``RatedPart`` holds the ratings of one part (or one group of equal parts) as arranged in the
+circuit; ``rated_part_from_row`` makes one from a catalogue row; ``Finding`` is one rule applied to
+one part. Roles and arrangements are fixed here; ratings are per element, SI units.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any, Final
+
+import numpy as np
+
+ROLES: Final[tuple[str, ...]] = (
+    "x_capacitor",
+    "series_resistor",
+    "bleeder",
+    "rectifier",
+    "zener",
+    "reservoir",
+    "fuse",
+    "whole",
+)
+ARRANGEMENTS: Final[tuple[str, ...]] = ("single", "series", "parallel")
+
+#: IEC 60384-14, peak impulse voltage in service that each X subclass is meant for [S]
+#: (X1: 2.5-4 kV, X2: <= 2.5 kV, X3: <= 1.2 kV); any other part across the mains: 0 (fails).
+X_CLASS_IMPULSE_V: Final[dict[str, float]] = {"X1": 4000.0, "X2": 2500.0, "X3": 1200.0}
+
+
+@dataclass(frozen=True)
+class RatedPart:
+    """The ratings of one part (or one group of equal parts) as arranged in the circuit.
+
+    Ratings are per element, SI units, ``None`` when unknown. ``qty`` equal elements are arranged
+    ``single`` / ``series`` / ``parallel``: elements in series share voltage and power, in parallel
+    they share current and power. ``share`` is the fraction of the role's total stress this group
+    carries (1 when it is the only group; the auditor sets R_i / R_total for unequal resistors in
+    series). ``value``: F for capacitors, ohm for resistors, V (Vz) for Zeners, A for fuses.
+    """
+
+    role: str
+    kind: str | None = None
+    code: str | None = None
+    ref: str | None = None
+    description: str | None = None
+    qty: int = 1
+    arrangement: str = "single"
+    share: float = 1.0
+    value: float | None = None
+    tolerance: float | None = None
+    safety_class: str | None = None
+    rated_voltage_v: float | None = None
+    rated_voltage_ac_v: float | None = None
+    limiting_voltage_v: float | None = None
+    power_w: float | None = None
+    derate_start_c: float | None = None
+    derate_end_c: float | None = None
+    pulse_energy_j: float | None = None
+    impulse_v: float | None = None
+    dvdt_v_per_s: float | None = None
+    vrrm_v: float | None = None
+    if_av_a: float | None = None
+    ifsm_a: float | None = None
+    tj_max_c: float | None = None
+    ripple_a: float | None = None
+    temp_max_c: float | None = None
+    i2t_a2s: float | None = None
+    fusible: bool | None = None
+
+    def __post_init__(self) -> None:
+        if self.role not in ROLES:
+            raise ValueError(f"unknown role '{self.role}'; valid roles: {', '.join(ROLES)}")
+        if self.arrangement not in ARRANGEMENTS:
+            raise ValueError(
+                f"unknown arrangement '{self.arrangement}'; valid: {', '.join(ARRANGEMENTS)}"
+            )
+        if self.qty < 1:
+            raise ValueError(f"qty must be >= 1, got {self.qty}")
+
+    # per-element shares of the role's total stress
+    @property
+    def n_series(self) -> int:
+        return self.qty if self.arrangement == "series" else 1
+
+    @property
+    def power_share(self) -> float:
+        """Fraction of the role's power (and pulse energy) one element takes (equal parts)."""
+        return self.share / self.qty
+
+    @property
+    def voltage_share(self) -> float:
+        """Fraction of the role's voltage one element takes (equal parts in series)."""
+        return self.share / self.n_series
+
+    @property
+    def class_impulse_v(self) -> float | None:
+        return x_class_impulse_v(self.safety_class)
+
+
+def x_class_impulse_v(safety_class: str | None) -> float | None:
+    """Peak impulse voltage in service an X subclass is meant for [V] (IEC 60384-14 [S]).
+
+    ``'X2'`` -> 2500.0; a part of no X subclass (general-purpose film, ceramic, Y) -> 0.0;
+    unknown (``None``) -> None.
+    """
+    if safety_class is None:
+        return None
+    return X_CLASS_IMPULSE_V.get(str(safety_class).strip().upper(), 0.0)
+
+
+#: catalogue columns that carry ratings (DEVELOPERS.md "Catalogue")
+_RATING_COLUMNS: Final[tuple[str, ...]] = tuple(
+    f.name
+    for f in dataclasses.fields(RatedPart)
+    if f.name not in {"role", "kind", "code", "ref", "description", "qty", "arrangement", "share"}
+)
+
+
+def _clean(value: Any) -> Any:
+    """A catalogue cell as a plain Python value; NaN, pandas NA/NaT -> None."""
+    if value is None:
+        return None
+    if isinstance(value, float) and math.isnan(value):
+        return None
+    if isinstance(value, (np.floating, np.integer)):
+        value = value.item()
+        if isinstance(value, float) and math.isnan(value):
+            return None
+    if value is getattr(np, "nan", object()):
+        return None
+    try:
+        import pandas as pd
+
+        if value is pd.NA or value is pd.NaT:
+            return None
+    except ImportError:  # pragma: no cover
+        pass
+    return value
+
+
+def rated_part_from_row(
+    row: Mapping[str, Any],
+    role: str,
+    qty: int = 1,
+    arrangement: str = "single",
+    ref: str | None = None,
+    share: float = 1.0,
+) -> RatedPart:
+    """A RatedPart from a catalogue row (a ``parts_frame`` row or any mapping of its columns)."""
+    ratings: dict[str, Any] = {}
+    for name in _RATING_COLUMNS:
+        if name in row:
+            value = _clean(row[name])
+            if name == "fusible" and value is not None:
+                value = bool(value)
+            elif name == "safety_class" and value is not None:
+                value = str(value)
+            elif value is not None:
+                value = float(value)
+            ratings[name] = value
+    return RatedPart(
+        role=role,
+        kind=_clean(row.get("kind")),
+        code=_clean(row.get("code")),
+        description=_clean(row.get("description")),
+        ref=ref,
+        qty=qty,
+        arrangement=arrangement,
+        share=share,
+        **ratings,
+    )
+
+
+@dataclass(frozen=True)
+class Finding:
+    """One rule applied to one part: ok iff stress <= limit (see ``selector.rules``)."""
+
+    rule: str
+    part: str
+    stress: float | None
+    limit: float | None
+    unit: str
+    margin: float | None
+    ok: bool
+    severity: str  # 'fail' | 'warn' | 'pass'
+    source: str
+    corner: str | None = None
+    ref: str | None = None
+    description: str = ""
+    note: str = ""

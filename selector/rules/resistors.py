@@ -1,0 +1,116 @@
+"""Stress and limit of each resistor rule: the series resistor and the bleeder.
+
+Every function maps ``(stresses, part, policy)`` to ``(stress, limit)`` (see
+``selector.rules.x_capacitor``). Stresses are the role's totals; ``part.power_share`` and
+``part.voltage_share`` give one element's part of them (equal elements in series or parallel).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from typing import Any
+
+import numpy as np
+
+from ..policy import Policy
+from .limits import derated_power, resistor_derating_span
+
+# --- series resistor ------------------------------------------------------------------------
+
+
+def series_r_power_vs_derated_rating(
+    stresses: Mapping[str, Any], part: Any, policy: Policy
+) -> tuple[Any, Any]:
+    """Continuous power per element [W] against the rating derated to the ambient x fraction.
+
+    Derating: the part's own span, else full power to 70 C and zero at 155 C [S].
+    """
+    start, end = resistor_derating_span(part)
+    limit = derated_power(part.power_w, stresses["ambient_c"], start, end)
+    return (
+        stresses["max_series_r_power_w"] * part.power_share,
+        limit * policy.series_r_power_fraction,
+    )
+
+
+def switch_on_energy_vs_pulse_rating(
+    stresses: Mapping[str, Any], part: Any, policy: Policy
+) -> tuple[Any, Any]:
+    """Switch-on pulse energy per element [J] (0.5 C V^2) against pulse energy x fraction."""
+    return (
+        stresses["inrush_series_r_energy_j"] * part.power_share,
+        part.pulse_energy_j * policy.pulse_energy_fraction,
+    )
+
+
+def surge_energy_vs_pulse_rating(
+    stresses: Mapping[str, Any], part: Any, policy: Policy
+) -> tuple[Any, Any]:
+    """Surge pulse energy per element [J] against pulse energy x fraction."""
+    return (
+        stresses["surge_series_r_energy_j"] * part.power_share,
+        part.pulse_energy_j * policy.pulse_energy_fraction,
+    )
+
+
+def steady_peak_voltage_vs_limiting_voltage(
+    stresses: Mapping[str, Any], part: Any, policy: Policy
+) -> tuple[Any, Any]:
+    """Steady-state peak voltage of one element [V], sqrt(2) I_rms,max R_element, against the
+    limiting element voltage x ``limiting_voltage_fraction``."""
+    stress = math.sqrt(2.0) * stresses["max_line_current_rms_a"] * part.value
+    return stress, part.limiting_voltage_v * policy.limiting_voltage_fraction
+
+
+def switch_on_voltage_vs_pulse_limit(
+    stresses: Mapping[str, Any], part: Any, policy: Policy
+) -> tuple[Any, Any]:
+    """Switch-on peak voltage of one element [V], I_peak R_element, against the limiting
+    voltage x pulse factor x ``limiting_voltage_fraction``."""
+    stress = stresses["inrush_peak_current_a"] * part.value
+    limit = part.limiting_voltage_v * policy.pulse_voltage_factor * policy.limiting_voltage_fraction
+    return stress, limit
+
+
+def surge_voltage_vs_pulse_limit(
+    stresses: Mapping[str, Any], part: Any, policy: Policy
+) -> tuple[Any, Any]:
+    """Surge peak voltage per element [V] (the role's peak split among elements in series)
+    against the limiting voltage x pulse factor x ``limiting_voltage_fraction``."""
+    stress = stresses["surge_series_r_peak_voltage_v"] * part.voltage_share
+    limit = part.limiting_voltage_v * policy.pulse_voltage_factor * policy.limiting_voltage_fraction
+    return stress, limit
+
+
+# --- bleeder --------------------------------------------------------------------------------
+
+
+def discharge_time_vs_profile(
+    stresses: Mapping[str, Any], part: Any, policy: Policy
+) -> tuple[Any, Any]:
+    """The profile's discharge time (or time constant for iec60950) [s] against the time it
+    allows [s]; an exempt capacitor (e.g. <= 0.1 uF under IEC 60335-1 22.5) has stress 0."""
+    exempt = stresses["discharge_exempt"]
+    return np.where(exempt, 0.0, stresses["discharge_time_s"]), stresses["discharge_allowed_s"]
+
+
+def bleeder_power_vs_derated_rating(
+    stresses: Mapping[str, Any], part: Any, policy: Policy
+) -> tuple[Any, Any]:
+    """Continuous power per bleeder element [W] against the derated rating x fraction."""
+    start, end = resistor_derating_span(part)
+    limit = derated_power(part.power_w, stresses["ambient_c"], start, end)
+    return (
+        stresses["max_bleeder_power_w"] * part.power_share,
+        limit * policy.bleeder_power_fraction,
+    )
+
+
+def bleeder_voltage_vs_limiting_voltage(
+    stresses: Mapping[str, Any], part: Any, policy: Policy
+) -> tuple[Any, Any]:
+    """Peak voltage per bleeder element [V] (split among elements in series) against the
+    limiting voltage x ``limiting_voltage_fraction``."""
+    stress = stresses["max_bleeder_voltage_v"] * part.voltage_share
+    return stress, part.limiting_voltage_v * policy.limiting_voltage_fraction

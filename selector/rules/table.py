@@ -1,0 +1,302 @@
+"""The rule table: every rule design and audit apply, one entry per rule.
+
+An entry names the rule id (``<role>.<what>``), its role, what it checks, the source, the unit,
+and the function that gives its ``(stress, limit)`` (from the role modules), then the part
+ratings it reads (``ratings``; a missing one gives a 'warn' finding), the stress keys it needs
+(``stress_keys``), the key whose corner the finding reports (``corner_key``, default the first
+stress key) and when it applies (``applies``, default always).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass
+from typing import Any, Final
+
+from ..policy import Policy
+from .fuse import (
+    rated_current_vs_fault_current,
+    rated_power_vs_fault_power,
+    switch_on_i2t_vs_melting_i2t,
+)
+from .limits import margin
+from .parts import ROLES, RatedPart
+from .reservoir import (
+    ambient_vs_temperature_class,
+    bus_voltage_vs_rated_voltage,
+    output_ripple_vs_bus_fraction,
+    ripple_current_vs_rating,
+)
+from .resistors import (
+    bleeder_power_vs_derated_rating,
+    bleeder_voltage_vs_limiting_voltage,
+    discharge_time_vs_profile,
+    series_r_power_vs_derated_rating,
+    steady_peak_voltage_vs_limiting_voltage,
+    surge_energy_vs_pulse_rating,
+    surge_voltage_vs_pulse_limit,
+    switch_on_energy_vs_pulse_rating,
+    switch_on_voltage_vs_pulse_limit,
+)
+from .semiconductors import (
+    average_current_vs_if_av,
+    mains_crest_vs_vrrm,
+    switch_on_peak_current_vs_ifsm,
+    zener_power_vs_derated_rating,
+)
+from .whole import (
+    burst_droop_vs_bus_fraction,
+    load_vs_min_dc_current,
+    no_load_power_vs_standby_limit,
+)
+from .x_capacitor import (
+    mains_rms_vs_rated_ac_voltage,
+    safety_class_is_x_subclass,
+    surge_dvdt_vs_rating,
+    surge_level_vs_class_impulse,
+    switch_on_dvdt_vs_rating,
+)
+
+SOURCE_P: Final[str] = "[P] common practice, no source"
+
+
+@dataclass(frozen=True)
+class Rule:
+    """One registered rule (see the module docstring for the fields)."""
+
+    id: str
+    role: str
+    description: str
+    source: str
+    unit: str
+    #: (stresses, part, policy) -> (stress, limit)
+    fn: Callable[[Mapping[str, Any], Any, Policy], tuple[Any, Any]]
+    ratings: tuple[str, ...] = ()
+    stress_keys: tuple[str, ...] = ()
+    #: the stress key whose worst-case corner the finding reports
+    corner_key: str | None = None
+    #: only for parts of this kind (e.g. fusible resistors), or when this stress key is truthy
+    applies: Callable[[Mapping[str, Any], RatedPart], bool] | None = None
+
+    def check(self, stresses: Mapping[str, Any], part: Any, policy: Policy) -> tuple[Any, Any, Any]:
+        """(stress, limit, margin); arrays in, arrays out."""
+        stress, limit = self.fn(stresses, part, policy)
+        return stress, limit, margin(stress, limit)
+
+
+def not_fusible_resistor(stresses: Mapping[str, Any], part: Any) -> bool:
+    """A real fuse, not a fusible series resistor serving as one."""
+    return not bool(part.fusible)
+
+
+def fusible_resistor(stresses: Mapping[str, Any], part: Any) -> bool:
+    """A fusible series resistor serving as the fuse."""
+    return bool(part.fusible)
+
+
+def surge_given(stresses: Mapping[str, Any], part: Any) -> bool:
+    """A surge level > 0 is set (with none the engine computes no surge and the rules skip)."""
+    level = stresses.get("surge_level_v")
+    return level is not None and not (isinstance(level, float) and math.isnan(level)) and level > 0
+
+
+def burst_given(stresses: Mapping[str, Any], part: Any) -> bool:
+    """The load has a burst (current and duration both set)."""
+    return bool(stresses.get("burst_current_a")) and bool(stresses.get("burst_duration_s"))
+
+
+_PULSE_FACTOR_SOURCE: Final[str] = (
+    SOURCE_P + "; pulse factor from IEC 60115-1 short-time overload [M]"
+)
+_RESISTOR_DERATING_SOURCE: Final[str] = (
+    SOURCE_P + "; derating 70 C -> 155 C from generic datasheets [S]"
+)
+
+# One entry per rule: Rule(id, role, what it checks, source, unit, stress-and-limit function,
+# ratings=, stress_keys=, corner_key=, applies=).
+# fmt: off
+RULES: Final[tuple[Rule, ...]] = (
+    # --- X capacitor (x_capacitor.py) -------------------------------------------------------
+    Rule("x_cap.safety_class", "x_capacitor",
+         "an X1/X2/X3 safety capacitor across the mains (X3 only for surges <= 1.2 kV); never a "
+         "general-purpose film or ceramic",
+         "IEC 60384-14 (subclasses X1/X2/X3) [S]",
+         "class", safety_class_is_x_subclass,
+         ratings=("safety_class",)),
+    Rule("x_cap.ac_voltage", "x_capacitor",
+         "rated AC voltage >= highest mains rms",
+         SOURCE_P,
+         "V", mains_rms_vs_rated_ac_voltage,
+         ratings=("rated_voltage_ac_v",), stress_keys=("mains_max_v",)),
+    Rule("x_cap.impulse", "x_capacitor",
+         "impulse class covers the surge level (X3 <= 1.2 kV, X2 <= 2.5 kV, X1 <= 4 kV peak)",
+         "IEC 60384-14, peak impulse voltage in service [S]; surge per IEC 61000-4-5",
+         "V", surge_level_vs_class_impulse,
+         ratings=("safety_class",), stress_keys=("surge_level_v",)),
+    Rule("x_cap.dvdt_switch_on", "x_capacitor",
+         "dV/dt at switch-on at the crest <= rated dV/dt",
+         SOURCE_P,
+         "V/s", switch_on_dvdt_vs_rating,
+         ratings=("dvdt_v_per_s",), stress_keys=("inrush_x_cap_dvdt_v_per_s",)),
+    Rule("x_cap.dvdt_surge", "x_capacitor",
+         "dV/dt during the mains surge <= rated dV/dt",
+         SOURCE_P + "; surge per IEC 61000-4-5",
+         "V/s", surge_dvdt_vs_rating,
+         ratings=("dvdt_v_per_s",), stress_keys=("surge_x_cap_dvdt_v_per_s",),
+         applies=surge_given),
+    # --- series resistor (resistors.py) -----------------------------------------------------
+    Rule("series_r.power", "series_resistor",
+         "continuous power per element <= rating derated to the ambient x policy fraction",
+         _RESISTOR_DERATING_SOURCE,
+         "W", series_r_power_vs_derated_rating,
+         ratings=("power_w",), stress_keys=("max_series_r_power_w", "ambient_c"),
+         corner_key="max_series_r_power_w"),
+    Rule("series_r.switch_on_energy", "series_resistor",
+         "switch-on pulse energy per element (0.5 C V^2) within the family's pulse capability",
+         SOURCE_P + "; energy 0.5 C V^2 of RC charging [S]",
+         "J", switch_on_energy_vs_pulse_rating,
+         ratings=("pulse_energy_j",), stress_keys=("inrush_series_r_energy_j",)),
+    Rule("series_r.surge_energy", "series_resistor",
+         "surge pulse energy per element within the family's pulse capability",
+         SOURCE_P + "; surge per IEC 61000-4-5",
+         "J", surge_energy_vs_pulse_rating,
+         ratings=("pulse_energy_j",), stress_keys=("surge_series_r_energy_j",),
+         applies=surge_given),
+    Rule("series_r.peak_voltage", "series_resistor",
+         "steady-state peak voltage per element <= limiting element voltage x policy fraction",
+         SOURCE_P,
+         "V", steady_peak_voltage_vs_limiting_voltage,
+         ratings=("limiting_voltage_v", "value"), stress_keys=("max_line_current_rms_a",),
+         corner_key="max_line_current_rms_a"),
+    Rule("series_r.switch_on_voltage", "series_resistor",
+         "switch-on peak voltage per element <= limiting voltage x pulse factor x policy fraction",
+         _PULSE_FACTOR_SOURCE,
+         "V", switch_on_voltage_vs_pulse_limit,
+         ratings=("limiting_voltage_v", "value"), stress_keys=("inrush_peak_current_a",)),
+    Rule("series_r.surge_voltage", "series_resistor",
+         "surge peak voltage per element <= limiting voltage x pulse factor x policy fraction",
+         _PULSE_FACTOR_SOURCE,
+         "V", surge_voltage_vs_pulse_limit,
+         ratings=("limiting_voltage_v",), stress_keys=("surge_series_r_peak_voltage_v",),
+         applies=surge_given),
+    # --- bleeder (resistors.py) -------------------------------------------------------------
+    Rule("bleeder.discharge", "bleeder",
+         "the X capacitor discharges to the profile's limit in the time it allows",
+         "discharge profile: IEC 60335-1 22.5 (34 V after 1 s; C <= 0.1 uF exempt) [S], "
+         "IEC 62368-1 5.5.2.2 (2 s [S], 60 V [M]), IEC 60950-1 2.1.1.7 (R C <= 1 s) [S]",
+         "s", discharge_time_vs_profile,
+         ratings=(), stress_keys=("discharge_time_s", "discharge_allowed_s")),
+    Rule("bleeder.power", "bleeder",
+         "continuous power per element <= rating derated to the ambient x policy fraction",
+         _RESISTOR_DERATING_SOURCE,
+         "W", bleeder_power_vs_derated_rating,
+         ratings=("power_w",), stress_keys=("max_bleeder_power_w", "ambient_c"),
+         corner_key="max_bleeder_power_w"),
+    Rule("bleeder.voltage", "bleeder",
+         "peak voltage per element (split among elements in series) <= limiting voltage x "
+         "policy fraction",
+         SOURCE_P + "; resistor working voltage min(sqrt(P R), LEV) [S]",
+         "V", bleeder_voltage_vs_limiting_voltage,
+         ratings=("limiting_voltage_v",), stress_keys=("max_bleeder_voltage_v",),
+         corner_key="max_bleeder_voltage_v"),
+    # --- rectifier and Zener (semiconductors.py) --------------------------------------------
+    Rule("rectifier.vrrm", "rectifier",
+         "VRRM >= highest mains crest",
+         SOURCE_P,
+         "V", mains_crest_vs_vrrm,
+         ratings=("vrrm_v",), stress_keys=("max_rectifier_reverse_voltage_v", "mains_max_v"),
+         corner_key="max_rectifier_reverse_voltage_v"),
+    Rule("rectifier.ifsm", "rectifier",
+         "switch-on peak current <= IFSM",
+         SOURCE_P,
+         "A", switch_on_peak_current_vs_ifsm,
+         ratings=("ifsm_a",), stress_keys=("inrush_rectifier_peak_current_a",)),
+    Rule("rectifier.avg_current", "rectifier",
+         "average forward current <= IF(AV)",
+         SOURCE_P,
+         "A", average_current_vs_if_av,
+         ratings=("if_av_a",), stress_keys=("max_rectifier_avg_current_a",),
+         corner_key="max_rectifier_avg_current_a"),
+    Rule("zener.power", "zener",
+         "worst-case dissipation per element (zero load, high line, high frequency) <= power "
+         "derated to the ambient x policy fraction",
+         SOURCE_P + "; derating to zero at Tj max from generic datasheets [S]",
+         "W", zener_power_vs_derated_rating,
+         ratings=("power_w",), stress_keys=("max_zener_power_w", "ambient_c"),
+         corner_key="max_zener_power_w"),
+    # --- reservoir (reservoir.py) -----------------------------------------------------------
+    Rule("reservoir.voltage", "reservoir",
+         "highest bus voltage <= rated voltage x policy fraction (rated >= Vz_max / 0.8)",
+         SOURCE_P,
+         "V", bus_voltage_vs_rated_voltage,
+         ratings=("rated_voltage_v",), stress_keys=("max_output_voltage_v",),
+         corner_key="max_output_voltage_v"),
+    Rule("reservoir.ripple", "reservoir",
+         "ripple current <= rated ripple current",
+         SOURCE_P,
+         "A", ripple_current_vs_rating,
+         ratings=("ripple_a",), stress_keys=("max_reservoir_ripple_current_a",),
+         corner_key="max_reservoir_ripple_current_a"),
+    Rule("reservoir.output_ripple", "reservoir",
+         "output ripple (peak to peak, worst corner) <= Zener voltage x policy fraction",
+         SOURCE_P + "; ripple of a reservoir between charging pulses, C dV = I dt [S]",
+         "V", output_ripple_vs_bus_fraction,
+         ratings=("value",), stress_keys=("max_output_ripple_v", "zener_voltage_v"),
+         corner_key="max_output_ripple_v"),
+    Rule("reservoir.temperature", "reservoir",
+         "temperature class >= max ambient + policy margin",
+         SOURCE_P,
+         "C", ambient_vs_temperature_class,
+         ratings=("temp_max_c",), stress_keys=("ambient_c",)),
+    # --- fuse (fuse.py) ---------------------------------------------------------------------
+    Rule("fuse.inrush_i2t", "fuse",
+         "the fuse does not open at switch-on: switch-on I^2t <= melting I^2t x policy fraction",
+         SOURCE_P + "; I^2t = Vpk^2 C / (2 R) of RC charging [S]",
+         "A2s", switch_on_i2t_vs_melting_i2t,
+         ratings=("i2t_a2s",), stress_keys=("inrush_i2t_a2s",),
+         applies=not_fusible_resistor),
+    Rule("fuse.opens_on_short", "fuse",
+         "the fuse opens if the X capacitor shorts: low-line fault current through the series "
+         "resistance >= rated current x policy factor",
+         SOURCE_P,
+         "A", rated_current_vs_fault_current,
+         ratings=("value",), stress_keys=("mains_min_v", "series_resistance_ohm"),
+         applies=not_fusible_resistor),
+    Rule("fuse.fusible_opens_on_short", "fuse",
+         "a fusible series resistor opens if the X capacitor shorts: fault power per element >= "
+         "rated power x policy factor",
+         SOURCE_P,
+         "W", rated_power_vs_fault_power,
+         ratings=("power_w",), stress_keys=("mains_min_v", "series_resistance_ohm"),
+         applies=fusible_resistor),
+    # --- whole circuit (whole.py) -----------------------------------------------------------
+    Rule("whole.min_current", "whole",
+         "worst-case minimum DC current >= load x (1 + policy margin)",
+         SOURCE_P,
+         "A", load_vs_min_dc_current,
+         stress_keys=("load_a", "min_dc_current_a"),
+         corner_key="min_dc_current_a"),
+    Rule("whole.standby_power", "whole",
+         "no-load real power <= standby limit",
+         "EU Regulation 2023/826, off/standby mode <= 0.5 W [S]",
+         "W", no_load_power_vs_standby_limit,
+         stress_keys=("no_load_real_power_w",),
+         corner_key="no_load_real_power_w"),
+    Rule("whole.burst_holdup", "whole",
+         "the reservoir holds the bus through a load burst: droop <= Zener voltage x policy "
+         "fraction",
+         SOURCE_P + "; C dV = I t [S]",
+         "V", burst_droop_vs_bus_fraction,
+         stress_keys=("burst_current_a", "burst_duration_s", "reservoir_min_f",
+                      "zener_voltage_v"),
+         corner_key="min_dc_current_a", applies=burst_given),
+)
+# fmt: on
+
+
+def rules_for(role: str) -> tuple[Rule, ...]:
+    """The registered rules of one role."""
+    if role not in ROLES:
+        raise ValueError(f"unknown role '{role}'; valid roles: {', '.join(ROLES)}")
+    return tuple(r for r in RULES if r.role == role)
