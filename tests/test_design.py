@@ -69,7 +69,7 @@ def _brute(req):
     return _BRUTE[req]
 
 
-@pytest.mark.parametrize("req", _random_requirements(22), ids=lambda r: f"{r.load_a * 1e3:g}mA")
+@pytest.mark.parametrize("req", _random_requirements(50), ids=lambda r: f"{r.load_a * 1e3:g}mA")
 def test_solver_optimum_equals_brute_force(req):
     brute = _brute(req)
     if brute is None:
@@ -81,9 +81,10 @@ def test_solver_optimum_equals_brute_force(req):
 
 
 def test_some_random_requirements_are_feasible():
-    # the agreement above must not be vacuous: most requirements have a design
-    feasible = sum(_brute(r) is not None for r in _random_requirements(22))
-    assert feasible >= 12
+    # the agreement above must not be vacuous: most requirements have a design (unequal
+    # series pairs winning on the built-in catalogue: tests/test_design_engine.py)
+    results = [_brute(r) for r in _random_requirements(50)]
+    assert sum(b is not None for b in results) >= 25
 
 
 def _recheck(d: D.Design, req: D.Requirement) -> list[R.Finding]:
@@ -237,6 +238,8 @@ def test_range_min_matches_naive(vals, keys, lo, width):
         assert g == -1
     else:
         assert k[g] == min(k[i] for i in ok)
+        # tie-break policy: among equal keys the largest value (a bleeder's lower loss)
+        assert v[g] == max(v[i] for i in ok if k[i] == k[g])
 
 
 def test_objective_key_is_lexicographic():

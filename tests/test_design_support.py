@@ -322,7 +322,12 @@ def brute_force(df: pd.DataFrame, req: Requirement, policy, analyse=standin_anal
     xcaps = by.get("x_capacitor", [])
     xopts = [(a,) for a in xcaps] + [(a, b) for i, a in enumerate(xcaps) for b in xcaps[i:]]
     res = by.get("resistor", [])
-    ropts = [(r, q) for r in res if r["value"] * 1 <= 1e5 for q in (1, 2) if r["value"] * q <= 1e5]
+    # series resistance: one part, two equal, or two different parts in series (issue 13)
+    ropts = [(r,) for r in res if r["value"] <= 1e5]
+    ropts += [(r, r) for r in res if 2 * r["value"] <= 1e5]
+    ropts += [
+        (a, b) for i, a in enumerate(res) for b in res[i + 1 :] if a["value"] + b["value"] <= 1e5
+    ]
     bopts = [(r, q) for r in res for q in (1, 2, 3) if r["value"] * q >= 1e3]
     zeners = by.get("zener", [])
     diodes = by.get("diode", [])
@@ -362,15 +367,15 @@ def brute_force(df: pd.DataFrame, req: Requirement, policy, analyse=standin_anal
             if top == "bridge"
             else [((d,), "single") for d in by.get("diode", [])]
         )
-        for xo, (rr, rq), (br, bq), (rect, _rarr), (zs, vz), cap in itertools.product(
+        for xo, rs_, (br, bq), (rect, _rarr), (zs, vz), cap in itertools.product(
             xopts, ropts, bopts, rects, zener_options(top), caps
         ):
-            base = list(xo) + [rr] * rq + [br] * bq + list(rect) + list(zs) + [cap]
+            r_total = sum(r["value"] for r in rs_)
+            base = list(xo) + list(rs_) + [br] * bq + list(rect) + list(zs) + [cap]
             ck = (
                 top,
                 tuple(x["code"] for x in xo),
-                rr["code"],
-                rq,
+                tuple(r["code"] for r in rs_),
                 br["code"],
                 bq,
                 rect[0]["code"],
@@ -379,13 +384,13 @@ def brute_force(df: pd.DataFrame, req: Requirement, policy, analyse=standin_anal
                 cap["code"],
             )
             xt = sum(x["value"] * x["tolerance"] for x in xo) / sum(x["value"] for x in xo)
-            rtol = max(rr["tolerance"], br["tolerance"])
+            rtol = max([r["tolerance"] for r in rs_] + [br["tolerance"]])
             # memo by electrical values: equal values give the same analysis
             ek = (
                 top,
                 tuple(x["value"] for x in xo),
                 xt,
-                rr["value"] * rq,
+                r_total,
                 br["value"] * bq,
                 rtol,
                 rect[0]["vf_v"],
@@ -395,11 +400,11 @@ def brute_force(df: pd.DataFrame, req: Requirement, policy, analyse=standin_anal
                 zs[0]["tolerance"],
                 cap["value"],
                 cap["tolerance"],
-                rr["tolerance"],
+                max(r["tolerance"] for r in rs_),
             )
             ctx = dict(
                 s_ctx,
-                series_resistance_ohm=rr["value"] * rq * (1 + rr["tolerance"]),
+                series_resistance_ohm=r_total * (1 + max(r["tolerance"] for r in rs_)),
                 zener_voltage_v=vz,
                 reservoir_min_f=cap["value"] * (1 - cap["tolerance"]),
             )
@@ -407,7 +412,7 @@ def brute_force(df: pd.DataFrame, req: Requirement, policy, analyse=standin_anal
                 circ = Circuit(
                     topology=top,
                     x_capacitors_f=tuple(x["value"] for x in xo),
-                    series_resistance_ohm=rr["value"] * rq,
+                    series_resistance_ohm=r_total,
                     bleeder_resistance_ohm=br["value"] * bq,
                     diode_drop_v=rect[0]["vf_v"],
                     diode_resistance_ohm=rect[0]["rs_ohm"],
@@ -432,7 +437,7 @@ def brute_force(df: pd.DataFrame, req: Requirement, policy, analyse=standin_anal
                 continue
             parts = {
                 "x_capacitor": _x_parts(xo),
-                "series_resistor": _rp(rr, "series_resistor", rq, "series"),
+                "series_resistor": _series_parts(rs_),
                 "bleeder": _rp(br, "bleeder", bq, "series"),
                 "rectifier": _rp(rect[0], "rectifier", len(rect), "single"),
                 "zener": _rp(zs[0], "zener", len(zs), "series"),
@@ -442,12 +447,11 @@ def brute_force(df: pd.DataFrame, req: Requirement, policy, analyse=standin_anal
             if any(f.severity != "pass" for f in common):
                 continue
             fuse_choices = [(f, R.rated_part_from_row(f, "fuse")) for f in fuses]
-            if rr.get("fusible"):
+            fusible = [p for p in _series_list(rs_) if p.fusible]
+            if fusible:
                 import dataclasses
 
-                fuse_choices.append(
-                    (None, dataclasses.replace(parts["series_resistor"], role="fuse"))
-                )
+                fuse_choices.append((None, dataclasses.replace(fusible[0], role="fuse")))
             for frow, fpart in fuse_choices:
                 ff = R.evaluate({"fuse": fpart}, None, policy, stresses=s_an, corners=c_an)
                 if any(f.severity != "pass" for f in ff):
@@ -477,6 +481,20 @@ def _rp(row, role, qty, arrangement):
             arr = "single"
         _RP[key] = R.rated_part_from_row(row, role, qty=qty, arrangement=arr)
     return _RP[key]
+
+
+def _series_list(rs_):
+    """Each element of a series option with its share R_i / R_total (one entry for equal)."""
+    if len(rs_) == 1 or rs_[0]["code"] == rs_[1]["code"]:
+        arr = "series" if len(rs_) == 2 else "single"
+        return [R.rated_part_from_row(rs_[0], "series_resistor", qty=len(rs_), arrangement=arr)]
+    total = sum(r["value"] for r in rs_)
+    return [R.rated_part_from_row(r, "series_resistor", share=r["value"] / total) for r in rs_]
+
+
+def _series_parts(rs_):
+    parts = _series_list(rs_)
+    return parts[0] if len(parts) == 1 else parts
 
 
 def _x_parts(xo):

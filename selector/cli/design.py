@@ -102,6 +102,14 @@ def design(
     bom: Annotated[
         Path | None, typer.Option("--bom", help="Write the best set as a BOM CSV here.")
     ] = None,
+    time_limit: Annotated[
+        str | None,
+        typer.Option(
+            "--time-limit",
+            help="Stop the search after this long (30s, 2m) and say which bound is still "
+            "open; without it the search runs until the optimum is proven.",
+        ),
+    ] = None,
     json: JsonOpt = False,
     db: DbOpt = None,
     report: Annotated[
@@ -149,11 +157,16 @@ def design(
         tht_only=tht_only,
         exclude=tuple(exclude or ()),
     )
+    limit_s = None
+    if time_limit is not None:
+        limit_s = parse_value(time_limit, "s")
+        if not limit_s > 0:
+            raise BadValueError(f"--time-limit must be > 0 s, got {time_limit!r}")
     frame = parts_frame(open_catalogue(resolve_url(db)), stock_only=stock_only)
     # a progress bar (stderr) for searches over large catalogues
     bar = None if json or len(frame) < 1000 else _Bar("searching part sets")
     try:
-        designs = D.design(frame, req, pol, progress=bar)
+        designs = D.design(frame, req, pol, progress=bar, time_limit_s=limit_s)
     finally:
         if bar is not None:
             bar.close()
@@ -289,7 +302,16 @@ def _echo_design(d: Any, n: int, req: Any) -> None:
         ):
             typer.echo(f"    {label:<20} {format_value(val, unit):>10}   {describe_corner(corner)}")
     if d.search:
-        typer.echo(f"  search: {d.search['note']}")
+        sr = d.search
+        typer.echo(
+            f"  search: {sr['note']} ({sr['points_screened']} points screened, "
+            f"{sr['candidates_verified']} verified exactly)"
+        )
+        if not sr.get("exhaustive") and sr.get("best_possible_price") is not None:
+            typer.echo(
+                f"    open bound: best found {sr['best_found_price']:.4f}, "
+                f"best still possible {sr['best_possible_price']:.4f}"
+            )
     typer.echo(f"  checks (binding: {', '.join(d.binding)}):")
     for f in d.checks:
         if f.stress is None or f.unit == "class":

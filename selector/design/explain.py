@@ -2,11 +2,15 @@
 
 from __future__ import annotations
 
-from typing import Final
+import time
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, replace
+from typing import Any, Final
 
 import numpy as np
 
 from ..errors import InfeasibleError
+from ..units import format_value
 from .bounds import screen_bounds
 from .requirement import SQRT2, bus_demand
 from .setup import SearchSetup
@@ -145,3 +149,154 @@ def infeasible_error(setup: SearchSetup, stats: dict, verified: int = 0) -> Infe
         rule=rid,
         relaxation=HINTS.get(rid),
     )
+
+
+# ---------------------------------------------------------------------------------------------
+# relaxations that are checked by running the search again
+
+#: rules that a lower surge level relaxes (the surge stresses scale with the level)
+_SURGE_RULES: Final[frozenset[str]] = frozenset(
+    {"x_cap.dvdt_surge", "x_cap.impulse", "series_r.surge_energy", "series_r.surge_voltage"}
+)
+#: steps of the bisection on one knob (each a full search)
+_BISECT_STEPS: Final[int] = 5
+
+
+@dataclass(frozen=True)
+class Relaxation:
+    """One knob of the request that can relax a rule, and how to say it."""
+
+    rule: str
+    name: str
+    #: the request (and policy) at knob position t in [0, 1]: 0 = as asked, 1 = the extreme
+    apply: Callable[[float], tuple[Any, Any]]
+    #: the knob's value at position t, as the user would write it
+    text: Callable[[float], str]
+
+
+def _load_text(load_a: float) -> str:
+    text = format_value(load_a, "A")
+    return f"a load of at most {text} (--load {text.replace(' ', '')})"
+
+
+def _relaxations(req: Any, policy: Any, rule: str) -> list[Relaxation]:
+    out: list[Relaxation] = []
+    if rule == "whole.min_current" or rule.startswith("zener") or rule == "x_capacitor.*":
+        if rule == "whole.min_current":
+            lo = 0.1 * req.load_a
+            out.append(
+                Relaxation(
+                    rule,
+                    "load",
+                    lambda t: (replace(req, load_a=req.load_a - t * (req.load_a - lo)), policy),
+                    lambda t: _load_text(req.load_a - t * (req.load_a - lo)),
+                )
+            )
+        if req.topology == "half-wave":
+            out.append(
+                Relaxation(
+                    rule,
+                    "topology",
+                    lambda t: (replace(req, topology="bridge"), policy),
+                    lambda t: "a bridge instead of half-wave (--topology bridge)",
+                )
+            )
+        freqs = tuple(req.mains.frequencies_hz)
+        if len(freqs) > 1:
+            keep = max(freqs) if rule == "whole.min_current" else min(freqs)
+            out.append(
+                Relaxation(
+                    rule,
+                    "frequency",
+                    lambda t: (
+                        replace(req, mains=replace(req.mains, frequencies_hz=(keep,))),
+                        policy,
+                    ),
+                    lambda t: f"a single mains frequency of {keep:g} Hz (--freq {keep:g})",
+                )
+            )
+    if rule in _SURGE_RULES and req.conditions.surge_v > 0:
+        level = float(req.conditions.surge_v)
+        out.append(
+            Relaxation(
+                rule,
+                "surge",
+                lambda t: (
+                    replace(req, conditions=replace(req.conditions, surge_v=level * (1 - t))),
+                    policy,
+                ),
+                lambda t: (
+                    f"a surge level of at most {level * (1 - t):.0f} V "
+                    f"(--surge {level * (1 - t):.0f})"
+                ),
+            )
+        )
+    if rule == "whole.standby_power":
+        lim = float(policy.standby_limit_w)
+        top = max(4 * lim, 2.0)
+        out.append(
+            Relaxation(
+                rule,
+                "standby",
+                lambda t: (req, replace(policy, standby_limit_w=lim + t * (top - lim))),
+                lambda t: (
+                    f"a no-load power limit of {lim + t * (top - lim):.2f} W "
+                    f"(standby_limit_w in a --policy file), if the product has no standby mode "
+                    "in the scope of EU 2023/826"
+                ),
+            )
+        )
+    if (
+        rule.startswith(("zener", "series_r.power", "bleeder.power"))
+        and req.conditions.ambient_c > 25
+    ):
+        amb = float(req.conditions.ambient_c)
+        out.append(
+            Relaxation(
+                rule,
+                "ambient",
+                lambda t: (
+                    replace(
+                        req, conditions=replace(req.conditions, ambient_c=amb - t * (amb - 25))
+                    ),
+                    policy,
+                ),
+                lambda t: (
+                    f"an ambient of at most {amb - t * (amb - 25):.0f} C "
+                    f"(--ambient {amb - t * (amb - 25):.0f})"
+                ),
+            )
+        )
+    return out
+
+
+def checked_relaxation(
+    run_search: Callable[[Any, Any], bool],
+    req: Any,
+    policy: Any,
+    rules: Sequence[str],
+    deadline: float,
+) -> tuple[str, str] | None:
+    """The first of ``rules`` (most blamed first) with a relaxation that, applied, makes the
+    request feasible: (rule, relaxation text), the smallest such change found by bisection on
+    the knob; every returned relaxation was itself run and found a design. None when no knob
+    helps within the deadline (time.monotonic())."""
+    for rule in rules:
+        for relax in _relaxations(req, policy, rule):
+            if time.monotonic() > deadline:
+                return None
+            if not run_search(*relax.apply(1.0)):
+                continue
+            if relax.name in ("topology", "frequency"):
+                return rule, relax.text(1.0)
+            lo, hi = 0.0, 1.0  # infeasible at lo (as asked), feasible at hi
+            for _ in range(_BISECT_STEPS):
+                if time.monotonic() > deadline:
+                    break
+                mid = 0.5 * (lo + hi)
+                if run_search(*relax.apply(mid)):
+                    hi = mid
+                else:
+                    lo = mid
+            return rule, relax.text(hi)
+    return None

@@ -215,23 +215,35 @@ def series_necessary(setup, topology, vz, vf_lo, vf_hi, ztol_min, xkeep, r_tot, 
         return np.zeros(n, dtype=bool)
     cmin = xo.attrs["value"][xkeep] * (1 - np.nan_to_num(xo.attrs["tolerance"][xkeep], nan=0.2))
     c_best, c_least = float(np.max(cmin)), float(np.min(cmin))
+    # the bounds depend on (R, tolerance) only: evaluate each distinct pair once
+    rt = np.column_stack([r_tot, rtol])
+    uniq, inv = np.unique(rt, axis=0, return_inverse=True)
+    inv = np.asarray(inv).ravel()
+    if len(uniq) < 0.8 * n:
+        r_u, t_u = uniq[:, 0].copy(), uniq[:, 1].copy()
+    else:
+        r_u, t_u, inv = r_tot, rtol, np.arange(n)
+    m = len(r_u)
     b = screen_bounds(
-        req, topology, vz, np.full(n, c_best), np.zeros(n), r_tot, rtol, vf_lo, vf_hi, ztol_min
+        req, topology, vz, np.full(m, c_best), np.zeros(m), r_u, t_u, vf_lo, vf_hi, ztol_min
     )
-    rk = b["min_dc_current_a"] >= need
+    rk = b["min_dc_current_a"][inv] >= need
     b2 = screen_bounds(
         req,
         topology,
         vz,
-        np.full(n, c_least),
-        np.zeros(n),
-        r_tot,
-        rtol,
+        np.full(m, c_least),
+        np.zeros(m),
+        r_u,
+        t_u,
         vf_lo,
         vf_hi,
         ztol_min,
         surge=False,
     )
+    b2 = {
+        k: (v[inv] if isinstance(v, np.ndarray) and v.shape == (m,) else v) for k, v in b2.items()
+    }
     s = {**s0, **b2, "load_a": 0.0}
     for rid in (
         "series_r.power",

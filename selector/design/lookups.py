@@ -38,7 +38,10 @@ def cheapest_at_least(cap: np.ndarray, key: np.ndarray, need: np.ndarray) -> np.
 
 
 class RangeMinimum:
-    """Sparse table: cheapest option whose sort value lies in [lo, hi], vectorised queries."""
+    """Sparse table: cheapest option whose sort value lies in [lo, hi], vectorised queries.
+
+    Among options of equal key the one with the LARGEST sort value wins (for bleeders sorted by
+    resistance: the lower no-load loss, the tie-break policy of the search)."""
 
     def __init__(self, value: np.ndarray, key: np.ndarray) -> None:
         ok = ~np.isnan(value)
@@ -55,7 +58,7 @@ class RangeMinimum:
             half = 1 << (j - 1)
             a = prev[: n - (1 << j) + 1]
             b = prev[half : half + n - (1 << j) + 1]
-            table.append(np.where(k[a] <= k[b], a, b))
+            table.append(np.where(k[a] < k[b], a, b))
             j += 1
         self.table = table
 
@@ -79,7 +82,7 @@ class RangeMinimum:
             m = lev == j
             a = self.table[j][left_h[m]]
             b = self.table[j][right_h[m] - (1 << j) + 1]
-            res[m] = np.where(self.k[a] <= self.k[b], a, b)
+            res[m] = np.where(self.k[a] < self.k[b], a, b)
         out[has] = self.order[res]
         return out
 

@@ -19,6 +19,7 @@ import numpy as np
 from .bounds import max_series_resistance_for_current, screen_bounds
 from .candidates import OptionTable, concat_options, keep_best_per_signature
 from .groups import NO_BOUND, ZenerGroup, prune_options, series_necessary
+from .lookups import cheapest_at_least
 from .requirement import bus_demand, objective_key
 from .series import unequal_series_pairs
 from .setup import SearchSetup
@@ -247,28 +248,84 @@ def add_series_pairs(
         )
         group_x.append(xk)
 
+    need = avg_a * (1 + pol.load_margin)
+    # per group: the largest series resistance each X option allows (current bound)
+    group_r_allow = []
+    for g, xk in zip(groups, group_x, strict=True):
+        xtol = np.nan_to_num(setup.xo.attrs["tolerance"][xk], nan=0.2)
+        c_weak = setup.xo.attrs["value"][xk] * (1 - xtol) * (1 - req.cap_loss)
+        group_r_allow.append(
+            max_series_resistance_for_current(req, g.topology, g.vz, g.vf_lo, c_weak, need)
+        )
+
+    def admissible(total: np.ndarray, tol: np.ndarray, key: np.ndarray) -> np.ndarray:
+        """Pairs that fit the budget with the cheapest X option of some group able to carry
+        the load through them (and that group's cheapest completion)."""
+        ok = np.zeros(len(total), dtype=bool)
+        if budget >= NO_BOUND:
+            return ~ok
+        r_weak = total * (1 + tol)
+        for g, xk, r_allow in zip(groups, group_x, group_r_allow, strict=True):
+            if len(xk):
+                xsel = cheapest_at_least(r_allow, setup.xo.key[xk], r_weak)
+                x_key = np.where(xsel >= 0, setup.xo.key[xk][np.maximum(xsel, 0)], NO_BOUND)
+                ok |= key + x_key + g.min_comp_key < budget
+        return ok
+
     def necessary(attrs: dict[str, np.ndarray]) -> np.ndarray:
+        """Pairs that pass some group's series necessary conditions."""
+        ok = np.zeros(len(attrs["total_ohm"]), dtype=bool)
         rns = SimpleNamespace(
             **attrs, power_share=1.0, voltage_share=1.0, fusible=attrs["fusible_flag"]
         )
-        ok = np.zeros(len(attrs["total_ohm"]), dtype=bool)
         for g, xk in zip(groups, group_x, strict=True):
-            ok |= series_necessary(
-                setup,
-                g.topology,
-                g.vz,
-                g.vf_lo,
-                g.vf_hi,
-                g.ztol_min,
-                xk,
-                attrs["total_ohm"],
-                attrs["tolerance"],
-                rns,
-            )
+            if len(xk):
+                ok |= series_necessary(
+                    setup,
+                    g.topology,
+                    g.vz,
+                    g.vf_lo,
+                    g.vf_hi,
+                    g.ztol_min,
+                    xk,
+                    attrs["total_ohm"],
+                    attrs["tolerance"],
+                    rns,
+                )
         return ok
 
+    # the least switch-on energy of any group: 0.5 C V^2 with the smallest kept capacitance
+    energies = []
+    for g, xk in zip(groups, group_x, strict=True):
+        if len(xk) == 0:
+            continue
+        cmin = setup.xo.attrs["value"][xk] * (
+            1 - np.nan_to_num(setup.xo.attrs["tolerance"][xk], nan=0.2)
+        )
+        one = np.ones(1)
+        b = screen_bounds(
+            req,
+            g.topology,
+            g.vz,
+            one * float(np.min(cmin)),
+            0 * one,
+            one,
+            0 * one,
+            g.vf_lo,
+            g.vf_hi,
+            surge=False,
+        )
+        energies.append(float(b["inrush_series_r_energy_j"][0]))
     pairs = unequal_series_pairs(
-        setup.series_elements, r_max, key_budget, req.minimize, req.top, necessary
+        setup.series_elements,
+        r_max,
+        key_budget,
+        req.minimize,
+        req.top,
+        necessary,
+        switch_on_energy_j=min(energies) if energies else 0.0,
+        pulse_energy_fraction=pol.pulse_energy_fraction,
+        admissible=admissible,
     )
     stats["series_pairs"] = len(pairs)
     if len(pairs) == 0:

@@ -119,7 +119,8 @@ class Design:
 OBJECTIVES: Final[tuple[str, ...]] = ("price", "area", "count")
 
 
-PRICE_SCALE, AREA_SCALE = 1e5, 100.0
+PRICE_SCALE: Final[float] = 1e5
+AREA_SCALE: Final[float] = 100.0
 
 
 KEY_BITS = {"price": 27, "area": 24, "count": 6}

@@ -11,17 +11,20 @@ the capacitance window and the cost budget (see ``pairs``).
 from __future__ import annotations
 
 import math
+import time
 from collections.abc import Callable
+from dataclasses import dataclass, field
 from typing import Any, Final
 
 import numpy as np
 import pandas as pd
 
+from ..errors import InfeasibleError
 from ..policy import Policy
 from .explain import infeasible_error, precheck
 from .groups import NO_BOUND, ZenerGroup, make_group
 from .pairs import add_series_pairs, add_x_pairs
-from .requirement import Design, Requirement
+from .requirement import KEY_BITS, PRICE_SCALE, Design, Requirement
 from .result import to_design
 from .screen import screen_x_chunk
 from .setup import prepare
@@ -33,19 +36,98 @@ from .verify import engine_api, verify_candidate
 CUT_TOLERANCE: Final[float] = 0.005
 
 
+@dataclass
+class _Pending:
+    """Screened points of one chunk, in ascending lower-bound key; ``pos`` is the next one."""
+
+    keys: np.ndarray
+    x_options: np.ndarray
+    series_options: np.ndarray
+    completions: np.ndarray
+    group: ZenerGroup
+    pos: int = 0
+
+    def head_key(self) -> int | None:
+        return int(self.keys[self.pos]) if self.pos < len(self.keys) else None
+
+
+@dataclass
+class _Search:
+    """State of one branch-and-bound run (see the module docstring)."""
+
+    setup: Any
+    groups: list[ZenerGroup]
+    top: int
+    deadline: float | None
+    pending: list[_Pending] = field(default_factory=list)
+    found: list[tuple[tuple[int, float], Any]] = field(default_factory=list)
+    cuts: dict[tuple[int, int], float] = field(default_factory=dict)
+    seconds: dict[str, float] = field(default_factory=lambda: dict.fromkeys(STAGES, 0.0))
+    stopped_by: str | None = None
+
+    def bound(self) -> int:
+        """Key of the ``top``-th best verified set (NO_BOUND before there are ``top``)."""
+        if len(self.found) < self.top:
+            return NO_BOUND
+        return sorted(k[0] for k, _ in self.found)[self.top - 1]
+
+    def next_chunk(self) -> tuple[int, ZenerGroup | None]:
+        """Lower bound of every point not yet screened in this phase, and its group."""
+        best, best_group = NO_BOUND, None
+        for g in self.groups:
+            if g.cursor < len(g.xkeep):
+                lb = int(self.setup.xo.key[g.xkeep[g.cursor]]) + g.min_r_key + g.min_comp_key
+                if lb < best:
+                    best, best_group = lb, g
+        return best, best_group
+
+    def head(self) -> _Pending | None:
+        best = None
+        for p in self.pending:
+            k = p.head_key()
+            if k is not None and (best is None or k < best.head_key()):
+                best = p
+        return best
+
+    def out_of_time(self) -> bool:
+        if self.deadline is not None and time.monotonic() > self.deadline:
+            self.stopped_by = "time limit"
+            return True
+        return False
+
+    def best_possible(self, later_phases_lb: int) -> int:
+        """The least key any set not yet verified can have."""
+        lbs = [later_phases_lb, self.next_chunk()[0]]
+        lbs += [k for p in self.pending if (k := p.head_key()) is not None]
+        return min(lbs)
+
+
+#: the stages whose time the search report gives
+STAGES: Final[tuple[str, ...]] = ("prepare", "screen", "verify")
+#: X options per screened chunk once a set is known (smaller chunks before, see below)
+CHUNK: Final[int] = 256
+#: before any set is verified, the best pending point is verified at once (out of key order,
+#: which costs nothing in exactness) up to this many times: its key then prunes the screen
+EAGER_LIMIT: Final[int] = 40
+
+
 def design(
     frame: pd.DataFrame,
     req: Requirement,
     policy: Policy | None = None,
     progress: Callable[[int, int], None] | None = None,
-    max_verify: int = 400,
     analyse: Callable[..., Any] | None = None,
+    time_limit_s: float | None = None,
 ) -> list[Design]:
     """The ``req.top`` best compliant designs over the catalogue ``frame`` (parts_frame).
 
-    ``analyse(circuit, mains, tolerances, conditions)`` defaults to the engine's. Raises
-    InfeasibleError naming the blocking rule and the smallest relaxation.
+    ``analyse(circuit, mains, tolerances, conditions)`` defaults to the engine's. With
+    ``time_limit_s`` the search stops after that long and says which bound is still open (the
+    best set found and the least key any unverified set can have); without it the search runs
+    until it has proven optimality over the search space. Raises InfeasibleError naming the
+    blocking rule and a relaxation.
     """
+    t0 = time.monotonic()
     pol = policy or Policy()
     setup = prepare(frame, req, pol)
     setup.analyse = analyse or engine_api().analyse
@@ -61,112 +143,151 @@ def design(
     }
     setup.stats = stats
     groups = [g for g in (make_group(setup, t, v, stats) for t, v in setup.zo) if g is not None]
-    chunk = 256
-    total_chunks = sum((len(g.xkeep) + chunk - 1) // chunk for g in groups)
+    deadline = None if time_limit_s is None else t0 + float(time_limit_s)
+    run = _Search(setup, groups, req.top, deadline)
+    run.seconds["prepare"] = time.monotonic() - t0
+    total_chunks = sum((len(g.xkeep) + CHUNK - 1) // CHUNK for g in groups)
     done_chunks = 0
-    pending: list[list[Any]] = []  # [keys, xs, rs, group, pointer]
-    found: list[tuple[int, Any]] = []
-    cuts: dict[tuple[int, int], float] = {}
-    eager_limit = 40
-
-    def bound() -> int:
-        if len(found) < req.top:
-            return NO_BOUND
-        return sorted(k for k, _ in found)[req.top - 1]
-
-    def next_chunk_lb() -> tuple[int, ZenerGroup | None]:
-        best, bg = NO_BOUND, None
-        for g in groups:
-            if g.cursor < len(g.xkeep):
-                lb = int(setup.xo.key[g.xkeep[g.cursor]]) + g.min_r_key + g.min_comp_key
-                if lb < best:
-                    best, bg = lb, g
-        return best, bg
-
-    for phase in ("singles", "x pairs", "series pairs"):
+    # a lower bound for the phases not yet started (any X, any series option, any completion)
+    any_lb = (
+        int(np.min(setup.xs.key)) + int(np.min(setup.ro.key)) + min(g.min_comp_key for g in groups)
+        if groups and len(setup.xs) and len(setup.ro)
+        else NO_BOUND
+    )
+    phases = ("singles", "x pairs", "series pairs")
+    for n_phase, phase in enumerate(phases):
         if phase != "singles":
-            if stats.get("verify_limit") or not groups:
+            if run.stopped_by or not groups:
                 break
-            b = bound()
+            t = time.monotonic()
+            b = run.bound()
             if phase == "x pairs":
                 base = min(g.min_r_key + g.min_comp_key for g in groups)
                 add_x_pairs(setup, groups, NO_BOUND if b >= NO_BOUND else b - base, stats)
             else:
                 add_series_pairs(setup, groups, b, stats)
-        while True:
-            nxt, g = next_chunk_lb()
-            # verify pending points whose lower bound is below anything still unscreened
-            while True:
-                head = None
-                for p in pending:
-                    if p[4] < len(p[0]) and (head is None or p[0][p[4]] < head[0][head[4]]):
-                        head = p
-                if head is None:
-                    break
-                lbk = int(head[0][head[4]])
-                # without a verified set, check the best pending point at once (out of order,
-                # which costs nothing in exactness): its cost then prunes the screen
-                eager = len(found) < req.top and stats["verified"] < eager_limit
-                if (lbk >= nxt and not eager) or lbk >= bound():
-                    break
-                xi, ri, G = int(head[1][head[4]]), int(head[2][head[4]]), head[3]
-                guess = tuple(int(v) for v in head[5][head[4]])
-                head[4] += 1
-                if stats["verified"] >= max_verify:
-                    stats["verify_limit"] = True
-                    break
-                r_corner = float(setup.ro.attrs["total_ohm"][ri]) * (
-                    1 + float(np.nan_to_num(setup.ro.attrs["tolerance"][ri], nan=0.05))
-                )
-                ck = (id(G), xi)
-                if ck in cuts and r_corner >= cuts[ck]:
-                    stats["cut"] = stats.get("cut", 0) + 1
-                    continue
-                stats["verified"] += 1
-                setup.last_exact = None
-                res = verify_candidate(setup, G.topology, G.vz, xi, ri, guess)
-                if res is not None:
-                    found.append((res[0], res))
-                elif setup.last_exact is not None and "whole.min_current" in setup.last_exact[0]:
-                    s_ex = setup.last_exact[1]
-                    # cut: with this X in this group, a larger series resistance only lowers the
-                    # current; completion parts move it by far less than CUT_TOLERANCE
-                    if s_ex["min_dc_current_a"] * (1 + CUT_TOLERANCE) < s_ex["load_a"] * (
-                        1 + setup.policy.load_margin
-                    ):
-                        cuts[ck] = min(cuts.get(ck, math.inf), r_corner)
-            if stats.get("verify_limit") or g is None or nxt >= bound():
+            run.seconds["screen"] += time.monotonic() - t
+        later_lb = any_lb if n_phase + 1 < len(phases) else NO_BOUND
+        while not run.stopped_by:
+            nxt, g = run.next_chunk()
+            _verify_pending(run, nxt)
+            if run.stopped_by or g is None or nxt >= run.bound():
                 break
-            # small chunks until a set is verified (its cost then prunes the rest), then larger
-            size = chunk if found else min(chunk, 4 << min(done_chunks, 6))
+            if run.out_of_time():
+                break
+            # small chunks until a set is verified (its key then prunes the rest), then larger
+            size = CHUNK if run.found else min(CHUNK, 4 << min(done_chunks, 6))
             xs = g.xkeep[g.cursor : g.cursor + size]
             g.cursor += size
-            out = screen_x_chunk(setup, g, xs, bound(), stats)
+            t = time.monotonic()
+            out = screen_x_chunk(setup, g, xs, run.bound(), stats)
+            run.seconds["screen"] += time.monotonic() - t
             if out is not None:
-                pending.append([out[2], out[0], out[1], g, 0, out[3]])
+                run.pending.append(_Pending(out[2], out[0], out[1], out[3], g))
             done_chunks += 1
             total_chunks = max(total_chunks, done_chunks)
             if progress:
                 progress(done_chunks, total_chunks)
+        if run.stopped_by:
+            open_lb = run.best_possible(later_lb)
+            break
+    else:
+        open_lb = NO_BOUND
     if progress:
         progress(total_chunks, total_chunks)
-    found.sort(key=lambda t: t[0])
-    setup.stats = stats
-    if not found:
-        raise infeasible_error(setup, stats, verified=stats["verified"])
-    out = [to_design(setup, rank + 1, res) for rank, (_, res) in enumerate(found[: req.top])]
-    limited = bool(stats.get("verify_limit") or stats.get("pairs_truncated"))
-    search = {
-        "points_screened": int(stats["points"]),
-        "candidates_verified": int(stats["verified"]),
-        "x_pairs": int(stats.get("pairs", 0)),
-        "exhaustive": not limited,
-        "note": (
-            "search limited (verification or pair cap reached): cheapest found, not proven optimal"
-            if limited
-            else "optimal over the search space (screen bounds + exact check at every corner)"
-        ),
-    }
+    run.found.sort(key=lambda t: t[0])
+    if not run.found:
+        err = infeasible_error(setup, stats, verified=stats["verified"])
+        if run.stopped_by:
+            err = InfeasibleError(
+                f"no design found within the time limit ({time_limit_s:g} s); "
+                "the search was not completed, so a compliant set may still exist",
+                rule=getattr(err, "rule", None),
+                relaxation="a longer --time-limit",
+            )
+        raise err
+    best = [res for _, res in run.found[: req.top]]
+    out = [to_design(setup, rank + 1, res) for rank, res in enumerate(best)]
+    search = _report(run, stats, best[-1][0], open_lb, req.minimize, time.monotonic() - t0)
     for d in out:
         d.search = search
     return out
+
+
+def _verify_pending(run: _Search, next_unscreened: int) -> None:
+    """Verify pending points in key order while their bound is below everything unscreened
+    and below the incumbent."""
+    setup, stats = run.setup, run.setup.stats
+    while True:
+        head = run.head()
+        if head is None:
+            return
+        lb = head.head_key()
+        eager = len(run.found) < run.top and stats["verified"] < EAGER_LIMIT
+        if (lb >= next_unscreened and not eager) or lb >= run.bound():
+            return
+        if run.out_of_time():
+            return
+        i = head.pos
+        x_option, series_option = int(head.x_options[i]), int(head.series_options[i])
+        guess = tuple(int(v) for v in head.completions[i])
+        group = head.group
+        head.pos += 1
+        r_corner = float(setup.ro.attrs["total_ohm"][series_option]) * (
+            1 + float(np.nan_to_num(setup.ro.attrs["tolerance"][series_option], nan=0.05))
+        )
+        cut_key = (id(group), x_option)
+        if cut_key in run.cuts and r_corner >= run.cuts[cut_key]:
+            stats["cut"] = stats.get("cut", 0) + 1
+            continue
+        stats["verified"] += 1
+        setup.last_exact = None
+        t = time.monotonic()
+        res = verify_candidate(setup, group.topology, group.vz, x_option, series_option, guess)
+        run.seconds["verify"] += time.monotonic() - t
+        if res is not None:
+            # equal keys: the lower no-load (standby) power first (tie-break policy)
+            no_load = getattr(getattr(res[2], "worst_case", None), "no_load_real_power_w", None)
+            run.found.append(((res[0], float(no_load or 0.0)), res))
+        elif setup.last_exact is not None and "whole.min_current" in setup.last_exact[0]:
+            s_ex = setup.last_exact[1]
+            # cut: with this X in this group, a larger series resistance only lowers the
+            # current; completion parts move it by far less than CUT_TOLERANCE
+            if s_ex["min_dc_current_a"] * (1 + CUT_TOLERANCE) < s_ex["load_a"] * (
+                1 + setup.policy.load_margin
+            ):
+                run.cuts[cut_key] = min(run.cuts.get(cut_key, math.inf), r_corner)
+
+
+def _key_price(key: int, minimize: str) -> float | None:
+    """The price part of an objective key (when price is the first field)."""
+    if minimize != "price" or key >= NO_BOUND:
+        return None
+    return (key >> (KEY_BITS["area"] + KEY_BITS["count"])) / PRICE_SCALE
+
+
+def _report(run: _Search, stats: dict, best_key: int, open_lb: int, minimize: str, total: float):
+    """The search report: what was screened and verified, and what was proven."""
+    stopped = run.stopped_by or ("pair cap" if stats.get("pairs_truncated") else None)
+    proven = stopped is None or open_lb >= best_key
+    if proven:
+        note = "optimal over the search space (screen bounds + exact check at every corner)"
+    elif run.stopped_by == "time limit":
+        note = "stopped by the time limit: best found, not proven optimal"
+    else:
+        note = "search limited by the X pair cap: best found, not proven optimal"
+    return {
+        "points_screened": int(stats["points"]),
+        "candidates_verified": int(stats["verified"]),
+        "x_pairs": int(stats.get("pairs", 0)),
+        "series_pairs": int(stats.get("series_pairs", 0)),
+        "completion_cycles": int(stats.get("completion_cycles", 0)),
+        "exhaustive": bool(proven),
+        "stopped_by": None if proven else stopped,
+        "best_found_key": int(best_key),
+        "best_possible_key": int(best_key if proven else min(open_lb, best_key)),
+        "best_found_price": _key_price(best_key, minimize),
+        "best_possible_price": _key_price(best_key if proven else min(open_lb, best_key), minimize),
+        "seconds": {**{k: round(v, 4) for k, v in run.seconds.items()}, "total": round(total, 4)},
+        "note": note,
+    }

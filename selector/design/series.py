@@ -121,7 +121,8 @@ def _options(
         ),
     }
     if keep is not None:
-        m = np.flatnonzero(keep(attrs))
+        key = el.key[ia] + (el.key[ib] if ib is not None else 0)
+        m = np.flatnonzero(keep({**attrs, "key": key}))
         attrs = {k: v[m] for k, v in attrs.items()}
         ia, ib_ = ia[m], ib_[m]
         ib = None if ib is None else ib_
@@ -203,18 +204,35 @@ def unequal_series_pairs(
     minimize: str,
     keep: int,
     necessary: Callable[[dict[str, np.ndarray]], np.ndarray] | None = None,
+    switch_on_energy_j: float = 0.0,
+    pulse_energy_fraction: float = 1.0,
+    admissible: Callable[[np.ndarray, np.ndarray, np.ndarray], np.ndarray] | None = None,
 ) -> OptionTable:
     """Two different resistors in series: every pair of surviving elements whose total is at
     most ``r_max_ohm`` and whose key is below ``key_budget`` (proof obligations 2 and 3; a pair
     at or over the budget costs at least the incumbent); ``necessary`` maps equivalent ratings
-    to a mask of the pairs that pass the caller's necessary conditions."""
+    (and ``key``, the pair's objective key) to a mask of the pairs that pass the caller's
+    necessary conditions; ``switch_on_energy_j`` is a lower bound of the switch-on energy in
+    the series resistance of any feasible set; ``admissible(total_ohm, tolerance, key)`` is a
+    cheaper mask applied first."""
     surv = elements.survivors
-    surv = surv[elements.ratings["value"][surv] < r_max_ohm]
+    e = elements.ratings
+    surv = surv[e["value"][surv] < r_max_ohm]
+    # an element takes at least the share R_i / r_max of the switch-on energy, which does not
+    # depend on R (0.5 C V^2): elements that cannot carry that share form no feasible pair
+    if switch_on_energy_j > 0:
+        share_min = e["value"][surv] / r_max_ohm
+        ok = e["pulse_energy_j"][surv] * pulse_energy_fraction >= switch_on_energy_j * share_min
+        surv = surv[ok]
     ia, ib = _pair_indices(elements.ratings["value"][surv], r_max_ohm, equal=False)
     ia, ib = surv[ia], surv[ib]
     k = elements.table.key
     cheap = k[ia] + k[ib] < key_budget
     ia, ib = ia[cheap], ib[cheap]
+    if admissible is not None and len(ia):
+        tol = np.maximum(e["tolerance"][ia], e["tolerance"][ib])
+        fine = admissible(e["value"][ia] + e["value"][ib], tol, k[ia] + k[ib])
+        ia, ib = ia[fine], ib[fine]
     pairs = _options(elements.table, elements.ratings, ia, ib, minimize, necessary)
     pairs = keep_best_per_signature(pairs, SERIES_SIGNATURE, keep)
     return pairs.take(pareto_series_options(pairs, np.arange(len(pairs)), keep))

@@ -159,24 +159,25 @@ def rule_context(setup, circ, vz, ci, r_tol=0.0):
 def verify_candidate(setup, topology, vz, xi, ri, scr):
     """Analyse one grid point exactly; re-choose its completion; evaluate every rule.
 
-    Returns (key, parts indices, analysis, findings) or None when no completion passes.
+    The completion (Zener, rectifier, reservoir, bleeder; the fuse after them) is re-chosen as
+    the cheapest that passes its rules under the exact stresses of the current one, until the
+    choice repeats: a fixed point, or a cycle (counted in ``stats['completion_cycles']``). Every
+    completion tried is evaluated in full, and the cheapest one that passes every rule is
+    returned: (key, part indices, analysis, findings, circuit, rated parts), or None when none
+    passes (the failing rules are tallied in ``stats['exact_fail']``).
     """
-    pol = setup.policy
-    req = setup.req
-    zo, rect, co, bo, fo = (
-        setup.zo[(topology, vz)],
-        setup.rect[topology],
-        setup.co,
-        setup.bo,
-        setup.fo,
-    )
-    zi, di, ci, bi = scr
-    for _ in range(4):
-        circ, tol = circuit_for(setup, topology, vz, xi, ri, zi, di, ci, bi)
-        an = setup.analyse(circ, req.mains, tol, req.conditions)
-        ctx = rule_context(setup, circ, vz, ci, float(setup.ro.attrs["tolerance"][ri]))
-        s, corners = R.stresses_from_analysis(an, ctx)
-        new = (
+    zo, rect, co, bo = setup.zo[(topology, vz)], setup.rect[topology], setup.co, setup.bo
+    stats = setup.stats if setup.stats is not None else {}
+    fails = stats.setdefault("exact_fail", {})
+    current = tuple(int(v) for v in scr)
+    tried: set[tuple[int, ...]] = set()
+    best = None
+    while current not in tried:
+        tried.add(current)
+        res, s, circ = _evaluate_completion(setup, topology, vz, xi, ri, current)
+        if res is not None and (best is None or res[0] < best[0]):
+            best = res
+        proposal = (
             cheapest_passing(setup, zo, "zener", s),
             cheapest_passing(setup, rect, "rectifier", s),
             cheapest_passing(
@@ -184,37 +185,60 @@ def verify_candidate(setup, topology, vz, xi, ri, scr):
             ),
             cheapest_passing(setup, bo, "bleeder", s, rb_now=circ.bleeder_resistance_ohm),
         )
-        if any(v < 0 for v in new):
-            if setup.stats is not None:
-                fails = setup.stats.setdefault("exact_fail", {})
+        if any(v < 0 for v in proposal):
+            if best is None:
                 for name, v in zip(
-                    ("zener", "rectifier", "reservoir", "bleeder"), new, strict=True
+                    ("zener", "rectifier", "reservoir", "bleeder"), proposal, strict=True
                 ):
-                    if v == BLOCKED_BY_STANDBY:
-                        fails["whole.standby_power"] = fails.get("whole.standby_power", 0) + 1
-                    elif v < 0:
-                        fails[name + ".*"] = fails.get(name + ".*", 0) + 1
-            return None
-        if new == (zi, di, ci, bi):
+                    rid = "whole.standby_power" if v == BLOCKED_BY_STANDBY else f"{name}.*"
+                    if v < 0:
+                        fails[rid] = fails.get(rid, 0) + 1
             break
-        zi, di, ci, bi = new
-    else:
-        return None
+        if proposal == current:
+            break
+        if proposal in tried:
+            stats["completion_cycles"] = stats.get("completion_cycles", 0) + 1
+        current = proposal
+    return best
+
+
+def _evaluate_completion(setup, topology, vz, xi, ri, completion):
+    """One completion analysed at every corner and evaluated by every rule.
+
+    Returns (result or None, the exact stresses, the circuit); records the failing rules and
+    ``setup.last_exact`` for the search's cuts.
+    """
+    pol, req = setup.policy, setup.req
+    zi, di, ci, bi = completion
+    zo, rect, co, bo, fo = (
+        setup.zo[(topology, vz)],
+        setup.rect[topology],
+        setup.co,
+        setup.bo,
+        setup.fo,
+    )
+    circ, tol = circuit_for(setup, topology, vz, xi, ri, zi, di, ci, bi)
+    an = setup.analyse(circ, req.mains, tol, req.conditions)
+    ctx = rule_context(setup, circ, vz, ci, float(setup.ro.attrs["tolerance"][ri]))
+    s, _ = R.stresses_from_analysis(an, ctx)
+    stats = setup.stats if setup.stats is not None else {}
+    fails = stats.setdefault("exact_fail", {})
     parts = parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, None)
     fsel = None
     if not bool(setup.ro.attrs["fusible_flag"][ri]):
         fsel = cheapest_fuse(setup, s, parts)
         if fsel is None:
-            return None
+            fails["fuse.*"] = fails.get("fuse.*", 0) + 1
+            setup.last_exact = (["fuse.*"], s, circ)
+            return None, s, circ
         parts = parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, fsel)
     findings = R.evaluate(parts, an, pol, context=ctx)
     bad = [f.rule for f in findings if f.severity != "pass"]
     setup.last_exact = (bad, s, circ)
     if bad:
-        fails = setup.stats.setdefault("exact_fail", {}) if setup.stats is not None else {}
         for b in bad:
             fails[b] = fails.get(b, 0) + 1
-        return None
+        return None, s, circ
     key = (
         setup.xo.key[xi]
         + setup.ro.key[ri]
@@ -224,7 +248,8 @@ def verify_candidate(setup, topology, vz, xi, ri, scr):
         + bo.key[bi]
         + (fo.key[fsel] if fsel is not None else 0)
     )
-    return int(key), (topology, vz, xi, ri, zi, di, ci, bi, fsel), an, findings, circ, parts
+    sel = (topology, vz, xi, ri, zi, di, ci, bi, fsel)
+    return (int(key), sel, an, findings, circ, parts), s, circ
 
 
 def cheapest_passing(
@@ -284,6 +309,10 @@ def cheapest_passing(
     idx = np.flatnonzero(ok)
     if len(idx) == 0:
         return -1
+    if role == "bleeder" and "total_ohm" in opts.attrs:
+        # equal keys: the larger resistance (less no-load loss; tie-break policy)
+        order = np.lexsort((-opts.attrs["total_ohm"][idx], opts.key[idx]))
+        return int(idx[order[0]])
     return int(idx[np.argmin(opts.key[idx])])
 
 
