@@ -17,7 +17,7 @@ of another key is ignored and replaced by the next read from the database.
 in one read transaction: schema revision, stored data checksum and build time
 (``catalogue_meta``), ``count(*)`` and ``max(id)`` of ``parts``, the *file change counter* of the
 SQLite header (bytes 24-27, which SQLite increments on every committed write in rollback-journal
-mode; SQLite file format, section 1.3.8), and the file's size, modification time and inode.
+mode: SQLite file format, database header), and the file's size, modification time and inode.
 So any import, ratings change, rebuild, migration, or replacement of the file gives a new key.
 While the state is read the transaction holds SQLite's shared lock, so no writer can commit in
 between. A frame read through SQLAlchemy is stored only when the state read before and after it
