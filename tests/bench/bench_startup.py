@@ -1,10 +1,11 @@
-"""Benchmark: CLI wall time of this checkout against a baseline revision (issue 13, start-up).
+"""Benchmark: CLI start-up time of this checkout against a baseline revision (issue 13, start-up).
 
 For ``dropper --help``, ``dropper parts stats`` and a small ``dropper design`` (12 mA, 5.1 V,
-230 V 50/60 Hz; demo figures, invented), the median wall time of ``--repeat`` runs in a fresh
-process, baseline and current runs interleaved so that load on the shared machine hits both
-alike. Then the design's start-up alone (imports plus the catalogue frame, no solver), the part
-that the parts-frame cache shortens. Each tree gets its own data and cache folders in a temporary
+230 V 50/60 Hz; demo figures, invented): the median wall time and CPU time (user + system,
+steadier when others load the machine) of ``--repeat`` runs, each in a fresh process, baseline
+and current runs interleaved so that load on the shared machine hits both alike. Then the
+design's start-up alone (imports plus the catalogue frame, no solver), the part that the
+parts-frame cache shortens. Each tree gets its own data and cache folders in a temporary
 directory; one warm-up run first builds its catalogue (and, for the current tree, the cache).
 
 The baseline is checked out with ``git worktree add --detach`` into the temporary directory and
@@ -19,6 +20,7 @@ from __future__ import annotations
 
 import argparse
 import os
+import resource
 import statistics
 import subprocess
 import sys
@@ -36,7 +38,7 @@ COMMANDS = [
 # imports and catalogue frame as the design command does them (either tree's API)
 STARTUP = """
 import time
-t0 = time.perf_counter()
+t0, c0 = time.perf_counter(), time.process_time()
 import selector.cli, selector.design
 try:
     from selector.catalogue.frame_cache import catalogue_frame
@@ -44,7 +46,7 @@ try:
 except ImportError:
     from selector.catalogue import open_catalogue, parts_frame
     frame = parts_frame(open_catalogue(None))
-print(time.perf_counter() - t0)
+print(time.perf_counter() - t0, time.process_time() - c0)
 """
 
 
@@ -58,22 +60,30 @@ def _env(tree: Path, base: Path, label: str) -> dict[str, str]:
     return env
 
 
-def _wall(tree: Path, env: dict[str, str], args: list[str]) -> float:
-    t0 = time.perf_counter()
+def _cpu() -> float:
+    usage = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return usage.ru_utime + usage.ru_stime
+
+
+def _wall(tree: Path, env: dict[str, str], args: list[str]) -> tuple[float, float]:
+    """(wall, CPU user+system) seconds of one command in a fresh process."""
+    c0, t0 = _cpu(), time.perf_counter()
     done = subprocess.run(
         [sys.executable, "-m", "selector.cli", *args], cwd=tree, env=env, capture_output=True
     )
-    elapsed = time.perf_counter() - t0
+    elapsed, cpu = time.perf_counter() - t0, _cpu() - c0
     if done.returncode not in (0, 1):
         raise SystemExit(f"{' '.join(args)} failed in {tree}: {done.stderr.decode()[-500:]}")
-    return elapsed
+    return elapsed, cpu
 
 
-def _startup(tree: Path, env: dict[str, str]) -> float:
+def _startup(tree: Path, env: dict[str, str]) -> tuple[float, float]:
+    """(wall, CPU) seconds of the design's imports and catalogue frame, timed inside."""
     done = subprocess.run(
         [sys.executable, "-c", STARTUP], cwd=tree, env=env, capture_output=True, check=True
     )
-    return float(done.stdout.decode().split()[-1])
+    wall, cpu = done.stdout.decode().split()[-2:]
+    return float(wall), float(cpu)
 
 
 def main() -> None:
@@ -100,20 +110,22 @@ def main() -> None:
             ).stdout.strip()
             print(
                 f"baseline {opts.baseline}, current {head} (+ uncommitted changes if any); "
-                f"median of {opts.repeat} runs, wall time in a fresh process"
+                f"median of {opts.repeat} runs in fresh processes; baseline -> current (ratio)"
             )
             rows = [(name, lambda t, e, a=args: _wall(t, e, a)) for name, args in COMMANDS]
             rows.append(("design start-up (imports + frame)", _startup))
             for name, measure in rows:
-                times: dict[str, list[float]] = {label: [] for label in trees}
+                times: dict[str, list[tuple[float, float]]] = {label: [] for label in trees}
                 for _ in range(opts.repeat):
                     for label, tree in trees.items():
                         times[label].append(measure(tree, envs[label]))
-                before = statistics.median(times["baseline"])
-                after = statistics.median(times["current"])
+                wall = {k: statistics.median(t[0] for t in v) for k, v in times.items()}
+                cpu = {k: statistics.median(t[1] for t in v) for k, v in times.items()}
                 print(
-                    f"{name:36s} before {before * 1000:6.0f} ms   after {after * 1000:6.0f} ms"
-                    f"   ratio {before / after:4.2f}x"
+                    f"{name:34s} wall {wall['baseline'] * 1000:5.0f} -> "
+                    f"{wall['current'] * 1000:5.0f} ms ({wall['baseline'] / wall['current']:4.2f}x)"
+                    f"   CPU {cpu['baseline'] * 1000:5.0f} -> {cpu['current'] * 1000:5.0f} ms "
+                    f"({cpu['baseline'] / cpu['current']:4.2f}x)"
                 )
         finally:
             subprocess.run(
