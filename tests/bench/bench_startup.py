@@ -3,10 +3,11 @@
 For ``dropper --help``, ``dropper parts stats`` and a small ``dropper design`` (12 mA, 5.1 V,
 230 V 50/60 Hz; demo figures, invented): the median wall time and CPU time (user + system,
 steadier when others load the machine) of ``--repeat`` runs, each in a fresh process, baseline
-and current runs interleaved so that load on the shared machine hits both alike. Then the
-design's start-up alone (imports plus the catalogue frame, no solver), the part that the
-parts-frame cache shortens. Each tree gets its own data and cache folders in a temporary
-directory; one warm-up run first builds its catalogue (and, for the current tree, the cache).
+and current runs interleaved (alternating which goes first) so that load on the shared machine
+hits both alike. Then the design's start-up alone (imports plus the catalogue frame, no solver),
+the part that the parts-frame cache shortens. Each tree gets its own data and cache folders in a
+temporary directory; one warm-up run first builds its catalogue (and, for the current tree, the
+cache).
 
 The baseline is checked out with ``git worktree add --detach`` into the temporary directory and
 removed again at the end; each tree runs with ``PYTHONPATH`` (and the working folder) pointing at
@@ -116,9 +117,10 @@ def main() -> None:
             rows.append(("design start-up (imports + frame)", _startup))
             for name, measure in rows:
                 times: dict[str, list[tuple[float, float]]] = {label: [] for label in trees}
-                for _ in range(opts.repeat):
-                    for label, tree in trees.items():
-                        times[label].append(measure(tree, envs[label]))
+                for run in range(opts.repeat):
+                    order = list(trees) if run % 2 == 0 else list(reversed(trees))
+                    for label in order:  # alternate who goes first
+                        times[label].append(measure(trees[label], envs[label]))
                 wall = {k: statistics.median(t[0] for t in v) for k, v in times.items()}
                 cpu = {k: statistics.median(t[1] for t in v) for k, v in times.items()}
                 print(
