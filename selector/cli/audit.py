@@ -293,13 +293,9 @@ def _value(text: str, quantity: str, what: str) -> float:
 
 def _catalogue(db: str | None):
     """The catalogue as a DataFrame (the audit fills missing ratings from its families)."""
-    from ..catalogue import open_catalogue, parts_frame, resolve_url
+    from ..catalogue import catalogue_frame, resolve_url
 
-    engine = open_catalogue(resolve_url(db))
-    try:
-        return parts_frame(engine)
-    finally:
-        engine.dispose()
+    return catalogue_frame(resolve_url(db))
 
 
 def _columns(options: list[str] | None) -> dict[str, str]:

@@ -115,7 +115,7 @@ def design(
     --burst-time and --burst-period.
     """
     from .. import design as D
-    from ..catalogue import open_catalogue, parts_frame, resolve_url
+    from ..catalogue import catalogue_frame, resolve_url
     from ..policy import load_policy
 
     pol = load_policy(policy)
@@ -149,7 +149,7 @@ def design(
         tht_only=tht_only,
         exclude=tuple(exclude or ()),
     )
-    frame = parts_frame(open_catalogue(resolve_url(db)), stock_only=stock_only)
+    frame = catalogue_frame(resolve_url(db), stock_only=stock_only)
     # a progress bar (stderr) for searches over large catalogues
     bar = None if json or len(frame) < 1000 else _Bar("searching part sets")
     try:
