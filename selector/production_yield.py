@@ -68,8 +68,10 @@ __all__ = [
     "NOT_YIELD_RULES",
     "Calibration",
     "YieldResult",
+    "BomDesign",
     "available_current",
     "band_positions",
+    "bom_design",
     "production_yield",
     "rank_correlation",
     "wilson_interval",
@@ -202,6 +204,67 @@ def available_current(circuit: Circuit, mains_v: float, freq_hz: float) -> float
     if st.zener_current_a > 1e-9 or (circuit.load.is_zero and circuit.regulator is None):
         return st.dc_current_a
     return solve_steady_state(circuit, mains_v, freq_hz, load_a=0.0, load_g=0.0).dc_current_a
+
+
+# ---------------------------------------------------------------------------------------------
+# a design from a BOM (the audit's reader, roles and circuit builder)
+
+
+@dataclass
+class BomDesign:
+    """What the audit builds from a one-board BOM: the engine circuit, the tolerances (the
+    BOM's where it states them), the rated parts by role, the rule context and the audit's
+    notes; the reservoir tolerance is the one the audit assumed (its ``reservoir_min_f``)."""
+
+    circuit: Circuit
+    tolerances: Tolerances
+    parts: dict[str, list[Any]]
+    context: dict[str, Any]
+    reservoir_tol: float
+    notes: list[str]
+
+
+def bom_design(path: Any, **audit_options: Any) -> BomDesign:
+    """Read a BOM as ``dropper audit`` does (:func:`selector.audit.evaluate.audit_bom`, whose
+    keyword options ``audit_options`` are) and return the design it describes.
+
+    The audit's ``analyse`` and ``evaluate`` hooks hand over the circuit, the tolerances and
+    the rated parts, so the yield sees exactly the parts, roles and ratings the audit judges.
+    One board only: a BOM with a ``Board`` column naming several raises BadValueError.
+    """
+    from .audit.evaluate import audit_bom
+    from .engine.analysis import analyse
+    from .rules import evaluate
+
+    seen: dict[str, Any] = {}
+
+    def capture_analyse(circuit, mains, tol, conditions, *a, **kw):
+        seen["tolerances"] = tol
+        return analyse(circuit, mains, tol, conditions, *a, **kw)
+
+    def capture_evaluate(parts_by_role, analysis, policy=None, **kw):
+        seen["parts"] = {k: list(v) for k, v in parts_by_role.items()}
+        seen["context"] = dict(kw.get("context") or {})
+        return evaluate(parts_by_role, analysis, policy, **kw)
+
+    result = audit_bom(path, analyse=capture_analyse, evaluate=capture_evaluate, **audit_options)
+    if len(result.boards) != 1:
+        names = ", ".join(b.board or "(unnamed)" for b in result.boards)
+        raise BadValueError(f"{path}: a yield is for one board; this BOM has {names}")
+    board = result.boards[0]
+    circuit = board.circuit
+    context = seen["context"]
+    res_min = context.get("reservoir_min_f")
+    res_tol = RESERVOIR_TOL if res_min is None else 1.0 - res_min / circuit.reservoir_f
+    notes = list(result.table.notes) + list(board.roles.notes) + board.assumed + board.notes
+    return BomDesign(
+        circuit=circuit,
+        tolerances=seen["tolerances"],
+        parts=seen["parts"],
+        context=context,
+        reservoir_tol=max(0.0, float(res_tol)),
+        notes=notes,
+    )
 
 
 # ---------------------------------------------------------------------------------------------
@@ -538,6 +601,8 @@ def production_yield(
     crit_f: list[np.ndarray] = []
     min_margin: list[np.ndarray] = []
     fail_any: list[np.ndarray] = []
+    fail_var: list[np.ndarray] = []
+    fixed_fail: list[str] = []  # rules whose stress and limit do not depend on the draws
     misses: dict[str, int] = {current_rule.id: 0}
     for rule, _ in evaluated:
         misses.setdefault(rule.id, 0)
@@ -588,6 +653,7 @@ def production_yield(
         bad = ~np.broadcast_to(np.asarray(st_cur <= lim_cur), (n,))
         misses[current_rule.id] += int(np.count_nonzero(bad))
         worst_m = m_cur.copy()
+        bad_fixed = np.zeros(n, dtype=bool)
         if evaluated:
             # stress line: the highest mains and frequency (band), or the unit's own (drawn)
             vs = v_unit if draw_mains else np.full(n, high)
@@ -602,6 +668,12 @@ def production_yield(
                 stress, limit, m = rule.check(s, q, pol)
                 ok = np.broadcast_to(np.asarray(stress <= limit), (n,))
                 misses[rule.id] += int(np.count_nonzero(~ok))
+                if np.ndim(m) == 0:
+                    # the same for every unit: a fixed rating passes or fails them all
+                    if not bool(ok[0]) and rule.id not in fixed_fail:
+                        fixed_fail.append(rule.id)
+                    bad_fixed |= ~ok
+                    continue
                 bad |= ~ok
                 worst_m = np.minimum(worst_m, np.broadcast_to(np.asarray(m, dtype=float), (n,)))
         for name, z, v in zip(
@@ -616,7 +688,8 @@ def production_yield(
         crit_v.append(v_unit)
         crit_f.append(f_unit)
         min_margin.append(worst_m)
-        fail_any.append(bad)
+        fail_var.append(bad.copy())
+        fail_any.append(bad | bad_fixed)
         done += n
         if progress is not None:
             progress(done, samples)
@@ -627,9 +700,10 @@ def production_yield(
     values = {k: np.concatenate(v) for k, v in val.items()}
     passed = int(samples - np.count_nonzero(failed))
     lo, hi = wilson_interval(passed, samples)
-    sens = _sensitivities(positions, margin_all, failed, tol, reservoir_tol, draw_mains)
-    n_miss = samples - passed
-    driver = sens[0] if (sens and n_miss) else None
+    # what drives the misses that depend on the draws (fixed failures are named in the notes)
+    failed_var = np.concatenate(fail_var)
+    sens = _sensitivities(positions, margin_all, failed_var, tol, reservoir_tol)
+    driver = sens[0] if (sens and failed_var.any()) else None
     notes = [
         f"end-of-life X capacitance loss applied as a fixed {tol.cap_loss * 100:.3g} % "
         "(not drawn) to the current criterion",
@@ -646,8 +720,11 @@ def production_yield(
         )
     if not parts:
         notes.append("values only (no catalogue parts): the load is the only criterion")
-    if n_miss and driver is None:
-        notes.append("the misses do not depend on any drawn value (a fixed rating fails)")
+    if fixed_fail:
+        notes.append(
+            "fail every unit whatever the drawn values (a fixed rating or stress): "
+            + ", ".join(fixed_fail)
+        )
     all_currents = np.concatenate(currents)
     return YieldResult(
         samples=samples,
@@ -683,7 +760,6 @@ def _sensitivities(
     failed: np.ndarray,
     tol: Tolerances,
     reservoir_tol: float,
-    draw_mains: bool,
 ) -> list[dict[str, Any]]:
     """Per drawn variable: rank correlation with the unit's smallest margin and the miss rate in
     the bottom and top third of its band (frequency: lowest and highest of the set); sorted by
