@@ -262,7 +262,7 @@ def bom_design(path: Any, **audit_options: Any) -> BomDesign:
         tolerances=seen["tolerances"],
         parts=seen["parts"],
         context=context,
-        reservoir_tol=max(0.0, float(res_tol)),
+        reservoir_tol=max(0.0, round(float(res_tol), 12)),
         notes=notes,
     )
 
@@ -519,7 +519,6 @@ def production_yield(
         seed = int(np.random.SeedSequence().entropy % (2**32))
     if not isinstance(seed, (int, np.integer)) or seed < 0:
         raise BadValueError(f"--seed: {seed!r} is not a whole number >= 0")
-    rng = np.random.default_rng(seed)
     top = circuit.topology
     vf = circuit.diode_drop_v
     caps = circuit.x_capacitors_f
@@ -586,6 +585,7 @@ def production_yield(
     current_rule = next(r for r in RULES if r.id == "whole.min_current")
     pol_current = dataclasses.replace(pol, load_margin=0.0)
 
+    checks = [(current_rule, None, pol_current)] + [(rule, q, pol) for rule, q in evaluated]
     names = (
         ["x_capacitance_f"]
         if len(caps) == 1
@@ -594,116 +594,117 @@ def production_yield(
     names += ["series_resistance_ohm", "bleeder_resistance_ohm", "zener_voltage_v", "reservoir_f"]
     if draw_mains:
         names += ["mains_v", "freq_hz"]
-    pos: dict[str, list[np.ndarray]] = {n: [] for n in names}
-    val: dict[str, list[np.ndarray]] = {n: [] for n in names}
-    currents: list[np.ndarray] = []
-    crit_v: list[np.ndarray] = []
-    crit_f: list[np.ndarray] = []
-    min_margin: list[np.ndarray] = []
-    fail_any: list[np.ndarray] = []
-    fail_var: list[np.ndarray] = []
-    fixed_fail: list[str] = []  # rules whose stress and limit do not depend on the draws
-    misses: dict[str, int] = {current_rule.id: 0}
-    for rule, _ in evaluated:
-        misses.setdefault(rule.id, 0)
 
-    done = 0
-    while done < samples:
-        n = min(BLOCK, samples - done)
-        zc = [band_positions(rng, n, dist) for _ in caps]
-        z_r = band_positions(rng, n, dist)
-        z_rb = band_positions(rng, n, dist)
-        z_z = band_positions(rng, n, dist)
-        z_cr = band_positions(rng, n, dist)
-        if draw_mains:
-            z_v = band_positions(rng, n, dist)
-            f_unit = np.asarray(freqs, dtype=float)[rng.integers(0, len(freqs), n)]
-            v_unit = v_mid + v_half * z_v
-        else:
-            z_v = np.zeros(n)
-            f_unit = np.full(n, freqs[0])
-            v_unit = np.full(n, low)
-        c_each = [ci * (1.0 + tol.cap_tol * z) for ci, z in zip(caps, zc, strict=True)]
-        c_day1 = np.sum(c_each, axis=0)
-        c_eol = c_day1 * loss
-        r = r0 * (1.0 + tol.r_tol * z_r)
-        rb = rb0 * (1.0 + rb_tol * z_rb) if circuit.has_bleeder else np.full(n, math.inf)
-        vz = vz0 * (1.0 + tol.zener_tol * z_z)
-        cr = cr0 * (1.0 + reservoir_tol * z_cr)
-        # the capacitance's position in its band (several parts: of the total)
-        z_ctot = (c_day1 / c_total - 1.0) / tol.cap_tol if tol.cap_tol > 0 else np.zeros(n)
-        zmap = {
-            "x_capacitance_f": z_ctot,
-            "series_resistance_ohm": z_r,
-            "bleeder_resistance_ohm": z_rb,
-            "zener_voltage_v": z_z,
-            "reservoir_f": z_cr,
-            "mains_v": z_v,
-        }
-        zmat = (
-            np.column_stack([zmap[name] for name in cal.variables])
-            if cal.variables
-            else (np.zeros((n, 0)))
-        )
-        approx = cf.dc_current(top, v_unit, c_eol, f_unit, vz, vf, r)
-        i_avail = predict(zmat, f_unit, approx)
-        stresses = {"load_a": demand, "min_dc_current_a": i_avail}
-        st_cur, lim_cur, m_cur = current_rule.check(stresses, None, pol_current)
-        m_cur = np.broadcast_to(np.asarray(m_cur, dtype=float), (n,))
-        bad = ~np.broadcast_to(np.asarray(st_cur <= lim_cur), (n,))
-        misses[current_rule.id] += int(np.count_nonzero(bad))
-        worst_m = m_cur.copy()
-        bad_fixed = np.zeros(n, dtype=bool)
-        if evaluated:
-            # stress line: the highest mains and frequency (band), or the unit's own (drawn)
-            vs = v_unit if draw_mains else np.full(n, high)
-            fs = f_unit if draw_mains else np.full(n, freqs[-1])
-            s = _unit_stresses(
-                s_worst, analysis, circuit, vs, v_unit, fs, c_day1, r, rb, vz, cr, i_avail, demand
-            )
-            for rule, p in evaluated:
-                q = p
-                if rule.role == "series_resistor" and p.value is not None:
-                    q = dataclasses.replace(p, value=p.value * (r / r0))
-                stress, limit, m = rule.check(s, q, pol)
+    def blocks():
+        """The units block by block, always drawn the same way from ``seed``: per block the
+        band positions, the values, the criterion point, the calibrated current and, per
+        check, (rule id, ok, margin)."""
+        rng = np.random.default_rng(seed)
+        done = 0
+        while done < samples:
+            n = min(BLOCK, samples - done)
+            zc = [band_positions(rng, n, dist) for _ in caps]
+            z_r = band_positions(rng, n, dist)
+            z_rb = band_positions(rng, n, dist)
+            z_z = band_positions(rng, n, dist)
+            z_cr = band_positions(rng, n, dist)
+            if draw_mains:
+                z_v = band_positions(rng, n, dist)
+                f_unit = np.asarray(freqs, dtype=float)[rng.integers(0, len(freqs), n)]
+                v_unit = v_mid + v_half * z_v
+            else:
+                z_v = np.zeros(n)
+                f_unit = np.full(n, freqs[0])
+                v_unit = np.full(n, low)
+            c_each = [ci * (1.0 + tol.cap_tol * z) for ci, z in zip(caps, zc, strict=True)]
+            c_day1 = np.sum(c_each, axis=0)
+            r = r0 * (1.0 + tol.r_tol * z_r)
+            rb = rb0 * (1.0 + rb_tol * z_rb) if circuit.has_bleeder else np.full(n, math.inf)
+            vz = vz0 * (1.0 + tol.zener_tol * z_z)
+            cr = cr0 * (1.0 + reservoir_tol * z_cr)
+            # the capacitance's position in its band (several parts: of the total)
+            z_ctot = (c_day1 / c_total - 1.0) / tol.cap_tol if tol.cap_tol > 0 else np.zeros(n)
+            zmap = {
+                "x_capacitance_f": z_ctot,
+                "series_resistance_ohm": z_r,
+                "bleeder_resistance_ohm": z_rb,
+                "zener_voltage_v": z_z,
+                "reservoir_f": z_cr,
+                "mains_v": z_v,
+            }
+            zmat = np.column_stack([zmap[k] for k in cal.variables] + [np.zeros(n)])[:, :-1]
+            approx = cf.dc_current(top, v_unit, c_day1 * loss, f_unit, vz, vf, r)
+            i_avail = predict(zmat, f_unit, approx)
+            s: dict[str, Any] = {"load_a": demand, "min_dc_current_a": i_avail}
+            if evaluated:
+                # stress line: the highest mains and frequency (band), or the unit's own (drawn)
+                vs = v_unit if draw_mains else np.full(n, high)
+                fs = f_unit if draw_mains else np.full(n, freqs[-1])
+                s = _unit_stresses(
+                    s_worst, analysis, circuit, vs, v_unit, fs, c_day1, r, rb, vz, cr, i_avail,
+                    demand,
+                )  # fmt: skip
+            results = []
+            for rule, q, pl in checks:
+                if rule.role == "series_resistor" and q.value is not None:
+                    q = dataclasses.replace(q, value=q.value * (r / r0))
+                stress, limit, m = rule.check(s, q, pl)
                 ok = np.broadcast_to(np.asarray(stress <= limit), (n,))
-                misses[rule.id] += int(np.count_nonzero(~ok))
-                if np.ndim(m) == 0:
-                    # the same for every unit: a fixed rating passes or fails them all
-                    if not bool(ok[0]) and rule.id not in fixed_fail:
-                        fixed_fail.append(rule.id)
-                    bad_fixed |= ~ok
-                    continue
-                bad |= ~ok
-                worst_m = np.minimum(worst_m, np.broadcast_to(np.asarray(m, dtype=float), (n,)))
-        for name, z, v in zip(
-            names,
-            [*zc, z_r, z_rb, z_z, z_cr] + ([z_v, f_unit] if draw_mains else []),
-            [*c_each, r, rb, vz, cr] + ([v_unit, f_unit] if draw_mains else []),
-            strict=True,
-        ):
-            pos[name].append(z)
-            val[name].append(v)
+                results.append((rule.id, ok, np.broadcast_to(np.asarray(m, dtype=float), (n,))))
+            zs = [*zc, z_r, z_rb, z_z, z_cr] + ([z_v, f_unit] if draw_mains else [])
+            vals = [*c_each, r, rb, vz, cr] + ([v_unit, f_unit] if draw_mains else [])
+            yield dict(zip(names, zs, strict=True)), dict(zip(names, vals, strict=True)), (
+                i_avail, v_unit, f_unit, results
+            )  # fmt: skip
+            done += n
+
+    # pass one: misses per rule, pass or fail of each unit
+    misses: dict[str, int] = dict.fromkeys((rule.id for rule, _, _ in checks), 0)
+    pos: dict[str, list[np.ndarray]] = {k: [] for k in names}
+    val: dict[str, list[np.ndarray]] = {k: [] for k in names}
+    currents, crit_v, crit_f, fail_any = [], [], [], []
+    done = 0
+    for zs, vals, (i_avail, v_unit, f_unit, results) in blocks():
+        bad = np.zeros(len(i_avail), dtype=bool)
+        for rid, ok, _ in results:
+            misses[rid] += int(np.count_nonzero(~ok))
+            bad |= ~ok
+        for k in names:
+            pos[k].append(zs[k])
+            val[k].append(vals[k])
         currents.append(i_avail)
         crit_v.append(v_unit)
         crit_f.append(f_unit)
-        min_margin.append(worst_m)
-        fail_var.append(bad.copy())
-        fail_any.append(bad | bad_fixed)
-        done += n
+        fail_any.append(bad)
+        done += len(i_avail)
         if progress is not None:
-            progress(done, samples)
-
+            progress(done, 2 * samples)
     failed = np.concatenate(fail_any)
-    margin_all = np.concatenate(min_margin)
     positions = {k: np.concatenate(v) for k, v in pos.items()}
     values = {k: np.concatenate(v) for k, v in val.items()}
     passed = int(samples - np.count_nonzero(failed))
     lo, hi = wilson_interval(passed, samples)
-    # what drives the misses that depend on the draws (fixed failures are named in the notes)
-    failed_var = np.concatenate(fail_var)
-    sens = _sensitivities(positions, margin_all, failed_var, tol, reservoir_tol)
-    driver = sens[0] if (sens and failed_var.any()) else None
+    # pass two (the same units again): the driver is sought among the rules that miss some
+    # units but not all; a rule that misses every unit does not depend on the draws
+    always = [rid for rid, c in misses.items() if c == samples]
+    telling = {rid for rid, c in misses.items() if 0 < c < samples}
+    use = telling or set(misses)
+    margins, fail_var = [], []
+    for _, _, (i_avail, _, _, results) in blocks():
+        worst = np.full(len(i_avail), np.inf)
+        bad = np.zeros(len(i_avail), dtype=bool)
+        for rid, ok, m in results:
+            if rid in use:
+                worst = np.minimum(worst, m)
+                bad |= ~ok
+        margins.append(worst)
+        fail_var.append(bad)
+        done += len(i_avail)
+        if progress is not None:
+            progress(done, 2 * samples)
+    margin_all = np.concatenate(margins)
+    sens = _sensitivities(positions, margin_all, np.concatenate(fail_var), tol, reservoir_tol)
+    driver = sens[0] if (sens and telling) else None
     notes = [
         f"end-of-life X capacitance loss applied as a fixed {tol.cap_loss * 100:.3g} % "
         "(not drawn) to the current criterion",
@@ -715,16 +716,13 @@ def production_yield(
         notes.append("each unit is checked at its own drawn mains and frequency")
     else:
         notes.append(
-            "load checked at the lowest line and frequency; stresses at the highest "
-            "line and frequency"
+            "load checked at the lowest line and frequency"
+            + ("; stresses at the highest line and frequency" if parts else "")
         )
     if not parts:
         notes.append("values only (no catalogue parts): the load is the only criterion")
-    if fixed_fail:
-        notes.append(
-            "fail every unit whatever the drawn values (a fixed rating or stress): "
-            + ", ".join(fixed_fail)
-        )
+    if always:
+        notes.append("miss on every unit (not a matter of tolerances): " + ", ".join(always))
     all_currents = np.concatenate(currents)
     return YieldResult(
         samples=samples,
@@ -761,9 +759,10 @@ def _sensitivities(
     tol: Tolerances,
     reservoir_tol: float,
 ) -> list[dict[str, Any]]:
-    """Per drawn variable: rank correlation with the unit's smallest margin and the miss rate in
-    the bottom and top third of its band (frequency: lowest and highest of the set); sorted by
-    the size of the correlation, strongest first. Variables with no band are left out."""
+    """Per drawn variable: Spearman's rank correlation of its band position with the unit's
+    smallest margin (on the rules that tell units apart), and the share of units missing those
+    rules in the bottom and top third of its band (frequency: the lowest and the highest of the
+    set); strongest correlation first. Variables with no band are left out."""
     width = {
         "series_resistance_ohm": tol.r_tol,
         "bleeder_resistance_ohm": tol.r_tol,
