@@ -703,7 +703,9 @@ def production_yield(
         if progress is not None:
             progress(done, 2 * samples)
     margin_all = np.concatenate(margins)
-    sens = _sensitivities(positions, margin_all, np.concatenate(fail_var), tol, reservoir_tol)
+    sens = _sensitivities(
+        positions, margin_all, np.concatenate(fail_var), tol, reservoir_tol, rb_tol
+    )
     driver = sens[0] if (sens and telling) else None
     notes = [
         f"end-of-life X capacitance loss applied as a fixed {tol.cap_loss * 100:.3g} % "
@@ -758,6 +760,7 @@ def _sensitivities(
     failed: np.ndarray,
     tol: Tolerances,
     reservoir_tol: float,
+    bleeder_tol: float,
 ) -> list[dict[str, Any]]:
     """Per drawn variable: Spearman's rank correlation of its band position with the unit's
     smallest margin (on the rules that tell units apart), and the share of units missing those
@@ -765,7 +768,7 @@ def _sensitivities(
     set); strongest correlation first. Variables with no band are left out."""
     width = {
         "series_resistance_ohm": tol.r_tol,
-        "bleeder_resistance_ohm": tol.r_tol,
+        "bleeder_resistance_ohm": bleeder_tol,
         "zener_voltage_v": tol.zener_tol,
         "reservoir_f": reservoir_tol,
     }

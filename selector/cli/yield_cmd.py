@@ -291,7 +291,8 @@ def render_yield(doc: dict[str, Any]) -> list[str]:
         for r, c in sorted(missed.items(), key=lambda kv: -kv[1]):
             lines.append(f"    {r:<{width}}  {c}")
     else:
-        lines.append(f"  Misses by rule: none of the {len(doc['misses_by_rule'])} rules missed")
+        count = len(doc["misses_by_rule"])
+        lines.append(f"  Misses by rule: none ({count} rule{'s' if count > 1 else ''} checked)")
     d = doc["driver"]
     if d is not None:
         low, high = ("lowest", "highest") if d["parameter"] == "freq_hz" else (
