@@ -92,6 +92,14 @@ def test_values_check_accepts_give_full_yield() -> None:
     assert doc["yield_fraction"] == 1.0
 
 
+def test_large_runs_show_a_progress_bar_on_stderr_only() -> None:
+    args = ["yield", "--cap", "330n", "--load", "15m", "--seed", "1", "--samples", "200000"]
+    r = invoke(*args)
+    assert r.exit_code == 0
+    assert "drawing units" in r.stderr and "drawing units" not in r.stdout
+    assert "drawing units" not in invoke(*args, "--json").stderr
+
+
 def test_options_reach_the_run() -> None:
     doc = json.loads(
         invoke(

@@ -75,7 +75,10 @@ def yield_cmd(
     ] = None,
     samples: Annotated[int, typer.Option("--samples", help="Units to draw.")] = 10_000,
     seed: Annotated[
-        int | None, typer.Option("--seed", help="Seed of the draws (same seed: same units).")
+        int | None,
+        typer.Option(
+            "--seed", help="Seed of the draws (same seed and --samples: same units) [default: new]."
+        ),
     ] = None,
     dist: Annotated[
         str,
@@ -139,7 +142,8 @@ def yield_cmd(
     meets the load (available DC current >= load, no policy margin) and, with --bom, keeps
     every part within its rating; with a 95 % Wilson interval and the value that drives the
     misses. The end-of-life capacitance loss is applied as a fixed figure, not drawn.
-    Exit 0 whenever it ran (a yield is a figure, not a finding); 2 for bad input."""
+    --topology auto: as the BOM shows, else bridge. Exit 0 whenever it ran (a yield is a
+    figure, not a finding); 2 for bad input."""
     from ..production_yield import bom_design, production_yield
 
     if bom is not None and cap:
