@@ -20,6 +20,7 @@ from ._circuit import (
     DbOpt,
     DropoutOpt,
     FreqOpt,
+    HarmonicsOpt,
     JsonOpt,
     LoadOpt,
     LoadROpt,
@@ -150,6 +151,7 @@ def audit(
     mains: MainsOpt = "230",
     mains_tol: MainsTolOpt = "10",
     freq: FreqOpt = "50",
+    harmonics: HarmonicsOpt = None,
     cap_tol: Annotated[
         str | None,
         typer.Option(
@@ -246,9 +248,10 @@ def audit(
             dropout_v=_value(dropout, "V", "--dropout"),
             quiescent_a=_value(quiescent, "A", "--quiescent"),
         )
+    supply = mains_from_options(mains, mains_tol, freq, harmonics)
     result = audit_bom(
         bom,
-        mains=mains_from_options(mains, mains_tol, freq),
+        mains=supply,
         conditions=conditions_from_options(ambient, profile, surge),
         tolerances=tolerances,
         pinned_tolerances=pinned,
@@ -278,7 +281,7 @@ def audit(
         board = result.boards[0] if result.boards else None
         write_report(
             report, "audit", result.to_dict(), board.circuit if board else None,
-            mains=mains_from_options(mains, mains_tol, freq), tolerances=tolerances,
+            mains=supply, tolerances=tolerances,
             conditions=conditions_from_options(ambient, profile, surge),
         )  # fmt: skip
     _finish(result.to_dict(), json)
