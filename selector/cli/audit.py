@@ -32,6 +32,7 @@ from ._circuit import (
     SurgeOpt,
     TopologyOpt,
     conditions_from_options,
+    describe_mains,
     load_from_options,
     mains_from_options,
     tolerances_from_options,
@@ -284,7 +285,13 @@ def audit(
             mains=supply, tolerances=tolerances,
             conditions=conditions_from_options(ambient, profile, surge),
         )  # fmt: skip
-    _finish(result.to_dict(), json)
+    from ..engine.distortion import mains_record
+
+    doc = result.to_dict()
+    doc["mains"] = mains_record(supply)
+    if not json and supply.harmonics:
+        typer.echo(describe_mains(doc["mains"]))
+    _finish(doc, json)
 
 
 def _value(text: str, quantity: str, what: str) -> float:

@@ -31,6 +31,7 @@ from ._circuit import (
     SurgeOpt,
     ZenerOpt,
     conditions_from_options,
+    describe_mains,
     mains_from_options,
 )
 from .parts import _Bar
@@ -118,6 +119,7 @@ def design(
     """
     from .. import design as D
     from ..catalogue import open_catalogue, parts_frame, resolve_url
+    from ..engine.distortion import mains_record
     from ..policy import load_policy
 
     pol = load_policy(policy)
@@ -174,6 +176,7 @@ def design(
             "ambient_c": req.conditions.ambient_c,
             "profile": req.conditions.profile,
         },
+        "mains": mains_record(req.mains),
         "policy": pol.to_dict(),
         "designs": [D.design_to_dict(d) for d in designs],
         "bom": str(bom) if bom is not None else None,
@@ -188,6 +191,8 @@ def design(
     if json:
         print_json(doc)
         return
+    if req.mains.harmonics:
+        typer.echo(describe_mains(doc["mains"]))
     for d in designs:
         _echo_design(d, len(designs), req)
     if bom is not None:
