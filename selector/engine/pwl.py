@@ -140,11 +140,27 @@ class Mode:
         """(4, 5 + 2 n) matrix W with ``[vc, vo, u, 1](t0 + h) = W @ basis(h)`` (n tones)."""
         c = self._cc
         M = self._m
+        tn = self._tn
+        if len(tn) == 1:  # one tone: the common case, written out
+            w, ph, y0r, y0i, y1r, y1i, amp = tn[0]
+            sn, cs = math.sin(w * t0 + ph), math.cos(w * t0 + ph)
+            z0 = x0[0] - (y0r * sn + y0i * cs)
+            z1 = x0[1] - (y1r * sn + y1i * cs)
+            return np.array(
+                [
+                    [z0, M[0] * z0 + M[1] * z1, c[0], c[2],
+                     y0r * sn + y0i * cs, y0r * cs - y0i * sn, 0.0],
+                    [z1, M[2] * z0 + M[3] * z1, c[1], c[3],
+                     y1r * sn + y1i * cs, y1r * cs - y1i * sn, 0.0],
+                    [0.0, 0.0, 0.0, 0.0, amp * sn, amp * cs, 0.0],
+                    [0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 1.0],
+                ]
+            )  # fmt: skip
         z0, z1 = x0[0], x0[1]
         r0: list[float] = []
         r1: list[float] = []
         r2: list[float] = []
-        for w, ph, y0r, y0i, y1r, y1i, amp in self._tn:
+        for w, ph, y0r, y0i, y1r, y1i, amp in tn:
             a = w * t0 + ph
             sn, cs = math.sin(a), math.cos(a)
             z0 -= y0r * sn + y0i * cs
@@ -315,6 +331,7 @@ class PwlSystem:
         self.omega = 2 * math.pi * freq_hz
         self.period = 1.0 / freq_hz
         self.tones = tones if tones is not None else ((vpk, self.omega, 0.0),)
+        self._sine = self.tones == ((vpk, self.omega, 0.0),)
         self.tol = 1e-9 * volt_scale
         top = max(round(w / self.omega) for _, w, _ in self.tones)
         self._grid_n = max(96, 16 * top)
@@ -337,6 +354,8 @@ class PwlSystem:
 
     def u(self, t: float) -> float:
         """Source voltage [V] at time t (sum of the tones)."""
+        if self._sine:  # the common case, on the event-location hot path
+            return self.vpk * math.sin(self.omega * t)
         v = 0.0
         for amp, w, ph in self.tones:
             v += amp * math.sin(w * t + ph)
