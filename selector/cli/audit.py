@@ -276,19 +276,19 @@ def audit(
             if text is not None
         },
     )
+    from ..engine.distortion import mains_record
+
+    doc = result.to_dict()
+    doc["mains"] = mains_record(supply)
     if report is not None:
         from ..report import write_report
 
         board = result.boards[0] if result.boards else None
         write_report(
-            report, "audit", result.to_dict(), board.circuit if board else None,
+            report, "audit", doc, board.circuit if board else None,
             mains=supply, tolerances=tolerances,
             conditions=conditions_from_options(ambient, profile, surge),
         )  # fmt: skip
-    from ..engine.distortion import mains_record
-
-    doc = result.to_dict()
-    doc["mains"] = mains_record(supply)
     if not json and supply.harmonics:
         typer.echo(describe_mains(doc["mains"]))
     _finish(doc, json)
