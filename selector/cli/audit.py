@@ -20,6 +20,7 @@ from ._circuit import (
     DbOpt,
     DropoutOpt,
     FreqOpt,
+    HarmonicsOpt,
     JsonOpt,
     LoadOpt,
     LoadROpt,
@@ -31,6 +32,7 @@ from ._circuit import (
     SurgeOpt,
     TopologyOpt,
     conditions_from_options,
+    describe_mains,
     load_from_options,
     mains_from_options,
     tolerances_from_options,
@@ -195,6 +197,7 @@ def audit_options(
     mains: str = "230",
     mains_tol: str = "10",
     freq: str = "50",
+    harmonics: str | None = None,
     cap_tol: str | None = None,
     cap_loss: str = "10",
     r_tol: str | None = None,
@@ -251,7 +254,7 @@ def audit_options(
             quiescent_a=_value(quiescent, "A", "--quiescent"),
         )
     return dict(
-        mains=mains_from_options(mains, mains_tol, freq),
+        mains=mains_from_options(mains, mains_tol, freq, harmonics),
         conditions=conditions_from_options(ambient, profile, surge),
         tolerances=tolerances,
         pinned_tolerances=pinned,
@@ -289,6 +292,7 @@ def audit(
     mains: MainsOpt = "230",
     mains_tol: MainsTolOpt = "10",
     freq: FreqOpt = "50",
+    harmonics: HarmonicsOpt = None,
     cap_tol: BomCapTolOpt = None,
     cap_loss: CapLossOpt = "10",
     r_tol: BomRTolOpt = None,
@@ -324,22 +328,30 @@ def audit(
 
     opts = audit_options(
         role=role, roles=roles, sheet=sheet, encoding=encoding, column=column,
-        topology=topology, mains=mains, mains_tol=mains_tol, freq=freq, cap_tol=cap_tol,
+        topology=topology, mains=mains, mains_tol=mains_tol, freq=freq, harmonics=harmonics,
+        cap_tol=cap_tol,
         cap_loss=cap_loss, r_tol=r_tol, zener_tol=zener_tol, zener_z=zener_z, load=load,
         load_r=load_r, burst=burst, burst_time=burst_time, burst_period=burst_period,
         regulator=regulator, dropout=dropout, quiescent=quiescent, diode_drop=diode_drop,
         diode_r=diode_r, ambient=ambient, profile=profile, surge=surge, policy=policy, db=db,
     )  # fmt: skip
     result = audit_bom(bom, **opts)
+    from ..engine.distortion import mains_record
+
+    supply = opts["mains"]
+    doc = result.to_dict()
+    doc["mains"] = mains_record(supply)
     if report is not None:
         from ..report import write_report
 
         board = result.boards[0] if result.boards else None
         write_report(
-            report, "audit", result.to_dict(), board.circuit if board else None,
-            mains=opts["mains"], tolerances=opts["tolerances"], conditions=opts["conditions"],
+            report, "audit", doc, board.circuit if board else None,
+            mains=supply, tolerances=opts["tolerances"], conditions=opts["conditions"],
         )  # fmt: skip
-    _finish(result.to_dict(), json)
+    if not json and supply.harmonics:
+        typer.echo(describe_mains(doc["mains"]))
+    _finish(doc, json)
 
 
 def _value(text: str, quantity: str, what: str) -> float:

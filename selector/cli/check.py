@@ -26,6 +26,7 @@ from ._circuit import (
     DiodeROpt,
     DropoutOpt,
     FreqOpt,
+    HarmonicsOpt,
     JsonOpt,
     LoadOpt,
     LoadROpt,
@@ -45,6 +46,7 @@ from ._circuit import (
     circuit_from_options,
     conditions_from_options,
     describe_corner,
+    describe_mains,
     load_from_options,
     mains_from_options,
     tolerances_from_options,
@@ -61,6 +63,7 @@ def check(
     mains: MainsOpt = "230",
     mains_tol: MainsTolOpt = "10",
     freq: FreqOpt = "50",
+    harmonics: HarmonicsOpt = None,
     cap_tol: CapTolOpt = "10",
     cap_loss: CapLossOpt = "10",
     series_r: SeriesROpt = "470",
@@ -108,10 +111,12 @@ def check(
         quiescent=quiescent,
     )
     from ..engine import analyse
+    from ..engine.distortion import mains_record
 
+    supply = mains_from_options(mains, mains_tol, freq, harmonics)
     result = analyse(
         circuit,
-        mains_from_options(mains, mains_tol, freq),
+        supply,
         tolerances_from_options(cap_tol, cap_loss, r_tol, zener_tol),
         conditions_from_options(ambient, profile, surge),
     )
@@ -119,6 +124,7 @@ def check(
         "topology": result.topology,
         "ambient_c": result.ambient_c,
         "ok": result.ok,
+        "mains": mains_record(supply),
         "nominal": result.nominal,
         "worst_case": result.worst_case,
         "inrush": result.inrush,
@@ -136,6 +142,7 @@ def check(
         print_json(doc)
     else:
         typer.echo(render_table(result))
+        typer.echo(describe_mains(doc["mains"]))
         echo_cautions()
     if not result.ok:
         raise typer.Exit(EXIT_FINDINGS)
