@@ -23,7 +23,7 @@ import pytest
 from selector.cautions import CAUTIONS
 from selector.errors import BadValueError
 from selector.report import render_report, write_report
-from selector.report.plots import Trace, waveform_svg
+from selector.report.plots import Trace, pulse_window, waveform_svg
 from selector.report.schematic import schematic_svg
 from selector.units import parse_value
 
@@ -59,7 +59,7 @@ class _Page(HTMLParser):
             self.body_focus = a.get("data-focus")
         if tag == "section":
             self.sections.append(a.get("id") or "")
-        if tag == "td" and a.get("data-si"):
+        if tag in ("td", "span") and a.get("data-si"):
             self._cell = {"key": a["data-key"] or "", "si": a["data-si"], "text": ""}
         if tag == "script":
             self._script, self._script_text = a, []
@@ -73,7 +73,7 @@ class _Page(HTMLParser):
             self.stack.append(tag)
 
     def handle_endtag(self, tag):
-        if tag == "td" and self._cell is not None:
+        if tag in ("td", "span") and self._cell is not None:
             self.cells.append(self._cell)
             self._cell = None
         if tag == "script" and self._script is not None:
@@ -347,6 +347,47 @@ def test_shown_values_in_engineering_notation():
     assert "253 V, 60 Hz, C +10 %" in html
 
 
+def test_fractions_are_shown_as_percentages():
+    # a tolerance of 0.1 is 10 % (IEC 60062 letter K = 10 % [S]); keys name fractions by a
+    # word: tolerance / tol / loss / fraction / margin; quantities with a unit stay in units
+    doc = {
+        **CHECK_DOC,
+        "tolerances": {"cap_tol": 0.1, "cap_loss": 0.25, "r_tol": 0.05, "zener_tol": 0.02},
+        "policy": {"zener_power_fraction": 0.5, "load_margin": 0.1, "fuse_fault_factor": 2.0},
+    }
+    page = _parse(render_report("check", doc))
+    shown = {c["key"]: c["text"].strip() for c in page.cells}
+    assert shown["mains.tolerance"] == "10 %"
+    assert shown["tolerances.cap_tol"] == "10 %"
+    assert shown["tolerances.cap_loss"] == "25 %"
+    assert shown["tolerances.r_tol"] == "5 %"
+    assert shown["tolerances.zener_tol"] == "2 %"
+    assert shown["policy.zener_power_fraction"] == "50 %"
+    assert shown["policy.load_margin"] == "10 %"
+    assert shown["policy.fuse_fault_factor"] == "2"  # a factor, not a fraction
+    assert shown["findings[0].margin"] == "+49.6 %"
+    assert shown["worst_case.zener_power_w"] == "251.8 mW"
+    # the policy is part of what was asked, not a computed figure
+    html = render_report("check", doc)
+    assert html.index("zener power fraction") < html.index('id="schematic"')
+
+
+def test_parts_table_folds_the_ratings_into_one_cell():
+    doc = json.loads(json.dumps(DESIGN_DOC))
+    doc["designs"][0]["parts"][0].update(rated_voltage_ac_v=305.0, tolerance=0.1)
+    doc["designs"][0]["parts"][1].update(power_w=1.0, family="fusible-demo")
+    page = _parse(render_report("design", doc))
+    shown = {c["key"]: c["text"].strip() for c in page.cells}
+    assert shown["parts[0].rated_voltage_ac_v"] == "rated voltage ac 305 V"
+    assert shown["parts[0].tolerance"] == "tolerance 10 %"
+    assert shown["parts[1].power_w"] == "power 1 W"
+    html = render_report("design", doc)
+    header = re.search(r'id="parts-table">\s*<tr>(.*?)</tr>', html, re.S).group(1)
+    assert re.findall(r"<th>(.*?)</th>", header) == [
+        "role", "code", "description", "value", "qty", "unit price", "details and ratings"
+    ]  # fmt: skip
+
+
 def test_failing_checks_are_counted_and_marked():
     html = render_report("check", CHECK_DOC)
     assert "1 of 2 checks fail" in html
@@ -402,6 +443,44 @@ def test_plot_errors_and_scaling():
         waveform_svg("empty", "A", [])
     with pytest.raises(BadValueError, match="empty or ragged"):
         waveform_svg("ragged", "A", [Trace("x", t, t[:-1])])
+
+
+def test_pulse_window_of_an_rc_charging_pulse():
+    # switch-on of R and C from a step: i = V/R exp(-t/(R C)) (RC charging, any circuits
+    # textbook [S]); it falls below 1 % of its peak at ln(100) tau = 4.61 tau, and the window
+    # adds 30 % of that: 5.99 tau
+    r, c, vpk, f = 470.0, 330e-9, 357.8, 60.0
+    tau = r * c
+    t = np.arange(0.0, 2.0 / f, tau / 20.0)
+    pulse = vpk / r * np.exp(-t / tau)
+    lo, hi = pulse_window(t, pulse)
+    assert lo == 0.0
+    assert hi == pytest.approx(1.3 * math.log(100.0) * tau, rel=0.02)
+    # switched on at the crest, the steady current C dv/dt = -Vpk w C sin(w t) follows the
+    # pulse (here 44 mA, 5.8 % of the peak): the window still ends within 6 tau
+    i = pulse - vpk * 2 * math.pi * f * c * np.sin(2 * math.pi * f * t)
+    lo, hi = pulse_window(t, i)
+    assert lo == 0.0 and 3 * tau < hi <= 6 * tau
+    svg = waveform_svg("switch-on", "A", [Trace("crest", t, i)])
+    assert "time [µs]" in svg  # the window (under 1 ms) is plotted in us
+    assert "time [ms]" in waveform_svg("whole", "A", [Trace("", t, i)], window_s=None)
+
+
+def test_pulse_window_of_a_surge_and_of_steady_waveforms():
+    # IEC 61000-4-5 1.2/50 us open-circuit surge (the engine's double exponential) over 20 ms:
+    # the window holds the pulse (its 1 % end is a few hundred us), not the 20 ms record
+    from selector.engine.transients import surge_wave
+
+    t = np.concatenate([[0.0], np.geomspace(1e-9, 20e-3, 700)])
+    lo, hi = pulse_window(t, surge_wave(t, 1000.0))
+    assert lo == 0.0 and 100e-6 < hi < 1e-3
+    # a sine over two mains cycles returns to its peak every cycle: not a pulse
+    ts = np.linspace(0.0, 0.04, 801)
+    assert pulse_window(ts, np.cos(2 * math.pi * 50.0 * ts)) is None
+    # a bus voltage that charges and stays up: not a pulse
+    assert pulse_window(ts, 12.0 * (1 - np.exp(-ts / 5e-3))) is None
+    with pytest.raises(BadValueError, match="end must come after"):
+        waveform_svg("x", "A", [Trace("", ts, ts)], window_s=(1.0, 0.5))
 
 
 def test_unknown_kind_is_refused():

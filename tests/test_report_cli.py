@@ -32,13 +32,17 @@ def invoke(*args: str):
     return runner.invoke(app, list(args), catch_exceptions=False)
 
 
+#: sections the report adds to a check document (the circuit, mains, tolerances, conditions)
+_ADDED = ("circuit.", "mains.", "tolerances.", "conditions.")
+
+
 def _compare(page, doc) -> int:
     """Every numeric cell whose key is in the JSON document equals it; returns how many."""
     focus = _lookup(doc, page.body_focus) if page.body_focus else doc
     n = 0
     for cell in page.cells:
-        if not cell["si"] or cell["key"].startswith("circuit."):
-            continue  # the circuit section is the report's addition to a check document
+        if not cell["si"] or cell["key"].startswith(_ADDED):
+            continue  # the report's additions to a check document: what was analysed
         try:
             want = _lookup(focus, cell["key"])
         except (KeyError, IndexError, TypeError):
@@ -68,6 +72,12 @@ def test_check_report_equals_check_json(tmp_path):
     assert f"mains {format_value(corner['mains_v'], 'V', 4)}, {corner['freq_hz']:g} Hz" in html
     assert "Line current over two mains cycles" in html
     assert "Switch-on current at the crest" in html
+    # what was analysed, tolerances as percentages (the defaults of the check options)
+    shown = {c["key"]: c["text"].strip() for c in page.cells}
+    assert shown["mains.tolerance"] == "10 %"
+    assert shown["tolerances.cap_tol"] == "10 %" and shown["tolerances.cap_loss"] == "10 %"
+    assert shown["tolerances.r_tol"] == "5 %" and shown["tolerances.zener_tol"] == "5 %"
+    assert shown["conditions.surge_v"] == "1 kV"
 
 
 def test_report_path_error_is_one_line(tmp_path):
