@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import json
 import math
+import os
 import re
 import shutil
 import subprocess
@@ -30,6 +31,16 @@ from selector.units import parse_value
 CHROMIUM = shutil.which("chromium") or (
     "/usr/bin/chromium" if Path("/usr/bin/chromium").exists() else None
 )
+
+
+def need_chromium() -> None:
+    """Skip the headless render tests where Debian's chromium is missing (developers'
+    machines); fail instead where DROPPER_REQUIRE_CHROMIUM is set (.ci/run installs it)."""
+    if CHROMIUM is not None:
+        return
+    if os.environ.get("DROPPER_REQUIRE_CHROMIUM"):
+        pytest.fail("DROPPER_REQUIRE_CHROMIUM is set but chromium is not installed")
+    pytest.skip("Debian's chromium is not installed here: the headless render test is skipped")
 
 
 class _Page(HTMLParser):
@@ -488,17 +499,110 @@ def test_unknown_kind_is_refused():
         render_report("summary", CHECK_DOC)
 
 
-def test_renders_headless_in_chromium(tmp_path):
-    if CHROMIUM is None:
-        pytest.skip("Debian's chromium is not installed here: the headless render test is skipped")
-    path = write_report(tmp_path / "r.html", "check", CHECK_DOC, waveforms=_waveforms())
-    png = tmp_path / "r.png"
+#: injected (in the tests only, into a copy of the report) before ``</body>``: after the
+#: page has loaded, measure the page, every table and figure against its container, and every
+#: cell against itself, and write the result as JSON into ``<pre id="layout-check">``
+_LAYOUT_PROBE = """<script>
+window.addEventListener("load", function () {
+  var de = document.documentElement, out = {
+    page: {scrollWidth: de.scrollWidth, clientWidth: de.clientWidth,
+           innerWidth: window.innerWidth},
+    items: [], cells: []};
+  document.querySelectorAll("table, figure").forEach(function (el) {
+    var box = el.parentElement, r = el.getBoundingClientRect(), b = box.getBoundingClientRect();
+    var svg = el.querySelector("svg"), sr = svg ? svg.getBoundingClientRect() : null;
+    out.items.push({tag: el.tagName.toLowerCase(), id: el.id,
+      section: el.closest("section") ? el.closest("section").id : "",
+      scrollWidth: el.scrollWidth, width: r.width, height: r.height,
+      containerWidth: box.clientWidth, left: r.left, right: r.right,
+      containerLeft: b.left, containerRight: b.right,
+      svgWidth: sr ? sr.width : null, svgHeight: sr ? sr.height : null,
+      rows: el.tagName === "TABLE" ? el.rows.length : null});
+  });
+  document.querySelectorAll("td, th").forEach(function (c) {
+    if (c.scrollWidth > c.clientWidth + 1)
+      out.cells.push({text: c.textContent.slice(0, 60), scrollWidth: c.scrollWidth,
+                      clientWidth: c.clientWidth});
+  });
+  var pre = document.createElement("pre");
+  pre.id = "layout-check";
+  pre.style.whiteSpace = "pre-wrap";
+  pre.style.wordBreak = "break-all";
+  pre.textContent = JSON.stringify(out);
+  document.body.appendChild(pre);
+});
+</script>"""
+
+
+def chromium_layout(report: Path, workdir: Path, width: int = 1280) -> dict[str, Any]:
+    """Render ``report`` in headless chromium at ``width`` px and return what
+    :data:`_LAYOUT_PROBE` measured (the report itself is not changed: a copy is probed)."""
+    assert CHROMIUM is not None
+    probe = workdir / f"probe-{width}-{report.name}"
+    probe.write_text(
+        report.read_text(encoding="utf-8").replace("</body>", _LAYOUT_PROBE + "\n</body>"),
+        encoding="utf-8",
+    )
     proc = subprocess.run(
         [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--hide-scrollbars",
-         "--window-size=1100,2600", f"--screenshot={png}", path.as_uri()],
-        capture_output=True, text=True, timeout=120,
+         f"--user-data-dir={workdir / 'chromium-profile'}", f"--window-size={width},2000",
+         "--run-all-compositor-stages-before-draw", "--virtual-time-budget=5000",
+         "--dump-dom", probe.as_uri()],
+        capture_output=True, text=True, timeout=180,
     )  # fmt: skip
-    assert png.exists(), proc.stderr[-2000:]
-    data = png.read_bytes()
-    assert data[:8] == b"\x89PNG\r\n\x1a\n"
-    assert len(data) > 50_000  # a rendered page with figures, not a blank one
+    m = re.search(r'<pre id="layout-check"[^>]*>(.*?)</pre>', proc.stdout, re.S)
+    assert m, f"no layout result from chromium: {proc.stderr[-2000:]}"
+    import html as _html
+
+    return json.loads(_html.unescape(m.group(1)))
+
+
+def assert_layout_fits(layout: dict[str, Any], html: str, width: int) -> None:
+    """Every table and figure of the page is rendered, with a size, inside its container, and
+    nothing makes the page or a cell scroll sideways."""
+    page = layout["page"]
+    assert page["innerWidth"] == width, page
+    assert page["scrollWidth"] <= page["clientWidth"], f"the page scrolls sideways: {page}"
+    items = layout["items"]
+    assert len([i for i in items if i["tag"] == "table"]) == html.count("<table")
+    assert len([i for i in items if i["tag"] == "figure"]) == html.count("<figure")
+    for item in items:
+        where = f"{item['tag']} {item['id'] or ''} in section {item['section']!r}"
+        assert item["width"] > 100 and item["height"] > 20, f"{where} not rendered: {item}"
+        assert item["scrollWidth"] <= item["containerWidth"] + 1, f"{where} overflows: {item}"
+        assert item["left"] >= item["containerLeft"] - 1, f"{where} sticks out left: {item}"
+        assert item["right"] <= item["containerRight"] + 1, f"{where} sticks out right: {item}"
+        if item["tag"] == "figure":
+            assert item["svgWidth"] > 300 and item["svgHeight"] > 100, f"{where}: {item}"
+            assert item["svgWidth"] <= item["containerWidth"] + 1, f"{where}: {item}"
+        else:
+            assert item["rows"] >= 1, f"{where} has no rows: {item}"
+    assert layout["cells"] == [], f"cells whose text overflows: {layout['cells'][:5]}"
+
+
+#: the report must fit a 1280 px screen and an A4 page (210 mm - 2 x 10 mm margins at 96 px
+#: per inch: 718 px; ISO 216 [S] for the A4 width)
+LAYOUT_WIDTHS = (1280, 718)
+
+
+@pytest.mark.parametrize(
+    ("kind", "doc"), [("check", CHECK_DOC), ("design", DESIGN_DOC), ("audit", AUDIT_DOC)]
+)
+def test_renders_headless_in_chromium(tmp_path, kind, doc):
+    need_chromium()
+    path = write_report(tmp_path / f"{kind}.html", kind, doc, waveforms=_waveforms())
+    html = path.read_text(encoding="utf-8")
+    for width in LAYOUT_WIDTHS:
+        assert_layout_fits(chromium_layout(path, tmp_path, width), html, width)
+
+
+def test_layout_check_sees_an_overflow(tmp_path):
+    """The layout check is not blind: a table wider than the page fails it."""
+    need_chromium()
+    path = write_report(tmp_path / "check.html", "check", CHECK_DOC, waveforms=_waveforms())
+    html = path.read_text(encoding="utf-8").replace(
+        '<table class="inputs">', '<table class="inputs" style="min-width: 3000px">', 1
+    )
+    path.write_text(html, encoding="utf-8")
+    with pytest.raises(AssertionError, match="scrolls sideways|overflows"):
+        assert_layout_fits(chromium_layout(path, tmp_path), html, 1280)

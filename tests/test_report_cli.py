@@ -16,7 +16,14 @@ from typer.testing import CliRunner
 from selector.cautions import CAUTIONS
 from selector.cli import app
 from selector.units import format_value
-from tests.test_report import _lookup, _parse
+from tests.test_report import (
+    LAYOUT_WIDTHS,
+    _lookup,
+    _parse,
+    assert_layout_fits,
+    chromium_layout,
+    need_chromium,
+)
 
 DATA = Path(__file__).parent / "data"
 runner = CliRunner()
@@ -165,3 +172,27 @@ def test_design_from_the_demo_stock_and_its_report(catalogue_copy_url, tmp_path)
     assert _compare(page, json.loads(json.dumps(doc, default=_plain))) >= 20
     for p in doc["designs"][0]["parts"]:
         assert p["code"] in html
+
+
+@pytest.mark.parametrize("kind", ["check", "design", "audit"])
+def test_command_reports_render_and_fit_in_chromium(catalogue_copy_url, tmp_path, kind):
+    """The reports the three commands write, rendered headless: every table and figure is
+    there and nothing overflows the page, at a 1280 px window and at A4 width."""
+    need_chromium()
+    out = tmp_path / f"{kind}.html"
+    args = {
+        "check": ["check", "--cap", "330n", "--series-r", "470", "--bleeder", "1M", "--zener",
+                  "12", "--reservoir", "220u", "--load", "10m", "--freq", "50,60"],
+        "design": ["design", "--load", "12m", "--vout", "5.1", "--freq", "50,60",
+                   "--db", catalogue_copy_url],
+        "audit": ["audit", str(DATA / "audit_vent_sound.csv"), "--freq", "50,60"],
+    }[kind]  # fmt: skip
+    result = invoke(*args, "--mains", "230", "--report", str(out))
+    assert result.exit_code == 0, result.output
+    html = out.read_text(encoding="utf-8")
+    assert html.count("<figure") == 4  # schematic, line current, output voltage, switch-on
+    if kind != "check":
+        assert 'id="parts-table"' in html
+    assert 'id="checks-table"' in html or kind == "check"
+    for width in LAYOUT_WIDTHS:
+        assert_layout_fits(chromium_layout(out, tmp_path, width), html, width)
