@@ -80,7 +80,7 @@ class _Page(HTMLParser):
         for k in ("src", "href", "xlink:href"):
             if a.get(k):
                 self.urls.append(a[k])
-        if tag not in ("br", "meta", "img", "input", "link", "hr"):
+        if tag not in ("br", "wbr", "meta", "img", "input", "link", "hr"):
             self.stack.append(tag)
 
     def handle_endtag(self, tag):
@@ -397,6 +397,15 @@ def test_parts_table_folds_the_ratings_into_one_cell():
     assert re.findall(r"<th>(.*?)</th>", header) == [
         "role", "code", "description", "value", "qty", "unit price", "details and ratings"
     ]  # fmt: skip
+
+
+def test_long_rule_names_wrap_at_their_joints():
+    doc = json.loads(json.dumps(AUDIT_DOC))
+    doc["findings"][0]["rule"] = "series_r.switch_on_voltage"
+    html = render_report("audit", doc)
+    assert "series_<wbr>r.<wbr>switch_<wbr>on_<wbr>voltage" in html
+    assert "series_r.switch_on_voltage" in "".join(_parse(html).text)  # the text is unchanged
+    assert "<wbr>" not in render_report("audit", AUDIT_DOC)  # short words are left alone
 
 
 def test_failing_checks_are_counted_and_marked():

@@ -13,10 +13,10 @@ and its JSON key in ``data-key``, and the whole JSON document is embedded in a
 against (and machine-read like) the command's ``--json`` output.
 
 The report reads the JSON document generically: numeric leaves whose key ends in a unit suffix
-(``_a _v _w _f _ohm _s _j _hz _a2s``, and ``_c`` for degrees Celsius) are shown in engineering
-notation; unit-less fractions (keys with a word such as ``tol``, ``tolerance``, ``loss``,
-``fraction`` or ``margin``, see :data:`FRACTION_WORDS`) as percentages (``0.1`` -> ``10 %``);
-other leaves are shown as text.
+(``_a _v _w _f _ohm _s _j _hz _a2s``, ``_var _va`` for reactive and apparent power, and ``_c``
+for degrees Celsius) are shown in engineering notation; unit-less fractions (keys with a word
+such as ``tol``, ``tolerance``, ``loss``, ``fraction`` or ``margin``, see
+:data:`FRACTION_WORDS`) as percentages (``0.1`` -> ``10 %``); other leaves are shown as text.
 """
 
 from __future__ import annotations
@@ -26,12 +26,14 @@ import datetime as _dt
 import json
 import math
 import os
+import re
 import tempfile
 from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
 import jinja2
+import markupsafe
 
 from .. import __version__
 from ..cautions import CAUTIONS
@@ -48,6 +50,8 @@ REPORT_KINDS = ("check", "design", "audit")
 UNIT_SUFFIXES: tuple[tuple[str, str], ...] = (
     ("_a2s", "A2s"),
     ("_ohm", "ohm"),
+    ("_var", "var"),
+    ("_va", "VA"),
     ("_v_per_s", "V/s"),
     ("_hz", "Hz"),
     ("_mm2", "mm²"),
@@ -445,14 +449,24 @@ def _plots(waveforms: Mapping[str, Any] | None) -> list[dict[str, str]]:
     return out
 
 
+def _breakable(text: Any) -> markupsafe.Markup:
+    """Escaped text with a line-break opportunity (``<wbr>``) after each ``.`` and ``_`` inside
+    a word, so that ``series_r.surge_voltage`` wraps at its joints in a narrow column instead
+    of anywhere."""
+    escaped = str(markupsafe.escape(text))
+    return markupsafe.Markup(re.sub(r"(?<=\w)([._])(?=\w)", r"\1<wbr>", escaped))
+
+
 def _environment() -> jinja2.Environment:
-    return jinja2.Environment(
+    env = jinja2.Environment(
         loader=jinja2.PackageLoader("selector.report", "templates"),
         autoescape=jinja2.select_autoescape(["html", "j2"], default=True),
         undefined=jinja2.StrictUndefined,
         trim_blocks=True,
         lstrip_blocks=True,
     )
+    env.filters["breakable"] = _breakable
+    return env
 
 
 def render_report(
@@ -507,8 +521,18 @@ def render_report(
             continue
         rows = _figure_rows(section, data)
         if any(r["cell"].si for r in rows):  # only sections with computed numbers
-            corners = any(r["corner"] for r in rows)
-            figures.append({"section": section.replace("_", " "), "rows": rows, "corners": corners})
+            shared = {r["corner"] for r in rows}
+            corner = shared.pop() if len(shared) == 1 and len(rows) > 1 else ""
+            if corner:  # one corner for the whole section: said once, above its table
+                rows = [{**r, "corner": ""} for r in rows]
+            figures.append(
+                {
+                    "section": section.replace("_", " "),
+                    "rows": rows,
+                    "corners": any(r["corner"] for r in rows),
+                    "corner": corner,
+                }
+            )
     scalars = [
         {"quantity": _quantity_name(k), "cell": _Cell.of(k, v, k)}
         for k, v in doc.items()

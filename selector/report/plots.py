@@ -104,8 +104,8 @@ def waveform_svg(
     title: str,
     unit: str,
     traces: Sequence[Trace],
-    width_in: float = 7.5,
-    height_in: float = 2.8,
+    width_in: float = 9.0,
+    height_in: float = 3.0,
     window_s: tuple[float, float] | None | str = "pulse",
 ) -> str:
     """Plot ``traces`` against time and return the figure as SVG text (no XML declaration).
@@ -155,7 +155,10 @@ def waveform_svg(
             ax.set_xlabel(f"time [{t_unit}]")
             ax.set_ylabel(f"[{prefix}{unit}]")
             ax.grid(True, linewidth=0.4, alpha=0.6)
-            ax.axhline(0.0, color="0.3", linewidth=0.6)
+            low = min(float(np.nanmin(y)) for _, _, y in arrays)
+            high = max(float(np.nanmax(y)) for _, _, y in arrays)
+            if low < 0.0 < high:  # a zero line where the curves cross zero; a bus voltage
+                ax.axhline(0.0, color="0.3", linewidth=0.6)  # keeps its ripple in view
             if legend:  # outside the axes, so it never hides a curve
                 fig.legend(loc="outside lower center", ncols=min(len(arrays), 2), fontsize=8,
                            frameon=False)  # fmt: skip
