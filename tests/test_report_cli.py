@@ -85,6 +85,11 @@ def test_check_report_equals_check_json(tmp_path):
     assert shown["tolerances.cap_tol"] == "10 %" and shown["tolerances.cap_loss"] == "10 %"
     assert shown["tolerances.r_tol"] == "5 %" and shown["tolerances.zener_tol"] == "5 %"
     assert shown["conditions.surge_v"] == "1 kV"
+    assert shown["nominal.reactive_power_var"].endswith(" var")
+    assert shown["nominal.apparent_power_va"].endswith(" VA")
+    # the switch-on figures share one corner: said once, above the table
+    inrush = html[html.index("<h3>inrush</h3>") : html.index("<h3>surge</h3>")]
+    assert inrush.count("Corner of every figure in this section: mains ") == 1
 
 
 def test_report_path_error_is_one_line(tmp_path):

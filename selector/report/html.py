@@ -168,10 +168,12 @@ class _Cell:
     @property
     def css(self) -> str:
         """``num`` (right-aligned, one line), ``text long`` (a word too long for a narrow
-        column, e.g. a stock code, may break anywhere) or ``text`` (wraps between words)."""
+        column, e.g. a stock code, may break anywhere) or ``text`` (wraps between words and
+        at the ``.`` and ``_`` joints of names, see :func:`_breakable`)."""
         if self.si:
             return "num"
-        return "text long" if any(len(w) > 16 for w in self.text.split()) else "text"
+        pieces = re.split(r"[\s._]+", self.text)  # a text cell may wrap at spaces, . and _
+        return "text long" if any(len(w) > 16 for w in pieces) else "text"
 
     @classmethod
     def of(cls, key: str, value: Any, path: str) -> _Cell:
