@@ -406,6 +406,9 @@ def test_long_rule_names_wrap_at_their_joints():
     assert "series_<wbr>r.<wbr>switch_<wbr>on_<wbr>voltage" in html
     assert "series_r.switch_on_voltage" in "".join(_parse(html).text)  # the text is unchanged
     assert ">470n X2 275V</td>" in html  # words without joints are left alone
+    assert ">x_capacitor</td>" in html  # nor a one-letter head
+    doc["findings"][0]["corner"] = "253 V 60 Hz R=17.2 Ω Vz=4.84 V"
+    assert "Vz=4.84 V" in render_report("audit", doc)  # nor numbers
 
 
 def test_failing_checks_are_counted_and_marked():

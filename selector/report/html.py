@@ -452,11 +452,12 @@ def _plots(waveforms: Mapping[str, Any] | None) -> list[dict[str, str]]:
 
 
 def _breakable(text: Any) -> markupsafe.Markup:
-    """Escaped text with a line-break opportunity (``<wbr>``) after each ``.`` and ``_`` inside
-    a word, so that ``series_r.surge_voltage`` wraps at its joints in a narrow column instead
-    of anywhere."""
+    """Escaped text with a line-break opportunity (``<wbr>``) after each ``.`` and ``_`` that
+    joins two parts of a name (``series_r.surge_voltage``), so the name wraps at its joints in
+    a narrow column instead of anywhere; not in numbers (``4.84``) and not after a one-letter
+    head (``x_capacitor``)."""
     escaped = str(markupsafe.escape(text))
-    return markupsafe.Markup(re.sub(r"(?<=\w)([._])(?=\w)", r"\1<wbr>", escaped))
+    return markupsafe.Markup(re.sub(r"(?<=\w\w)([._])(?=[A-Za-z])", r"\1<wbr>", escaped))
 
 
 def _environment() -> jinja2.Environment:
