@@ -168,12 +168,15 @@ class _Cell:
     @property
     def css(self) -> str:
         """``num`` (right-aligned, one line), ``text long`` (a word too long for a narrow
-        column, e.g. a stock code, may break anywhere) or ``text`` (wraps between words and
-        at the ``.`` and ``_`` joints of names, see :func:`_breakable`)."""
+        column, e.g. a stock code, may break anywhere), ``text prose`` (a sentence: on a
+        narrow page it may break anywhere too) or ``text`` (wraps between words and at the
+        ``.`` and ``_`` joints of names, see :func:`_breakable`)."""
         if self.si:
             return "num"
         pieces = re.split(r"[\s._]+", self.text)  # a text cell may wrap at spaces, . and _
-        return "text long" if any(len(w) > 16 for w in pieces) else "text"
+        if any(len(w) > 16 for w in pieces):
+            return "text long"
+        return "text prose" if len(self.text) > 30 else "text"
 
     @classmethod
     def of(cls, key: str, value: Any, path: str) -> _Cell:
