@@ -114,12 +114,9 @@ def check(
     from ..engine.distortion import mains_record
 
     supply = mains_from_options(mains, mains_tol, freq, harmonics)
-    result = analyse(
-        circuit,
-        supply,
-        tolerances_from_options(cap_tol, cap_loss, r_tol, zener_tol),
-        conditions_from_options(ambient, profile, surge),
-    )
+    tolerances = tolerances_from_options(cap_tol, cap_loss, r_tol, zener_tol)
+    conditions = conditions_from_options(ambient, profile, surge)
+    result = analyse(circuit, supply, tolerances, conditions)
     doc = {
         "topology": result.topology,
         "ambient_c": result.ambient_c,
@@ -137,7 +134,10 @@ def check(
     if report is not None:
         from ..report import write_report
 
-        write_report(report, "check", to_jsonable(doc), circuit)
+        write_report(
+            report, "check", to_jsonable(doc), circuit,
+            mains=supply, tolerances=tolerances, conditions=conditions,
+        )  # fmt: skip
     if json:
         print_json(doc)
     else:
