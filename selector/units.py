@@ -36,6 +36,7 @@ __all__ = [
     "PREFIXES",
     "TOLERANCE_LETTERS",
     "UNITS",
+    "format_percent",
     "format_value",
     "iec60062_code",
     "parse_tolerance",
@@ -261,6 +262,33 @@ def format_value(value: float, unit: str = "", digits: int = 3, ascii: bool = Fa
         text = f"{mantissa:.{digits}f}".rstrip("0").rstrip(".")
     unit_part = f"{prefix}{symbol}"
     return f"{text} {unit_part}".rstrip()
+
+
+def format_percent(fraction: float, digits: int = 3, signed: bool = False) -> str:
+    """Print a fraction as a percentage: ``0.1`` -> ``'10 %'`` (the inverse of
+    :func:`parse_tolerance` for a bare fraction).
+
+    ``digits`` significant digits are kept (trailing zeros dropped); ``signed=True`` prints a
+    ``+`` before positive values (for margins). A non-finite value is printed as it is.
+
+    >>> format_percent(0.1)
+    '10 %'
+    >>> format_percent(0.0125)
+    '1.25 %'
+    >>> format_percent(0.496, signed=True)
+    '+49.6 %'
+    """
+    if not math.isfinite(fraction):
+        return f"{fraction:g}"
+    pct = float(f"{fraction * 100.0:.{digits}g}")
+    text = f"{pct:.{digits}g}"
+    if "e" in text:  # e.g. 1000 % after rounding: plain text, not scientific
+        text = f"{pct:.0f}"
+    if text in ("0", "-0"):
+        text = "0"
+    if signed and pct > 0:
+        text = "+" + text
+    return f"{text} %"
 
 
 def iec60062_code(value: float, unit: str = "ohm", digits: int = 3) -> str:

@@ -1,7 +1,7 @@
 """Shared database fixtures.
 
-Every test session runs with DROPPER_DB and XDG_DATA_HOME pointing into a temporary folder, so
-no test ever creates or changes a catalogue in the user's own data folder.
+Every test session runs with DROPPER_DB, XDG_DATA_HOME and XDG_CACHE_HOME pointing into a
+temporary folder, so no test ever creates or changes a catalogue or a cache of the user's own.
 
 * ``catalogue_url``: a SQLite file holding the built-in catalogue, made once per session through
   the alembic migrations (``open_catalogue``). Treat it as read-only.
@@ -26,6 +26,7 @@ def _private_data_folder(tmp_path_factory: pytest.TempPathFactory) -> Iterator[P
     patch = pytest.MonkeyPatch()
     base = tmp_path_factory.mktemp("dropper-data")
     patch.setenv("XDG_DATA_HOME", str(base))
+    patch.setenv("XDG_CACHE_HOME", str(base / "cache"))
     patch.setenv("DROPPER_DB", str(base / "default-catalogue.sqlite"))
     yield base
     patch.undo()

@@ -5,6 +5,7 @@ Device models used in the netlists (SPICE level-1 diode, ngspice 39):
 
 * rectifier and Zener forward: ``D(IS=1e-12 N=1 RS=0.1 CJO=20p)`` - an exponential junction;
 * Zener: the same with ``BV=Vz IBV=10m`` (breakdown at Vz for 10 mA);
+* a distorted mains as SIN sources in series, one per tone (``Scenario.harmonics``);
 * ideal R and C; load as an ideal current source or resistor; 100 pF from every floating node to
   ground, 100 Mohm from the floating DC side to ground, zero-volt sources to sense currents
   (DOMAIN.md section 7).
@@ -64,6 +65,27 @@ class Scenario:
     load_r: float | None = None
     bleeder_ohm: float = 1e6
     extra: dict = field(default_factory=dict)
+    #: mains harmonics as (order, fraction of the fundamental, phase [deg]) in the sine reference
+    #: of the fundamental: u = Vpk (sin(w t) + sum a_h sin(h w t + phi_h))
+    harmonics: tuple[tuple[int, float, float], ...] = ()
+
+
+def _source_lines(sc: Scenario, phase: float) -> list[str]:
+    """The mains between ``line`` and ground: one SIN source, or the fundamental and one SIN
+    source per harmonic in series (SPICE SIN(VO VA FREQ TD THETA PHASE), phase in degrees).
+    ``phase`` shifts the fundamental; each harmonic is shifted by its order times as much, so
+    the wave keeps its shape."""
+    vpk = math.sqrt(2) * sc.mains_v
+    if not sc.harmonics:
+        return [f"VS line 0 SIN(0 {vpk} {sc.freq_hz} 0 0 {phase})"]
+    nodes = ["line", *[f"hs{k}" for k in range(len(sc.harmonics))], "0"]
+    lines = [f"VS {nodes[0]} {nodes[1]} SIN(0 {vpk} {sc.freq_hz} 0 0 {phase})"]
+    for k, (order, frac, ph) in enumerate(sc.harmonics):
+        lines.append(
+            f"VH{order} {nodes[k + 1]} {nodes[k + 2]} "
+            f"SIN(0 {vpk * frac} {order * sc.freq_hz} 0 0 {ph + order * phase})"
+        )
+    return lines
 
 
 def _load_lines(sc: Scenario, pos: str, neg: str) -> list[str]:
@@ -77,11 +99,10 @@ def _load_lines(sc: Scenario, pos: str, neg: str) -> list[str]:
 def netlist(sc: Scenario, out: str, tstop: float, tmax: float, switch_on: bool, v0: float) -> str:
     """The netlist text. ``switch_on``: source starts at its crest, all capacitors empty;
     otherwise the reservoir starts at ``v0`` and the X capacitor empty."""
-    vpk = math.sqrt(2) * sc.mains_v
     phase = 90 if switch_on else 0
     lines = [
         f"* dropper {sc.name}",
-        f"VS line 0 SIN(0 {vpk} {sc.freq_hz} 0 0 {phase})",
+        *_source_lines(sc, phase),
         f"R1 line n1 {sc.r_ohm}",
         f"C1 n1 n2 {sc.cap_f} IC=0",
         f"RB n1 n2 {sc.bleeder_ohm}",

@@ -220,3 +220,18 @@ def test_bad_role_in_the_bom_role_column(tmp_path):
     )
     line = _bad(invoke(str(p)))
     assert "row 2, column 'Role'" in line and "did you mean 'x_capacitor'" in line
+
+
+def test_harmonics_reach_the_audit(catalogue_url):
+    """--harmonics applies to the audited circuit: the harmonics raise the line current
+    (I_h = h w C V_h, DOMAIN.md section 10), so the series resistor's power stress grows."""
+
+    def stress(*extra: str) -> tuple[dict, float]:
+        r = invoke(str(DATA / "audit_vent_sound.csv"), "--json", "--db", catalogue_url, *extra)
+        doc = json.loads(r.stdout)
+        return doc, max(f["stress"] for f in doc["findings"] if f["rule"] == "series_r.power")
+
+    doc0, p0 = stress()
+    doc1, p1 = stress("--harmonics", "en50160")
+    assert doc0["mains"]["harmonics"] == [] and len(doc1["mains"]["harmonics"]) == 3
+    assert p1 > 1.1 * p0

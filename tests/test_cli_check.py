@@ -173,3 +173,72 @@ def test_help() -> None:
         "--db",
     ):
         assert opt in r.stdout
+
+
+def test_harmonics_profile_json_and_line() -> None:
+    r = invoke(*ISSUE_EXAMPLE[:-2], "--load", "5m", "--harmonics", "en50160", "--json")
+    doc = json.loads(r.stdout)
+    m = doc["mains"]
+    # EN 50160 individual limits of the 3rd, 5th and 7th [M]
+    assert [(h["order"], h["percent"], h["phase_deg"]) for h in m["harmonics"]] == [
+        (3, 5.0, 0.0),
+        (5, 6.0, 0.0),
+        (7, 5.0, 0.0),
+    ]
+    assert m["thd"] == pytest.approx(0.0927, abs=1e-4) and "[M]" in m["harmonics_source"]
+    assert m["max_peak_v"] == pytest.approx(253 * 2**0.5 * m["crest_factor"])
+    assert doc["worst_case"]["max_line_current_rms_corner"]["thd"] == pytest.approx(m["thd"])
+    text = invoke(*ISSUE_EXAMPLE[:-2], "--load", "5m", "--harmonics", "en50160").stdout
+    line = [ln for ln in text.splitlines() if ln.startswith("Mains: ")]
+    assert len(line) == 1
+    assert "3rd 5 % 5th 6 % 7th 5 %" in line[0] and "THD 9.27 %" in line[0]
+    assert "[M]" in line[0]
+
+
+def test_no_harmonics_mains_section_is_a_sine() -> None:
+    doc = json.loads(invoke("check", "--cap", "470n", "--json").stdout)
+    m = doc["mains"]
+    assert m["harmonics"] == [] and m["thd"] == 0.0 and m["crest_factor"] == 1.0
+    assert "thd" not in doc["worst_case"]["min_dc_current_corner"]
+    text = invoke("check", "--cap", "470n").stdout
+    assert "pure sine" in text
+
+
+def test_harmonics_custom_with_phase() -> None:
+    doc = json.loads(
+        invoke("check", "--cap", "470n", "--harmonics", "5:6@180, 2:1.5%", "--json").stdout
+    )
+    hs = doc["mains"]["harmonics"]
+    assert [(h["order"], h["fraction"], h["phase_deg"]) for h in hs] == [
+        (5, 0.06, 180.0),
+        (2, 0.015, 0.0),
+    ]
+
+
+@pytest.mark.parametrize(
+    "text, token",
+    [
+        ("5:6,7", "'7'"),
+        ("x:6", "'x:6'"),
+        ("5.5:6", "'5.5:6'"),
+        ("5:abc", "'5:abc'"),
+        ("1:5", "'1:5'"),
+        ("45:1", "'45:1'"),
+        ("5:40", "'5:40'"),
+        ("5:6,5:2", "'5:2'"),
+        ("5:6@x", "'5:6@x'"),
+        ("en50161", "'en50161'"),
+    ],
+)
+def test_bad_harmonics_exit_two(text: str, token: str) -> None:
+    r = runner.invoke(app, ["check", "--cap", "330n", "--harmonics", text])
+    assert r.exit_code == 2
+    assert r.stderr.startswith("Error: --harmonics") and token in r.stderr
+    # the valid forms are named
+    assert "order:percent" in r.stderr and "en50160" in r.stderr
+
+
+@pytest.mark.parametrize("command", ["check", "design", "audit"])
+def test_harmonics_option_on_every_circuit_command(command: str) -> None:
+    r = invoke(command, "--help")
+    assert "--harmonics" in r.stdout

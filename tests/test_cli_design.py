@@ -181,3 +181,17 @@ def test_standby_limit_blocks_a_12v_20ma_supply():
     assert result.exit_code == 1
     assert "blocked by rule whole.standby_power" in result.stderr
     assert "relax:" in result.stderr
+
+
+def test_harmonics_reach_the_exact_verification(catalogue_url):
+    """design --harmonics: every proposed set is verified by the engine on the distorted mains
+    (the corner of the largest line current is the distorted wave's: I_h = h w C V_h)."""
+    r = invoke(
+        "design", "--load", "10m", "--vout", "12", "--harmonics", "en50160", "--json",
+        "--db", catalogue_url,
+    )  # fmt: skip
+    assert r.exit_code == 0, r.output
+    doc = json.loads(r.stdout)
+    assert doc["mains"]["thd"] == pytest.approx(0.0927, abs=1e-4)
+    w = doc["designs"][0]["worst_case"]
+    assert w["max_line_current_rms_corner"]["thd"] == pytest.approx(doc["mains"]["thd"])

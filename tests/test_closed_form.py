@@ -119,3 +119,64 @@ def test_error_table() -> None:
 def test_out_of_range_raises(call) -> None:
     with pytest.raises(OutOfRangeError):
         call()
+
+
+# spectra for the distorted bounds: EN 50160 individual limits of the 3rd/5th/7th [M]; the same
+# with phases that raise the crest; a mixed one with an even order and higher orders
+SPECTRA = {
+    "en50160": ((3, 0.05, 0.0), (5, 0.06, 0.0), (7, 0.05, 0.0)),
+    "peaking": ((3, 0.05, 180.0), (5, 0.06, 0.0), (7, 0.05, 180.0)),
+    "mixed": ((2, 0.02, 0.0), (5, 0.06, 90.0), (11, 0.035, 0.0), (13, 0.03, 45.0)),
+}
+
+
+def test_distorted_bounds() -> None:
+    """On a distorted mains the closed-form bounds bracket the exact solution (documented in
+    the module docstring of closed_form; 1 % to spare on each): DC current within
+    [lo, hi] of dc_current_bounds, line rms between (1 - Vo'/Vpk) x and 1 x the phasor
+    root-sum-square."""
+    from selector.engine.circuit import Harmonic
+
+    for spectrum in SPECTRA.values():
+        hs = tuple(Harmonic(h, a, ph) for h, a, ph in spectrum)
+        for v, f, c, r, vz in GRID:
+            if 2 * math.pi * f * r * c > 0.4:
+                continue
+            for top in ("bridge", "half-wave"):
+                circ = Circuit(
+                    topology=top,
+                    x_capacitors_f=(c,),
+                    series_resistance_ohm=r,
+                    zener_voltage_v=vz,
+                    reservoir_f=470e-6,
+                )
+                st = solve_steady_state(circ, v, f, harmonics=hs)
+                lo, hi = cf.dc_current_bounds(top, v, c, f, vz, 0.8, r, hs)
+                assert float(lo) * 0.99 <= st.dc_current_a <= float(hi) * 1.01
+                il = float(cf.line_current_rms_distorted(v, c, f, r, hs))
+                vo = vz + 1.6 if top == "bridge" else vz
+                fac = 1 - vo / (math.sqrt(2) * v)
+                assert il * fac * 0.99 <= st.line_current_rms_a <= il * 1.01
+
+
+def test_distorted_docstring_examples() -> None:
+    from selector.engine.circuit import EN50160_HARMONICS as EN
+
+    assert cf.harmonic_crest_bounds(EN) == pytest.approx((0.84, 1.80))
+    lo, hi = cf.dc_current_bounds("bridge", 230, 330e-9, 50, 12, 0.8, 0.0, EN)
+    assert (float(lo), float(hi)) == pytest.approx((17.14e-3, 37.74e-3), rel=1e-3)
+    assert float(cf.line_current_rms_distorted(230, 330e-9, 50, 470, EN)) == pytest.approx(
+        26.28e-3, rel=1e-3
+    )
+    # no harmonics: the sine forms
+    assert cf.dc_current_bounds("half-wave", 230, 330e-9, 50, 12) == pytest.approx(
+        (cf.dc_current_half_wave(230, 330e-9, 50, 12),) * 2
+    )
+
+
+def test_harmonic_current_grows_with_order_textbook() -> None:
+    """R = 0: each harmonic's current is h w C V_h (capacitor phasor law, any textbook [S];
+    DOMAIN.md section 10): a 7th of 5 % alone adds 35 % of the fundamental current."""
+    i1 = float(cf.line_current_rms(230, 330e-9, 50))
+    i = float(cf.line_current_rms_distorted(230, 330e-9, 50, 0.0, ((7, 0.05),)))
+    assert i == pytest.approx(i1 * math.sqrt(1 + 0.35**2), rel=1e-12)

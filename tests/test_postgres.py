@@ -248,3 +248,21 @@ def test_cli_import_with_db_url(pg_url):
     second = runner.invoke(app, [*args, "--json"], catch_exceptions=False)
     doc = json.loads(second.stdout)
     assert (doc["inserted"], doc["updated"], doc["unchanged"]) == (0, 0, DEMO_ROWS)
+
+
+def test_catalogue_frame_reads_the_server_without_a_disk_cache(pg_catalogue, pg_url, tmp_path):
+    """On a server (no SQLite file) the frame comes from the database every time, equal to
+    parts_frame, and nothing is written to the user's cache folder."""
+    from pandas.testing import assert_frame_equal
+
+    from selector.catalogue.frame_cache import read_catalogue_frame
+    from selector.catalogue.paths import cache_dir
+
+    import_stock(pg_catalogue, DEMO_XLSX, supplier="demo-shelf")
+    before = sorted(cache_dir().rglob("*")) if cache_dir().exists() else []
+    for stock_only in (False, True):
+        got = read_catalogue_frame(pg_url, stock_only=stock_only)
+        assert not got.from_cache
+        assert_frame_equal(got.frame, parts_frame(pg_catalogue, stock_only=stock_only))
+    after = sorted(cache_dir().rglob("*")) if cache_dir().exists() else []
+    assert [p for p in after if p not in before and "frame" in p.name] == []

@@ -16,7 +16,14 @@ from typer.testing import CliRunner
 from selector.cautions import CAUTIONS
 from selector.cli import app
 from selector.units import format_value
-from tests.test_report import _lookup, _parse
+from tests.test_report import (
+    LAYOUT_WIDTHS,
+    _lookup,
+    _parse,
+    assert_layout_fits,
+    chromium_layout,
+    need_chromium,
+)
 
 DATA = Path(__file__).parent / "data"
 runner = CliRunner()
@@ -32,13 +39,17 @@ def invoke(*args: str):
     return runner.invoke(app, list(args), catch_exceptions=False)
 
 
+#: sections the report adds to a check document (the circuit, mains, tolerances, conditions)
+_ADDED = ("circuit.", "mains.", "tolerances.", "conditions.")
+
+
 def _compare(page, doc) -> int:
     """Every numeric cell whose key is in the JSON document equals it; returns how many."""
     focus = _lookup(doc, page.body_focus) if page.body_focus else doc
     n = 0
     for cell in page.cells:
-        if not cell["si"] or cell["key"].startswith("circuit."):
-            continue  # the circuit section is the report's addition to a check document
+        if not cell["si"] or cell["key"].startswith(_ADDED):
+            continue  # the report's additions to a check document: what was analysed
         try:
             want = _lookup(focus, cell["key"])
         except (KeyError, IndexError, TypeError):
@@ -68,6 +79,17 @@ def test_check_report_equals_check_json(tmp_path):
     assert f"mains {format_value(corner['mains_v'], 'V', 4)}, {corner['freq_hz']:g} Hz" in html
     assert "Line current over two mains cycles" in html
     assert "Switch-on current at the crest" in html
+    # what was analysed, tolerances as percentages (the defaults of the check options)
+    shown = {c["key"]: c["text"].strip() for c in page.cells}
+    assert shown["mains.tolerance"] == "10 %"
+    assert shown["tolerances.cap_tol"] == "10 %" and shown["tolerances.cap_loss"] == "10 %"
+    assert shown["tolerances.r_tol"] == "5 %" and shown["tolerances.zener_tol"] == "5 %"
+    assert shown["conditions.surge_v"] == "1 kV"
+    assert shown["nominal.reactive_power_var"].endswith(" var")
+    assert shown["nominal.apparent_power_va"].endswith(" VA")
+    # the switch-on figures share one corner: said once, above the table
+    inrush = html[html.index("<h3>inrush</h3>") : html.index("<h3>surge</h3>")]
+    assert inrush.count("Corner of every figure in this section: mains ") == 1
 
 
 def test_report_path_error_is_one_line(tmp_path):
@@ -155,3 +177,27 @@ def test_design_from_the_demo_stock_and_its_report(catalogue_copy_url, tmp_path)
     assert _compare(page, json.loads(json.dumps(doc, default=_plain))) >= 20
     for p in doc["designs"][0]["parts"]:
         assert p["code"] in html
+
+
+@pytest.mark.parametrize("kind", ["check", "design", "audit"])
+def test_command_reports_render_and_fit_in_chromium(catalogue_copy_url, tmp_path, kind):
+    """The reports the three commands write, rendered headless: every table and figure is
+    there and nothing overflows the page, at a 1280 px window and at A4 width."""
+    need_chromium()
+    out = tmp_path / f"{kind}.html"
+    args = {
+        "check": ["check", "--cap", "330n", "--series-r", "470", "--bleeder", "1M", "--zener",
+                  "12", "--reservoir", "220u", "--load", "10m", "--freq", "50,60"],
+        "design": ["design", "--load", "12m", "--vout", "5.1", "--freq", "50,60",
+                   "--db", catalogue_copy_url],
+        "audit": ["audit", str(DATA / "audit_vent_sound.csv"), "--freq", "50,60"],
+    }[kind]  # fmt: skip
+    result = invoke(*args, "--mains", "230", "--report", str(out))
+    assert result.exit_code == 0, result.output
+    html = out.read_text(encoding="utf-8")
+    assert html.count("<figure") == 4  # schematic, line current, output voltage, switch-on
+    if kind != "check":
+        assert 'id="parts-table"' in html
+    assert 'id="checks-table"' in html or kind == "check"
+    for width in LAYOUT_WIDTHS:
+        assert_layout_fits(chromium_layout(out, tmp_path, width), html, width)

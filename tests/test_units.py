@@ -13,7 +13,13 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from selector.errors import BadValueError
-from selector.units import format_value, iec60062_code, parse_tolerance, parse_value
+from selector.units import (
+    format_percent,
+    format_value,
+    iec60062_code,
+    parse_tolerance,
+    parse_value,
+)
 
 # text, quantity asked, expected SI value
 PARSE_CASES = [
@@ -166,3 +172,23 @@ def test_parse_of_format_round_trips(value, unit):
 def test_iec60062_code_round_trips(value, unit):
     code = iec60062_code(value, unit)
     assert math.isclose(parse_value(code, unit), float(f"{value:.3g}"), rel_tol=1e-9)
+
+
+@pytest.mark.parametrize(
+    ("letter", "text"),
+    [("B", "0.1 %"), ("C", "0.25 %"), ("D", "0.5 %"), ("F", "1 %"), ("G", "2 %"), ("J", "5 %"),
+     ("K", "10 %"), ("M", "20 %")],
+)  # fmt: skip
+def test_format_percent_prints_the_iec60062_tolerances(letter, text):
+    # IEC 60062 tolerance letters and their percentages [S] (DOMAIN.md table 5)
+    assert format_percent(parse_tolerance(letter)) == text
+    assert parse_tolerance(format_percent(parse_tolerance(letter))) == parse_tolerance(letter)
+
+
+def test_format_percent_signs_and_digits():
+    assert format_percent(0.496, signed=True) == "+49.6 %"
+    assert format_percent(-0.012, signed=True) == "-1.2 %"
+    assert format_percent(0.0, signed=True) == "0 %"
+    assert format_percent(12.345) == "1230 %"  # three significant digits, no exponent
+    assert format_percent(0.07999999999999989) == "8 %"  # binary noise rounded away
+    assert format_percent(float("nan")) == "nan"

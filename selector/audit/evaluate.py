@@ -61,6 +61,7 @@ def audit_bom(
     catalogue: Any = None,
     circuit_defaults: Mapping[str, Any] | None = None,
     analyse: Callable[..., Any] | None = None,
+    evaluate: Callable[..., Any] | None = None,
     progress: Callable[[int, int], None] | None = None,
 ) -> AuditResult:
     """Audit a BOM file: one :class:`BoardAudit` per board (a ``Board`` column splits them).
@@ -73,7 +74,10 @@ def audit_bom(
     ``circuit_defaults`` gives engine values the BOM does not carry (``diode_drop_v``, ...).
     A tolerance the BOM states replaces the one in ``tolerances`` unless its name
     (``cap_tol``, ``r_tol``, ``zener_tol``) is in ``pinned_tolerances`` (the user set it).
-    Identical boards are analysed once. Raises BadRowError / BadValueError for bad input.
+    Identical boards are analysed once. ``analyse`` and ``evaluate`` replace
+    :func:`selector.engine.analyse` and :func:`selector.rules.evaluate` (same signatures): a
+    caller that needs the circuit, its tolerances and rated parts (``dropper yield``) wraps them.
+    Raises BadRowError / BadValueError for bad input.
     """
     from ..engine import Circuit, Load
     from ..rules import evaluate as rules_evaluate
@@ -125,7 +129,7 @@ def audit_bom(
         cache={},
         analyse=analyse_fn,
         circuit_cls=Circuit,
-        rules_evaluate=rules_evaluate,
+        rules_evaluate=evaluate or rules_evaluate,
     )
     ratings_memo: dict[Any, Ratings] = {}
     results: list[BoardAudit] = []

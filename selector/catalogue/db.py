@@ -7,26 +7,30 @@
   (:func:`migrate`), driven in process with a configuration built here (no ini file needed).
 * :func:`open_catalogue` migrates to head and builds the built-in rows on first use, and rebuilds
   them (keeping imported rows, ``source != 'builtin'``) when the data files' checksum changed.
+  Its checks are cheap when nothing changed: the stored revision is compared with the head read
+  from the migration files' text and the checksum comes from a cache keyed by file stats
+  (:mod:`selector.catalogue.fingerprint`); alembic and the builder are imported only when the
+  schema or the data must change.
 """
 
 from __future__ import annotations
 
-import os
 import time
 from collections.abc import Callable
 from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any, Final
 
-from sqlalchemy import Engine, create_engine, delete, event, func, inspect, select
+from sqlalchemy import Engine, create_engine, delete, event, func, inspect, select, text
 from sqlalchemy.engine import make_url
 from sqlalchemy.exc import ArgumentError, IntegrityError, SQLAlchemyError
 from sqlalchemy.pool import StaticPool
 
 from ..errors import CatalogueError
 from ..resources import migrations_dir
-from .build import builtin_rows, data_checksum, load_price_model
+from .fingerprint import cached_data_checksum, quick_head_revision
 from .models import CatalogueMeta, Part
+from .paths import ENV_VAR, default_path, resolve_url
 
 __all__ = [
     "ENV_VAR",
@@ -45,34 +49,9 @@ __all__ = [
     "safe_url",
 ]
 
-ENV_VAR: Final[str] = "DROPPER_DB"
 Progress = Callable[[int, int], None]
 _CHUNK: Final[int] = 500
-
-
-def default_path() -> Path:
-    """The per-user catalogue file: ``$XDG_DATA_HOME/dropper/catalogue.sqlite`` (or under
-    ``~/.local/share`` when XDG_DATA_HOME is unset)."""
-    base = os.environ.get("XDG_DATA_HOME") or str(Path.home() / ".local" / "share")
-    return Path(base) / "dropper" / "catalogue.sqlite"
-
-
-def resolve_url(db: str | None = None) -> str:
-    """The SQLAlchemy URL of the catalogue.
-
-    Order: ``db`` (a ``--db`` option), the DROPPER_DB environment variable, the per-user file
-    (:func:`default_path`). A value without ``://`` is taken as a SQLite file path.
-
-    >>> resolve_url("sqlite:///x.sqlite")
-    'sqlite:///x.sqlite'
-    """
-    for candidate in (db, os.environ.get(ENV_VAR)):
-        if candidate is not None and candidate.strip():
-            text = candidate.strip()
-            if "://" in text:
-                return text
-            return f"sqlite:///{Path(text).expanduser().resolve()}"
-    return f"sqlite:///{default_path()}"
+_VERSION_TABLE: Final[str] = "alembic_version"
 
 
 def safe_url(url: str | Engine) -> str:
@@ -136,10 +115,20 @@ def head_revision() -> str:
 
 
 def current_revision(engine: Engine) -> str | None:
-    """The database's alembic revision (None for an empty database)."""
-    from alembic.runtime.migration import MigrationContext
+    """The database's alembic revision (None for an empty database).
 
+    Read from alembic's ``alembic_version`` table directly (importing alembic costs more than
+    the whole query); only a table with several rows (branches, which dropper does not make)
+    is handed to alembic, which refuses it.
+    """
     with engine.connect() as conn:
+        if not inspect(conn).has_table(_VERSION_TABLE):
+            return None
+        rows = conn.execute(text(f"SELECT version_num FROM {_VERSION_TABLE}")).scalars().all()
+        if len(rows) <= 1:
+            return rows[0] if rows else None
+        from alembic.runtime.migration import MigrationContext
+
         return MigrationContext.configure(conn).get_current_revision()
 
 
@@ -194,8 +183,10 @@ def read_meta(engine: Engine) -> dict[str, str]:
 
 
 def _ensure_schema(engine: Engine) -> None:
-    head = head_revision()
     current = current_revision(engine)
+    if current is not None and current == quick_head_revision():
+        return
+    head = head_revision()
     if current == head:
         return
     if current is not None:
@@ -217,6 +208,8 @@ def _ensure_schema(engine: Engine) -> None:
 
 
 def _rebuild(engine: Engine, checksum: str, progress: Progress | None) -> dict[str, Any]:
+    from .build import builtin_rows, load_price_model
+
     started = time.perf_counter()
     rows = builtin_rows()  # validates every data file before the database is touched
     total = len(rows)
@@ -281,7 +274,7 @@ def open_catalogue(url: str | Engine | None = None, progress: Progress | None = 
     engine = _engine_of(url)
     try:
         _ensure_schema(engine)
-        checksum = data_checksum()
+        checksum = cached_data_checksum()
         if read_meta(engine).get("data_checksum") != checksum:
             _rebuild(engine, checksum, progress)
     except SQLAlchemyError as exc:
@@ -298,6 +291,8 @@ def build_catalogue(url: str | Engine | None = None, progress: Progress | None =
     engine = _engine_of(url)
     try:
         _ensure_schema(engine)
+        from .build import data_checksum
+
         return _rebuild(engine, data_checksum(), progress)
     except SQLAlchemyError as exc:
         raise CatalogueError(f"cannot open catalogue {safe_url(engine)}: {_reason(exc)}") from None

@@ -17,8 +17,14 @@ from typing import Annotated
 import typer
 
 from ..engine import Circuit, Conditions, Load, Mains, Regulator, Tolerances
-from ..engine.circuit import DISCHARGE_PROFILES, TOPOLOGIES
-from ..errors import BadValueError
+from ..engine.circuit import (
+    DISCHARGE_PROFILES,
+    HARMONIC_PROFILES,
+    MAX_HARMONIC_ORDER,
+    TOPOLOGIES,
+    Harmonic,
+)
+from ..errors import BadValueError, OutOfRangeError
 from ..units import format_value, parse_tolerance, parse_value
 
 __all__ = [
@@ -35,6 +41,7 @@ __all__ = [
     "DiodeROpt",
     "DropoutOpt",
     "FreqOpt",
+    "HarmonicsOpt",
     "JsonOpt",
     "LoadOpt",
     "LoadROpt",
@@ -56,7 +63,9 @@ __all__ = [
     "describe_corner",
     "load_from_options",
     "mains_from_options",
+    "describe_mains",
     "parse_frequencies",
+    "parse_harmonics",
     "tolerances_from_options",
 ]
 
@@ -65,6 +74,15 @@ TopologyOpt = Annotated[str, typer.Option("--topology", help=f"{' or '.join(TOPO
 MainsOpt = Annotated[str, typer.Option("--mains", help="Nominal mains, V rms (230, 120).")]
 MainsTolOpt = Annotated[str, typer.Option("--mains-tol", help="Mains tolerance, % (10).")]
 FreqOpt = Annotated[str, typer.Option("--freq", help="Mains frequency or set, Hz: 50 or 50,60.")]
+HarmonicsOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--harmonics",
+        help="Mains harmonics applied at every corner: order:% of the fundamental[@phase deg], "
+        f"comma-separated (5:6,7:5,3:5 or 5:6@180), or a profile: {', '.join(HARMONIC_PROFILES)} "
+        "[M]; 'none' for a pure sine.",
+    ),
+]
 CapOpt = Annotated[
     list[str] | None,
     typer.Option("--cap", help="X capacitor (330n); repeat for parts in parallel."),
@@ -139,13 +157,102 @@ def parse_frequencies(text: str) -> tuple[float, ...]:
     return tuple(out)
 
 
-def mains_from_options(mains: str = "230", mains_tol: str = "10", freq: str = "50") -> Mains:
-    """Mains from the option texts."""
+_HARMONIC_FORMS = (
+    "write order:percent[@phase_deg] items separated by commas (5:6,7:5,3:5 or 5:6@180), "
+    f"orders 2..{MAX_HARMONIC_ORDER}, 0..30 % of the fundamental, "
+    f"or a profile name: {', '.join(HARMONIC_PROFILES)}; none for a pure sine"
+)
+
+
+def parse_harmonics(text: str | None) -> tuple[tuple[Harmonic, ...], str | None]:
+    """The one reader of ``--harmonics``: (harmonics, source text).
+
+    ``'5:6,7:5@180'`` -> 5th 6 % phase 0, 7th 5 % phase 180 deg (source ``'--harmonics'``);
+    ``'en50160'`` -> the named profile with its source (:data:`HARMONIC_PROFILES`, [M]);
+    ``None``, ``''`` or ``'none'`` -> no harmonics. A bad item raises BadValueError naming it and
+    the valid forms.
+    """
+    if text is None or text.strip().lower() in ("", "none", "no", "0", "sine"):
+        return (), None
+    key = text.strip().lower().replace(" ", "").replace("-", "").replace("_", "")
+    if key in HARMONIC_PROFILES:
+        hs, source = HARMONIC_PROFILES[key]
+        return hs, f"{key}: {source}"
+    out: list[Harmonic] = []
+    for raw in text.replace(";", ",").split(","):
+        token = raw.strip()
+        if not token:
+            continue
+
+        def bad(why: str, token: str = token) -> BadValueError:
+            return BadValueError(f"--harmonics: {why} in {token!r}; {_HARMONIC_FORMS}")
+
+        head, _, phase_text = token.partition("@")
+        order_text, sep, pct_text = head.partition(":")
+        if not sep or not order_text.strip() or not pct_text.strip():
+            raise bad("cannot read the item")
+        try:
+            order_f = float(order_text.strip())
+        except ValueError:
+            raise bad(f"order {order_text.strip()!r} is not a number") from None
+        if order_f != int(order_f):
+            raise bad(f"order {order_f:g} is not a whole number")
+        try:
+            pct = parse_value(pct_text.strip().rstrip("%").strip(), None)
+            phase = parse_value(phase_text.strip().rstrip("°").strip(), None) if phase_text else 0.0
+        except BadValueError:
+            raise bad("cannot read the percentage or the phase") from None
+        if any(h.order == int(order_f) for h in out):
+            raise bad(f"order {int(order_f)} is given twice")
+        try:
+            out.append(Harmonic(int(order_f), pct / 100.0, phase))
+        except OutOfRangeError as exc:
+            raise bad(str(exc)) from None
+    if not out:
+        raise BadValueError(f"--harmonics: nothing to read in {text!r}; {_HARMONIC_FORMS}")
+    return tuple(out), "--harmonics"
+
+
+def mains_from_options(
+    mains: str = "230", mains_tol: str = "10", freq: str = "50", harmonics: str | None = None
+) -> Mains:
+    """Mains from the option texts (``harmonics``: see :func:`parse_harmonics`)."""
+    hs, source = parse_harmonics(harmonics)
     return Mains(
         nominal_v=_num(mains, "V", "--mains"),
         tolerance=_pct(mains_tol, "--mains-tol"),
         frequencies_hz=parse_frequencies(freq),
+        harmonics=hs,
+        harmonics_source=source,
     )
+
+
+def describe_mains(record: dict) -> str:
+    """One line for the supply of a ``mains`` JSON record (:func:`engine.distortion.mains_record`):
+    'Mains: 230 V +/-10 % 50 Hz, harmonics 3rd 5 % 5th 6 % 7th 5 % (THD 9.27 %, crest 344.5 V at
+    the highest mains; en50160: ... [M])' or '..., pure sine'."""
+    freqs = "/".join(f"{f:g}" for f in record["frequencies_hz"])
+    head = f"Mains: {record['nominal_v']:g} V +/-{record['tolerance'] * 100:g} % {freqs} Hz"
+    if not record["harmonics"]:
+        return f"{head}, pure sine (crest {record['max_peak_v']:.1f} V at the highest mains)"
+    items = " ".join(
+        f"{_ordinal(h['order'])} {h['percent']:g} %"
+        + (f"@{h['phase_deg']:g}°" if h["phase_deg"] else "")
+        for h in record["harmonics"]
+    )
+    src = record.get("harmonics_source") or ""
+    return (
+        f"{head}, harmonics {items} of the fundamental at every corner "
+        f"(THD {record['thd_percent']:.2f} %, crest factor {record['crest_factor']:.3f}, "
+        f"crest {record['max_peak_v']:.1f} V at the highest mains"
+        + (f"; {src}" if src and src != "--harmonics" else "")
+        + ")"
+    )
+
+
+def _ordinal(n: int) -> str:
+    suffix = "th" if 10 <= n % 100 <= 20 else {1: "st", 2: "nd", 3: "rd"}.get(n % 10, "th")
+    return f"{n}{suffix}"
 
 
 def tolerances_from_options(
@@ -267,6 +374,8 @@ def describe_corner(corner: dict | None) -> str:
         parts.append("Rb=" + format_value(corner["bleeder_ohm"], "ohm"))
     if "vz_v" in corner:
         parts.append(f"Vz={corner['vz_v']:.3g} V")
+    if "thd" in corner:
+        parts.append(f"THD {corner['thd'] * 100:.3g} %" if corner["thd"] > 0 else "sine")
     if "load_a" in corner:
         parts.append("no load" if corner["load_a"] == 0 else "loaded")
     return " ".join(parts)

@@ -20,6 +20,7 @@ from ._circuit import (
     DbOpt,
     DropoutOpt,
     FreqOpt,
+    HarmonicsOpt,
     JsonOpt,
     LoadOpt,
     LoadROpt,
@@ -31,6 +32,7 @@ from ._circuit import (
     SurgeOpt,
     TopologyOpt,
     conditions_from_options,
+    describe_mains,
     load_from_options,
     mains_from_options,
     tolerances_from_options,
@@ -119,106 +121,111 @@ def human_report(doc: dict[str, Any]) -> list[str]:
     return lines
 
 
-@app.command()
-def audit(
-    bom: Annotated[Path, typer.Argument(help="BOM file: .csv, .tsv or .xlsx.", show_default=False)],
-    role: Annotated[
-        list[str] | None,
-        typer.Option(
-            "--role",
-            help="REF=ROLE (repeatable; BOARD:REF=ROLE for one board). Roles: x_capacitor, "
-            "series_resistor, bleeder, rectifier, zener, reservoir, fuse, other.",
-        ),
-    ] = None,
-    roles: Annotated[
-        Path | None,
-        typer.Option("--roles", help='TOML file: [roles] REF = "role"; [boards.NAME.roles].'),
-    ] = None,
-    sheet: Annotated[str | None, typer.Option(help="XLSX sheet holding the BOM.")] = None,
-    encoding: Annotated[
-        str | None, typer.Option(help="Text encoding when it is not UTF-8 (e.g. latin-1).")
-    ] = None,
-    column: Annotated[
-        list[str] | None,
-        typer.Option(
-            "--column",
-            help="FIELD=HEADER: pin a BOM field (ref, value, qty, description, package, mpn, "
-            "voltage, power, tolerance, board, role) to a column (repeatable).",
-        ),
-    ] = None,
-    topology: TopologyOpt = "auto",
-    mains: MainsOpt = "230",
-    mains_tol: MainsTolOpt = "10",
-    freq: FreqOpt = "50",
-    cap_tol: Annotated[
-        str | None,
-        typer.Option(
-            "--cap-tol", help="X capacitor tolerance, % or K/M [default: the BOM's, else 10]."
-        ),
-    ] = None,
-    cap_loss: CapLossOpt = "10",
-    r_tol: Annotated[
-        str | None,
-        typer.Option("--r-tol", help="Resistor tolerance, % [default: the BOM's, else 5]."),
-    ] = None,
-    zener_tol: Annotated[
-        str | None,
-        typer.Option(
-            "--zener-tol", help="Zener voltage tolerance, % [default: the BOM's, else 5]."
-        ),
-    ] = None,
-    zener_z: Annotated[
-        str | None,
-        typer.Option(
-            "--zener-z", help="Zener dynamic impedance, ohm [default: the Zener's family, else 0]."
-        ),
-    ] = None,
-    load: LoadOpt = "0",
-    load_r: LoadROpt = None,
-    burst: BurstOpt = None,
-    burst_time: BurstTimeOpt = None,
-    burst_period: BurstPeriodOpt = None,
-    regulator: RegulatorOpt = None,
-    dropout: DropoutOpt = "1",
-    quiescent: QuiescentOpt = "5m",
-    diode_drop: Annotated[
-        str | None,
-        typer.Option(
-            "--diode-drop",
-            help="Rectifier forward drop, V [default: the rectifier's family, else 0.8].",
-        ),
-    ] = None,
-    diode_r: Annotated[
-        str | None,
-        typer.Option(
-            "--diode-r",
-            help="Rectifier series resistance, ohm [default: the rectifier's family, else 0.1].",
-        ),
-    ] = None,
-    ambient: AmbientOpt = "40",
-    profile: ProfileOpt = "iec60335",
-    surge: SurgeOpt = "1k",
-    policy: Annotated[
-        Path | None, typer.Option(help="Derating policy TOML (flat key = number).")
-    ] = None,
-    db: DbOpt = None,
-    json: JsonOpt = False,
-    report: Annotated[
-        Path | None, typer.Option("--report", help="Also write an HTML report to this file.")
-    ] = None,
-) -> None:
-    """Find the under-rated parts of a finished BOM at every worst case (exit 1: a part fails).
+#: options of the BOM reader and the role assignment (shared with ``dropper yield --bom``)
+RoleOpt = Annotated[
+    list[str] | None,
+    typer.Option(
+        "--role",
+        help="REF=ROLE (repeatable; BOARD:REF=ROLE for one board). Roles: x_capacitor, "
+        "series_resistor, bleeder, rectifier, zener, reservoir, fuse, other.",
+    ),
+]
+RolesFileOpt = Annotated[
+    Path | None,
+    typer.Option("--roles", help='TOML file: [roles] REF = "role"; [boards.NAME.roles].'),
+]
+SheetOpt = Annotated[str | None, typer.Option("--sheet", help="XLSX sheet holding the BOM.")]
+EncodingOpt = Annotated[
+    str | None,
+    typer.Option("--encoding", help="Text encoding when it is not UTF-8 (e.g. latin-1)."),
+]
+ColumnOpt = Annotated[
+    list[str] | None,
+    typer.Option(
+        "--column",
+        help="FIELD=HEADER: pin a BOM field (ref, value, qty, description, package, mpn, "
+        "voltage, power, tolerance, board, role) to a column (repeatable).",
+    ),
+]
+PolicyOpt = Annotated[
+    Path | None, typer.Option("--policy", help="Derating policy TOML (flat key = number).")
+]
+BomCapTolOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--cap-tol", help="X capacitor tolerance, % or K/M [default: the BOM's, else 10]."
+    ),
+]
+BomRTolOpt = Annotated[
+    str | None,
+    typer.Option("--r-tol", help="Resistor tolerance, % [default: the BOM's, else 5]."),
+]
+BomZenerTolOpt = Annotated[
+    str | None,
+    typer.Option("--zener-tol", help="Zener voltage tolerance, % [default: the BOM's, else 5]."),
+]
+BomZenerZOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--zener-z", help="Zener dynamic impedance, ohm [default: the Zener's family, else 0]."
+    ),
+]
+BomDiodeDropOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--diode-drop",
+        help="Rectifier forward drop, V [default: the rectifier's family, else 0.8].",
+    ),
+]
+BomDiodeROpt = Annotated[
+    str | None,
+    typer.Option(
+        "--diode-r",
+        help="Rectifier series resistance, ohm [default: the rectifier's family, else 0.1].",
+    ),
+]
 
-    Circuit values come from the BOM (X capacitors in parallel, series resistors and the bleeder
-    string in series, Zeners in series, reservoirs in parallel); the options give the mains, the
-    load and the conditions. --topology auto takes it from the BOM (bridge or one diode).
+
+def audit_options(
+    *,
+    role: list[str] | None = None,
+    roles: Path | None = None,
+    sheet: str | None = None,
+    encoding: str | None = None,
+    column: list[str] | None = None,
+    topology: str = "auto",
+    mains: str = "230",
+    mains_tol: str = "10",
+    freq: str = "50",
+    harmonics: str | None = None,
+    cap_tol: str | None = None,
+    cap_loss: str = "10",
+    r_tol: str | None = None,
+    zener_tol: str | None = None,
+    zener_z: str | None = None,
+    load: str = "0",
+    load_r: str | None = None,
+    burst: str | None = None,
+    burst_time: str | None = None,
+    burst_period: str | None = None,
+    regulator: str | None = None,
+    dropout: str = "1",
+    quiescent: str = "5m",
+    diode_drop: str | None = None,
+    diode_r: str | None = None,
+    ambient: str = "40",
+    profile: str = "iec60335",
+    surge: str = "1k",
+    policy: Path | None = None,
+    db: str | None = None,
+) -> dict[str, Any]:
+    """The keyword options of :func:`selector.audit.evaluate.audit_bom` from the option texts.
+
+    A tolerance option left out (None) lets the BOM's stated tolerance win; one given is pinned.
     """
-    from ..audit.evaluate import audit_bom
     from ..audit.roles import parse_role_options
     from ..policy import load_policy
 
-    roles_given = parse_role_options(role or [])
-    columns = _columns(column)
     pinned = {
         name
         for name, text in (("cap_tol", cap_tol), ("r_tol", r_tol), ("zener_tol", zener_tol))
@@ -246,9 +253,8 @@ def audit(
             dropout_v=_value(dropout, "V", "--dropout"),
             quiescent_a=_value(quiescent, "A", "--quiescent"),
         )
-    result = audit_bom(
-        bom,
-        mains=mains_from_options(mains, mains_tol, freq),
+    return dict(
+        mains=mains_from_options(mains, mains_tol, freq, harmonics),
         conditions=conditions_from_options(ambient, profile, surge),
         tolerances=tolerances,
         pinned_tolerances=pinned,
@@ -258,8 +264,8 @@ def audit(
         policy=load_policy(policy),
         sheet=sheet,
         encoding=encoding,
-        columns=columns,
-        roles=roles_given,
+        columns=_columns(column),
+        roles=parse_role_options(role or []),
         roles_file=roles,
         catalogue=_catalogue(db),
         circuit_defaults={
@@ -272,16 +278,80 @@ def audit(
             if text is not None
         },
     )
+
+
+@app.command()
+def audit(
+    bom: Annotated[Path, typer.Argument(help="BOM file: .csv, .tsv or .xlsx.", show_default=False)],
+    role: RoleOpt = None,
+    roles: RolesFileOpt = None,
+    sheet: SheetOpt = None,
+    encoding: EncodingOpt = None,
+    column: ColumnOpt = None,
+    topology: TopologyOpt = "auto",
+    mains: MainsOpt = "230",
+    mains_tol: MainsTolOpt = "10",
+    freq: FreqOpt = "50",
+    harmonics: HarmonicsOpt = None,
+    cap_tol: BomCapTolOpt = None,
+    cap_loss: CapLossOpt = "10",
+    r_tol: BomRTolOpt = None,
+    zener_tol: BomZenerTolOpt = None,
+    zener_z: BomZenerZOpt = None,
+    load: LoadOpt = "0",
+    load_r: LoadROpt = None,
+    burst: BurstOpt = None,
+    burst_time: BurstTimeOpt = None,
+    burst_period: BurstPeriodOpt = None,
+    regulator: RegulatorOpt = None,
+    dropout: DropoutOpt = "1",
+    quiescent: QuiescentOpt = "5m",
+    diode_drop: BomDiodeDropOpt = None,
+    diode_r: BomDiodeROpt = None,
+    ambient: AmbientOpt = "40",
+    profile: ProfileOpt = "iec60335",
+    surge: SurgeOpt = "1k",
+    policy: PolicyOpt = None,
+    db: DbOpt = None,
+    json: JsonOpt = False,
+    report: Annotated[
+        Path | None, typer.Option("--report", help="Also write an HTML report to this file.")
+    ] = None,
+) -> None:
+    """Find the under-rated parts of a finished BOM at every worst case (exit 1: a part fails).
+
+    Circuit values come from the BOM (X capacitors in parallel, series resistors and the bleeder
+    string in series, Zeners in series, reservoirs in parallel); the options give the mains, the
+    load and the conditions. --topology auto takes it from the BOM (bridge or one diode).
+    """
+    from ..audit.evaluate import audit_bom
+
+    opts = audit_options(
+        role=role, roles=roles, sheet=sheet, encoding=encoding, column=column,
+        topology=topology, mains=mains, mains_tol=mains_tol, freq=freq, harmonics=harmonics,
+        cap_tol=cap_tol,
+        cap_loss=cap_loss, r_tol=r_tol, zener_tol=zener_tol, zener_z=zener_z, load=load,
+        load_r=load_r, burst=burst, burst_time=burst_time, burst_period=burst_period,
+        regulator=regulator, dropout=dropout, quiescent=quiescent, diode_drop=diode_drop,
+        diode_r=diode_r, ambient=ambient, profile=profile, surge=surge, policy=policy, db=db,
+    )  # fmt: skip
+    result = audit_bom(bom, **opts)
+    from ..engine.distortion import mains_record
+
+    supply = opts["mains"]
+    doc = result.to_dict()
+    doc["mains"] = mains_record(supply)
     if report is not None:
         from ..report import write_report
 
         board = result.boards[0] if result.boards else None
         write_report(
-            report, "audit", result.to_dict(), board.circuit if board else None,
-            mains=mains_from_options(mains, mains_tol, freq), tolerances=tolerances,
-            conditions=conditions_from_options(ambient, profile, surge),
+            report, "audit", doc, board.circuit if board else None,
+            mains=supply, tolerances=opts["tolerances"], conditions=opts["conditions"],
         )  # fmt: skip
-    _finish(result.to_dict(), json)
+    if not json and supply.harmonics:
+        typer.echo(describe_mains(doc["mains"]))
+    _finish(doc, json)
 
 
 def _value(text: str, quantity: str, what: str) -> float:
@@ -293,13 +363,9 @@ def _value(text: str, quantity: str, what: str) -> float:
 
 def _catalogue(db: str | None):
     """The catalogue as a DataFrame (the audit fills missing ratings from its families)."""
-    from ..catalogue import open_catalogue, parts_frame, resolve_url
+    from ..catalogue import catalogue_frame, resolve_url
 
-    engine = open_catalogue(resolve_url(db))
-    try:
-        return parts_frame(engine)
-    finally:
-        engine.dispose()
+    return catalogue_frame(resolve_url(db))
 
 
 def _columns(options: list[str] | None) -> dict[str, str]:

@@ -26,6 +26,7 @@ from ._circuit import (
     DiodeROpt,
     DropoutOpt,
     FreqOpt,
+    HarmonicsOpt,
     JsonOpt,
     LoadOpt,
     LoadROpt,
@@ -45,6 +46,7 @@ from ._circuit import (
     circuit_from_options,
     conditions_from_options,
     describe_corner,
+    describe_mains,
     load_from_options,
     mains_from_options,
     tolerances_from_options,
@@ -61,6 +63,7 @@ def check(
     mains: MainsOpt = "230",
     mains_tol: MainsTolOpt = "10",
     freq: FreqOpt = "50",
+    harmonics: HarmonicsOpt = None,
     cap_tol: CapTolOpt = "10",
     cap_loss: CapLossOpt = "10",
     series_r: SeriesROpt = "470",
@@ -108,17 +111,17 @@ def check(
         quiescent=quiescent,
     )
     from ..engine import analyse
+    from ..engine.distortion import mains_record
 
-    result = analyse(
-        circuit,
-        mains_from_options(mains, mains_tol, freq),
-        tolerances_from_options(cap_tol, cap_loss, r_tol, zener_tol),
-        conditions_from_options(ambient, profile, surge),
-    )
+    supply = mains_from_options(mains, mains_tol, freq, harmonics)
+    tolerances = tolerances_from_options(cap_tol, cap_loss, r_tol, zener_tol)
+    conditions = conditions_from_options(ambient, profile, surge)
+    result = analyse(circuit, supply, tolerances, conditions)
     doc = {
         "topology": result.topology,
         "ambient_c": result.ambient_c,
         "ok": result.ok,
+        "mains": mains_record(supply),
         "nominal": result.nominal,
         "worst_case": result.worst_case,
         "inrush": result.inrush,
@@ -131,11 +134,15 @@ def check(
     if report is not None:
         from ..report import write_report
 
-        write_report(report, "check", to_jsonable(doc), circuit)
+        write_report(
+            report, "check", to_jsonable(doc), circuit,
+            mains=supply, tolerances=tolerances, conditions=conditions,
+        )  # fmt: skip
     if json:
         print_json(doc)
     else:
         typer.echo(render_table(result))
+        typer.echo(describe_mains(doc["mains"]))
         echo_cautions()
     if not result.ok:
         raise typer.Exit(EXIT_FINDINGS)

@@ -20,6 +20,7 @@ from ._circuit import (
     DbOpt,
     DropoutOpt,
     FreqOpt,
+    HarmonicsOpt,
     JsonOpt,
     LoadOpt,
     MainsOpt,
@@ -30,6 +31,7 @@ from ._circuit import (
     SurgeOpt,
     ZenerOpt,
     conditions_from_options,
+    describe_mains,
     mains_from_options,
 )
 from .parts import _Bar
@@ -71,6 +73,7 @@ def design(
     mains: MainsOpt = "230",
     mains_tol: MainsTolOpt = "10",
     freq: FreqOpt = "50",
+    harmonics: HarmonicsOpt = None,
     cap_loss: CapLossOpt = "10",
     ambient: AmbientOpt = "40",
     profile: ProfileOpt = "iec60335",
@@ -123,7 +126,8 @@ def design(
     --burst-time and --burst-period.
     """
     from .. import design as D
-    from ..catalogue import open_catalogue, parts_frame, resolve_url
+    from ..catalogue import catalogue_frame, resolve_url
+    from ..engine.distortion import mains_record
     from ..policy import load_policy
 
     pol = load_policy(policy)
@@ -140,7 +144,7 @@ def design(
     req = D.Requirement(
         load_a=parse_value(load, "A"),
         vout_v=vout_v,
-        mains=mains_from_options(mains, mains_tol, freq),
+        mains=mains_from_options(mains, mains_tol, freq, harmonics),
         conditions=conditions_from_options(ambient, profile, surge),
         cap_loss=parse_value(cap_loss.rstrip("%").strip(), None) / 100.0,
         topology=top_name,
@@ -162,7 +166,7 @@ def design(
         limit_s = parse_value(time_limit, "s")
         if not limit_s > 0:
             raise BadValueError(f"--time-limit must be > 0 s, got {time_limit!r}")
-    frame = parts_frame(open_catalogue(resolve_url(db)), stock_only=stock_only)
+    frame = catalogue_frame(resolve_url(db), stock_only=stock_only)
     # a progress bar (stderr) for searches over large catalogues
     bar = None if json or len(frame) < 1000 else _Bar("searching part sets")
     try:
@@ -185,6 +189,7 @@ def design(
             "ambient_c": req.conditions.ambient_c,
             "profile": req.conditions.profile,
         },
+        "mains": mains_record(req.mains),
         "policy": pol.to_dict(),
         "designs": [D.design_to_dict(d) for d in designs],
         "bom": str(bom) if bom is not None else None,
@@ -199,6 +204,8 @@ def design(
     if json:
         print_json(doc)
         return
+    if req.mains.harmonics:
+        typer.echo(describe_mains(doc["mains"]))
     for d in designs:
         _echo_design(d, len(designs), req)
     if bom is not None:

@@ -10,6 +10,18 @@ monotonic in each corner variable as the exact solution is; the corner that is e
 quantity is then solved exactly (:mod:`.steady_state`). The stresses follow DOMAIN.md section 2:
 Zener power is worst at high line, +C, the higher frequency and ZERO load; the available current
 is least at low line, -C -loss, the lower frequency, +R and +Vz, with the actual load.
+
+A distorted mains (``Mains.harmonics``) applies at every corner: the harmonics scale with the
+corner's fundamental voltage. Each extreme corner is then solved twice, on the distorted wave and
+on the pure sine of the same fundamental, and the worse of the two is reported (its corner record
+carries ``thd``, 0 for the sine): harmonics raise the line current and the series-R power in
+proportion to their order, but a flat-topped wave lowers the crest and with it the DC current and
+the Zener power, and a grid that is distorted at some hours is clean at others, so the sine stays
+a corner. The crest that the rectifier's reverse voltage, the switch-on and the discharge start
+from is the higher of the two waves' crests (``Mains.crest_factor``, at least 1); the switch-on
+happens at that crest's instant. The closed forms that pick the extreme corners stay the sine
+ones: the harmonic content is the same at every corner, so the monotonic directions in V, f, C, R
+and Vz do not change. The nominal figures are those of the given (distorted) mains.
 """
 
 from __future__ import annotations
@@ -247,18 +259,25 @@ def analyse(
     k_max_pz = grid[int(np.argmax(pz_cf))]
     k_max_pr = grid[int(np.argmax(pr_cf))]
 
+    # supply states: the given mains; with harmonics also the pure sine of the same fundamental
+    # (a distorted grid is clean at other times, and a flat-topped wave lowers the crest, so the
+    # sine can be the worse of the two for the Zener, the crest and the discharge)
+    hs_given = tuple(mains.harmonics)
+    states: tuple[tuple, ...] = (hs_given, ()) if hs_given else ((),)
+    crest_factor = max(1.0, mains.crest_factor)
+    crest_hi = math.sqrt(2.0) * mains.high_v * crest_factor  # highest crest of the states [V]
     cache: dict[tuple, SteadyState] = {}
-    total = 6
+    total = 6 if not hs_given else 11
     done = [0]
 
     has_load = not circuit.load.is_zero or circuit.regulator is not None
 
-    def solve(k: Corner, loaded: bool) -> SteadyState:
-        key = (k, loaded or not has_load)  # without a load both are the same solve
+    def solve(k: Corner, loaded: bool, hs: tuple = hs_given) -> SteadyState:
+        key = (k, loaded or not has_load, hs)  # without a load both are the same solve
         if key not in cache:
             cc = corner_circuit(circuit, k)
             kw = {} if loaded else {"load_a": 0.0, "load_g": 0.0}
-            cache[key] = solve_steady_state(cc, k.mains_v, k.freq_hz, **kw)
+            cache[key] = solve_steady_state(cc, k.mains_v, k.freq_hz, harmonics=hs, **kw)
             done[0] += 1
             if progress is not None:
                 progress(min(done[0], total), total)
@@ -274,14 +293,25 @@ def analyse(
         circuit.zener_voltage_v,
     )
     nom = solve(k_nom, True)
-    s_min = solve(k_min, True)
-    s_pz = solve(k_max_pz, False)
-    s_imax = solve(k_max_i, True)
-    solve(k_max_pr, True)
+    s_min = min((solve(k_min, True, hs) for hs in states), key=lambda st: st.dc_current_a)
+    s_pz = max((solve(k_max_pz, False, hs) for hs in states), key=lambda st: st.zener_power_w)
+    # no-load real power: the harmonics add loss in R, so the distorted wave can be the worse
+    s_p0 = max((solve(k_max_pz, False, hs) for hs in states), key=lambda st: st.real_power_w)
+    s_imax = max((solve(k_max_i, True, hs) for hs in states), key=lambda st: st.dc_current_a)
+    for hs in states:
+        solve(k_max_pr, True, hs)
+    thd_of = {hs: math.sqrt(sum(h.fraction**2 for h in hs)) for hs in states}
 
-    rec = {id(s): k.record(circuit) for (k, ld), s in cache.items() if ld}
-    rec0 = {id(s): {**k.record(circuit), "load_a": 0.0} for (k, ld), s in cache.items() if not ld}
-    rec.update(rec0)
+    def record(k: Corner, hs: tuple, load0: bool) -> dict:
+        r = k.record(circuit)
+        if load0:
+            r["load_a"] = 0.0
+        if hs_given:  # which supply state: the THD of the wave (0: the pure sine)
+            r["thd"] = thd_of[hs]
+        return r
+
+    rec = {id(s): record(k, hs, not ld) for (k, ld, hs), s in cache.items()}
+    hs_min = next(hs for (k, ld, hs), st in cache.items() if st is s_min)
 
     def corner_of(s: SteadyState) -> dict:
         return rec[id(s)]
@@ -289,7 +319,7 @@ def analyse(
     # stresses of the operating circuit come from the loaded solves; the no-load solves give
     # the Zener, output-voltage and standby figures (the difference in line current between
     # loaded and unloaded is far below a per mille)
-    solved = [st for (_, ld), st in cache.items() if ld]
+    solved = [st for (_, ld, _), st in cache.items() if ld]
 
     demand_avg = circuit.load.average_demand_a(circuit.bus_voltage_v)
     if circuit.regulator is not None:
@@ -299,7 +329,7 @@ def analyse(
     # delivered current is read at the collapsed bus, so the available current is taken from the
     # same corner with the bus held at the clamp (no load) instead.
     in_reg = s_min.zener_current_a > 1e-9 or circuit.load.is_zero
-    min_i = s_min.dc_current_a if in_reg else solve(k_min, False).dc_current_a
+    min_i = s_min.dc_current_a if in_reg else solve(k_min, False, hs_min).dc_current_a
     margin = min_i - demand_avg
     load_met = bool(margin >= 0 and in_reg)
 
@@ -314,7 +344,9 @@ def analyse(
     reg_p, reg_h = None, None
     if circuit.regulator is not None:
         figs = [
-            _regulator_figures(corner_circuit(circuit, k), s) for (k, ld), s in cache.items() if ld
+            _regulator_figures(corner_circuit(circuit, k), s)
+            for (k, ld, _), s in cache.items()
+            if ld
         ]
         reg_p = max(p for p, _ in figs)
         reg_h = min(h for _, h in figs)
@@ -346,7 +378,7 @@ def analyse(
         max_rectifier_avg_current_a=max(s.rectifier_avg_current_a for s in solved),
         max_rectifier_peak_current_a=rect_s.rectifier_peak_current_a,
         # design basis [P]: a shorted X capacitor or an open clamp puts the full crest across it
-        max_rectifier_reverse_voltage_v=math.sqrt(2.0) * mains.high_v,
+        max_rectifier_reverse_voltage_v=crest_hi,
         rectifier_corner=corner_of(rect_s),
         max_line_current_rms_a=max(s.line_current_rms_a for s in solved),
         max_line_current_rms_corner=corner_of(max(solved, key=lambda s: s.line_current_rms_a)),
@@ -354,8 +386,8 @@ def analyse(
         max_reservoir_ripple_current_corner=corner_of(
             max(solved, key=lambda s: s.reservoir_ripple_current_a)
         ),
-        no_load_real_power_w=s_pz.real_power_w,
-        no_load_real_power_corner=corner_of(s_pz),
+        no_load_real_power_w=s_p0.real_power_w,
+        no_load_real_power_corner=corner_of(s_p0),
         load_demand_a=demand_avg,
         load_met=load_met,
         load_margin_a=margin,
@@ -390,7 +422,9 @@ def analyse(
     f_hi = max(mains.frequencies_hz)
     k_in = Corner(mains.high_v, f_hi, c_max, r_min, rb_min, circuit.zener_voltage_v, False)
     cin = corner_circuit(circuit, k_in)
-    ins = inrush(cin, mains.high_v, f_hi, k_in.record(circuit))
+    # switch-on at the higher crest of the supply states (the distorted one when it peaks)
+    hs_on = hs_given if mains.crest_factor > 1.0 else ()
+    ins = inrush(cin, mains.high_v, f_hi, record(k_in, hs_on, False), harmonics=hs_on)
     sur = (
         surge(cin, cond.surge_v, k_in.record(circuit)) if cond.surge_v > 0 else surge(cin, 0.0, {})
     )
@@ -398,11 +432,11 @@ def analyse(
     k_dis = Corner(mains.high_v, f_hi, c_max, r_min, rb_max, circuit.zener_voltage_v, False)
     dis = discharge(
         cond.profile,
-        math.sqrt(2.0) * mains.high_v,
+        crest_hi,
         c_max,
         rb_max,
         circuit.x_capacitance_f,
-        {**k_dis.record(circuit), "bleeder_ohm": rb_max},
+        {**record(k_dis, hs_on, False), "bleeder_ohm": rb_max},
     )
     k_su = k_min  # the weakest corner: where min_i was found
     su = startup(
@@ -410,7 +444,7 @@ def analyse(
         k_su.mains_v,
         k_su.freq_hz,
         min_i,  # the current available at the clamp; the loaded value equals the load when short
-        k_su.record(circuit),
+        record(k_su, hs_min, False),
     )
     if progress is not None:
         progress(total, total)

@@ -1,12 +1,15 @@
-"""Exact piecewise-linear integration of a two-state circuit driven by a sinusoid.
+"""Exact piecewise-linear integration of a two-state circuit driven by a sum of sinusoids.
 
 Between switching events the circuit is linear: ``x' = A x + b u(t) + c`` with
-``u(t) = Vpk sin(w t)`` and ``x = (v_c, v_o)``. Each such segment is solved in closed form:
+``u(t) = sum_k V_k sin(w_k t + phi_k)`` (the mains fundamental, plus its harmonics when the mains
+is distorted) and ``x = (v_c, v_o)``. Each such segment is solved in closed form:
 
     x(t0 + h) = E(h) (x0 - xs(t0)) + F(h) c + xs(t0 + h)
 
-where ``xs(t) = Im(Y exp(j w t))``, ``Y = (j w I - A)^-1 b Vpk`` is the sinusoidal particular
-solution, ``E(h) = exp(A h)`` and ``F(h) = integral_0^h exp(A s) ds``. Both matrix functions of
+where ``xs(t) = sum_k Im(Y_k exp(j (w_k t + phi_k)))``, ``Y_k = (j w_k I - A)^-1 b V_k``, is the
+particular solution: for a linear mode the response to a sum of sinusoids is the sum of the
+responses to each (superposition), so a multi-tone source keeps the solution exact.
+``E(h) = exp(A h)`` and ``F(h) = integral_0^h exp(A s) ds``. Both matrix functions of
 the 2 x 2 matrix ``A`` come from the Newton form of the Cayley-Hamilton interpolation
 ``f(A) = f(l2) I + f[l1, l2] (A - l2 I)`` (exact, also for repeated or zero eigenvalues). The
 eigenvalues of a passive RC network are real and <= 0.
@@ -20,14 +23,14 @@ stops at zero current, a Zener at zero current), the vector field is continuous 
 the sensitivity of the end state to the start state is the product of the segment matrices
 ``E(h)``: the shooting Newton iteration of :mod:`.steady_state` uses it as its Jacobian.
 
-Source for the method: the matrix exponential solution of linear ODEs with constant coefficients
+Source for the method: superposition and the phasor particular solution (any circuits
+textbook) [S]; the matrix exponential solution of linear ODEs with constant coefficients
 and the Newton divided-difference form of functions of a matrix (N. J. Higham, *Functions of
 Matrices*, SIAM 2008, ch. 1.2 and 10) [S].
 """
 
 from __future__ import annotations
 
-import cmath
 import math
 from collections.abc import Callable, Hashable
 from dataclasses import dataclass
@@ -78,11 +81,14 @@ class Mode:
         "key",
         "_m",
         "_cc",
+        "_tn",
         "basis",
         "gpy",
     )
 
-    def __init__(self, key, dvc, dvo, rows, guards, vpk: float, omega: float):
+    def __init__(self, key, dvc, dvo, rows, guards, tones):
+        """``tones``: the source as ``((amplitude [V], w [rad/s], phase [rad]), ...)``, the
+        fundamental first (see :func:`selector.engine.distortion.tones`)."""
         self.key = key
         a11, a12, b0, c0 = (float(v) for v in dvc)
         a21, a22, b1, c1 = (float(v) for v in dvo)
@@ -101,45 +107,76 @@ class Mode:
         self.l1, self.l2 = l1, l2
         m = (a11 - l2, a12, a21, a22 - l2)
         mc0, mc1 = m[0] * c0 + m[1] * c1, m[2] * c0 + m[3] * c1
-        self.omega = omega
-        jw = 1j * omega
-        m00, m01, m10, m11 = jw - a11, -a12, -a21, jw - a22
-        d = m00 * m11 - m01 * m10
-        b0, b1 = b0 * vpk, b1 * vpk
-        self.Y = (complex((m11 * b0 - m01 * b1) / d), complex((-m10 * b0 + m00 * b1) / d))
+        # particular solution of each tone: Y = (j w I - A)^-1 b amplitude (superposition)
+        tn = []
+        ys = []
+        for amp, omega, phase in tones:
+            jw = 1j * omega
+            m00, m01, m10, m11 = jw - a11, -a12, -a21, jw - a22
+            d = m00 * m11 - m01 * m10
+            bb0, bb1 = b0 * amp, b1 * amp
+            y0 = complex((m11 * bb0 - m01 * bb1) / d)
+            y1 = complex((-m10 * bb0 + m00 * bb1) / d)
+            ys.append((y0, y1))
+            tn.append((float(omega), float(phase), y0.real, y0.imag, y1.real, y1.imag, float(amp)))
+        self._tn = tuple(tn)
+        self.Y = ys[0]
+        self.omega = tn[0][0]
         self._m = m
         self._cc = (c0, c1, mc0, mc1)
         self.basis: np.ndarray | None = None
 
     def make_basis(self, hs: np.ndarray, trig: np.ndarray) -> np.ndarray:
-        """Rows ``[e2, d_e, g2, d_f, cos(w h), sin(w h), 1]`` on a fixed grid of steps ``hs``:
-        every state and guard value at ``t0 + hs`` is a 7-term combination of them. ``trig``
-        holds the last three rows (the same for every mode of a system)."""
-        basis = np.empty((7, hs.size))
+        """Rows ``[e2, d_e, g2, d_f, cos(w_1 h), sin(w_1 h), ..., cos(w_n h), sin(w_n h), 1]`` on a
+        fixed grid of steps ``hs``: every state and guard value at ``t0 + hs`` is a combination of
+        them. ``trig`` holds the rows after the fourth (the same for every mode of a system)."""
+        basis = np.empty((4 + trig.shape[0], hs.size))
         basis[0], basis[1], basis[2], basis[3] = _phi_dd(self.l1, self.l2, hs)
         basis[4:] = trig
         self.basis = basis
         return basis
 
-    def grid_coefficients(self, x0, t0: float, vpk: float) -> np.ndarray:
-        """(4, 7) matrix W with ``[vc, vo, u, 1](t0 + h) = W @ basis(h)``."""
-        w = self.omega
-        sn, cs = math.sin(w * t0), math.cos(w * t0)
-        y0, y1 = self.Y
-        z0 = x0[0] - (y0.real * sn + y0.imag * cs)
-        z1 = x0[1] - (y1.real * sn + y1.imag * cs)
-        M = self._m
+    def grid_coefficients(self, x0, t0: float) -> np.ndarray:
+        """(4, 5 + 2 n) matrix W with ``[vc, vo, u, 1](t0 + h) = W @ basis(h)`` (n tones)."""
         c = self._cc
+        M = self._m
+        tn = self._tn
+        if len(tn) == 1:  # one tone: the common case, written out
+            w, ph, y0r, y0i, y1r, y1i, amp = tn[0]
+            sn, cs = math.sin(w * t0 + ph), math.cos(w * t0 + ph)
+            z0 = x0[0] - (y0r * sn + y0i * cs)
+            z1 = x0[1] - (y1r * sn + y1i * cs)
+            return np.array(
+                [
+                    [z0, M[0] * z0 + M[1] * z1, c[0], c[2],
+                     y0r * sn + y0i * cs, y0r * cs - y0i * sn, 0.0],
+                    [z1, M[2] * z0 + M[3] * z1, c[1], c[3],
+                     y1r * sn + y1i * cs, y1r * cs - y1i * sn, 0.0],
+                    [0.0, 0.0, 0.0, 0.0, amp * sn, amp * cs, 0.0],
+                    [0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 1.0],
+                ]
+            )  # fmt: skip
+        z0, z1 = x0[0], x0[1]
+        r0: list[float] = []
+        r1: list[float] = []
+        r2: list[float] = []
+        for w, ph, y0r, y0i, y1r, y1i, amp in tn:
+            a = w * t0 + ph
+            sn, cs = math.sin(a), math.cos(a)
+            z0 -= y0r * sn + y0i * cs
+            z1 -= y1r * sn + y1i * cs
+            r0 += (y0r * sn + y0i * cs, y0r * cs - y0i * sn)
+            r1 += (y1r * sn + y1i * cs, y1r * cs - y1i * sn)
+            r2 += (amp * sn, amp * cs)
+        zeros = [0.0] * len(r0)
         return np.array(
             [
-                [z0, M[0] * z0 + M[1] * z1, c[0], c[2],
-                 y0.real * sn + y0.imag * cs, y0.real * cs - y0.imag * sn, 0.0],
-                [z1, M[2] * z0 + M[3] * z1, c[1], c[3],
-                 y1.real * sn + y1.imag * cs, y1.real * cs - y1.imag * sn, 0.0],
-                [0.0, 0.0, 0.0, 0.0, vpk * sn, vpk * cs, 0.0],
-                [0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 1.0],
+                [z0, M[0] * z0 + M[1] * z1, c[0], c[2], *r0, 0.0],
+                [z1, M[2] * z0 + M[3] * z1, c[1], c[3], *r1, 0.0],
+                [0.0, 0.0, 0.0, 0.0, *r2, 0.0],
+                [0.0, 0.0, 0.0, 0.0, *zeros, 1.0],
             ]
-        )  # fmt: skip
+        )
 
     def transition_scalar(self, h: float) -> tuple[float, float, float, float]:
         """E(h) as a flat (a, b, c, d) tuple of floats."""
@@ -171,12 +208,16 @@ class Mode:
 
     # --- exact solution -------------------------------------------------------------------
     def xs(self, t):
-        """Sinusoidal particular solution at time(s) t: (vc, vo)."""
-        if isinstance(t, np.ndarray):
-            ph = np.exp(1j * self.omega * t)
-            return (self.Y[0] * ph).imag, (self.Y[1] * ph).imag
-        ph = cmath.exp(1j * self.omega * t)
-        return (self.Y[0] * ph).imag, (self.Y[1] * ph).imag
+        """Particular solution (sum over the tones) at time(s) t: (vc, vo)."""
+        sin = np.sin if isinstance(t, np.ndarray) else math.sin
+        cos = np.cos if isinstance(t, np.ndarray) else math.cos
+        p0 = p1 = 0.0
+        for w, ph, y0r, y0i, y1r, y1i, _ in self._tn:
+            a = w * t + ph
+            s, c = sin(a), cos(a)
+            p0 = p0 + y0r * s + y0i * c
+            p1 = p1 + y1r * s + y1i * c
+        return p0, p1
 
     def advance(self, x0: np.ndarray, t0: float, h):
         """State at t0 + h (h scalar or array); returns (vc, vo)."""
@@ -194,12 +235,28 @@ class Mode:
 
     def advance_scalar(self, x0, t0: float, h: float) -> tuple[float, float]:
         """:meth:`advance` for one scalar ``h`` with plain floats (the event-location hot path)."""
-        w = self.omega
-        y0, y1 = self.Y
-        c0, s0 = math.cos(w * t0), math.sin(w * t0)
-        c1, s1 = math.cos(w * (t0 + h)), math.sin(w * (t0 + h))
-        z0 = x0[0] - (y0.real * s0 + y0.imag * c0)
-        z1 = x0[1] - (y1.real * s0 + y1.imag * c0)
+        tn = self._tn
+        if len(tn) == 1:  # a pure sine (phase 0): the common case, unrolled
+            w, _, y0r, y0i, y1r, y1i, _ = tn[0]
+            c0, s0 = math.cos(w * t0), math.sin(w * t0)
+            c1, s1 = math.cos(w * (t0 + h)), math.sin(w * (t0 + h))
+            z0 = x0[0] - (y0r * s0 + y0i * c0)
+            z1 = x0[1] - (y1r * s0 + y1i * c0)
+            p0 = y0r * s1 + y0i * c1
+            p1 = y1r * s1 + y1i * c1
+        else:
+            z0, z1 = x0[0], x0[1]
+            p0 = p1 = 0.0
+            t1 = t0 + h
+            for w, ph, y0r, y0i, y1r, y1i, _ in tn:
+                a0 = w * t0 + ph
+                a1 = w * t1 + ph
+                s0, c0 = math.sin(a0), math.cos(a0)
+                s1, c1 = math.sin(a1), math.cos(a1)
+                z0 -= y0r * s0 + y0i * c0
+                z1 -= y1r * s0 + y1i * c0
+                p0 += y0r * s1 + y0i * c1
+                p1 += y1r * s1 + y1i * c1
         l1, l2 = self.l1, self.l2
         e2 = math.exp(l2 * h)
         g2 = math.expm1(l2 * h) / l2 if l2 != 0.0 else h
@@ -216,8 +273,8 @@ class Mode:
         mz1 = M[2] * z0 + M[3] * z1
         c = self._cc
         return (
-            e2 * z0 + d_e * mz0 + g2 * c[0] + d_f * c[2] + y0.real * s1 + y0.imag * c1,
-            e2 * z1 + d_e * mz1 + g2 * c[1] + d_f * c[3] + y1.real * s1 + y1.imag * c1,
+            e2 * z0 + d_e * mz0 + g2 * c[0] + d_f * c[2] + p0,
+            e2 * z1 + d_e * mz1 + g2 * c[1] + d_f * c[3] + p1,
         )
 
     def transition(self, h: float) -> np.ndarray:
@@ -246,9 +303,14 @@ class Trace:
 
 
 class PwlSystem:
-    """A switched two-state circuit: ``build(key) -> Mode`` plus the sinusoidal source.
+    """A switched two-state circuit: ``build(key) -> Mode`` plus the source.
 
     ``names`` are the output row names every mode provides first (same order in every mode).
+    The source is ``tones`` (amplitude [V], w [rad/s], phase [rad]), the fundamental at
+    ``freq_hz`` first; by default the single sine ``vpk sin(w t)``. The event grid has 96 points
+    per period, or 16 per period of the highest harmonic when that is finer (a guard cannot turn
+    negative and back between two grid points unless it touches zero within a sixteenth of the
+    fastest tone's period).
     """
 
     max_switches_at_once = 8
@@ -260,6 +322,7 @@ class PwlSystem:
         vpk: float,
         freq_hz: float,
         volt_scale: float,
+        tones: tuple[tuple[float, float, float], ...] | None = None,
     ):
         self._build = build
         self._cache: dict[Hashable, Mode] = {}
@@ -267,12 +330,20 @@ class PwlSystem:
         self.vpk = vpk
         self.omega = 2 * math.pi * freq_hz
         self.period = 1.0 / freq_hz
+        self.tones = tones if tones is not None else ((vpk, self.omega, 0.0),)
+        self._sine = self.tones == ((vpk, self.omega, 0.0),)
         self.tol = 1e-9 * volt_scale
-        self.grid_dt = self.period / 96.0
-        self._grid_n = 96
+        top = max(round(w / self.omega) for _, w, _ in self.tones)
+        self._grid_n = max(96, 16 * top)
+        #: default quadrature spacing: 100 samples per period, at least 16 per fastest tone
+        self.quad_dt = self.period / max(100, 16 * top)
+        self.grid_dt = self.period / self._grid_n
         self._grid = self.grid_dt * np.arange(1, self._grid_n + 1)
-        wh = self.omega * self._grid
-        self._trig = np.vstack([np.cos(wh), np.sin(wh), np.ones_like(wh)])
+        trig = []
+        for _, w, _ in self.tones:
+            wh = w * self._grid
+            trig += [np.cos(wh), np.sin(wh)]
+        self._trig = np.vstack([*trig, np.ones_like(self._grid)])
 
     def mode(self, key) -> Mode:
         m = self._cache.get(key)
@@ -282,7 +353,13 @@ class PwlSystem:
         return m
 
     def u(self, t: float) -> float:
-        return self.vpk * math.sin(self.omega * t)
+        """Source voltage [V] at time t (sum of the tones)."""
+        if self._sine:  # the common case, on the event-location hot path
+            return self.vpk * math.sin(self.omega * t)
+        v = 0.0
+        for amp, w, ph in self.tones:
+            v += amp * math.sin(w * t + ph)
+        return v
 
     # --- mode validity at a point ----------------------------------------------------------
     def settle(self, key, x, t: float):
@@ -341,7 +418,7 @@ class PwlSystem:
         segs = []
         switches = 0
         stuck = 0
-        qdt = quad_dt or self.period / 100.0
+        qdt = quad_dt or self.quad_dt
         dt = self.grid_dt
         K = self._grid_n
         while t1 - t > 1e-15 * self.period:
@@ -358,7 +435,7 @@ class PwlSystem:
                     if mode.basis is not None
                     else mode.make_basis(self._grid, self._trig)
                 )
-                coef = gr @ mode.grid_coefficients(x, t, self.vpk)
+                coef = gr @ mode.grid_coefficients(x, t)
                 G = coef @ basis[:, :n] if n > 0 else np.zeros((len(gr), 0))
                 neg = G < -self.tol
                 anyneg = neg.any(axis=0)
@@ -497,7 +574,7 @@ class PwlSystem:
             t_parts.append(t)
             l1s.append(mode.l1)
             l2s.append(mode.l2)
-            rws.append(mode.rows[:nout] @ mode.grid_coefficients(x, t, self.vpk))
+            rws.append(mode.rows[:nout] @ mode.grid_coefficients(x, t))
             counts.append(n_seg)
         if not counts:
             return np.zeros(0), np.zeros(0), np.zeros((nout, 0))
@@ -508,12 +585,13 @@ class PwlSystem:
         l1 = np.asarray(l1s)[idx]
         l2 = np.asarray(l2s)[idx]
         t = np.asarray(t_parts)[idx] + h
-        basis = np.empty((7, h.size))
+        basis = np.empty((5 + 2 * len(self.tones), h.size))
         basis[0], basis[1], basis[2], basis[3] = _phi_dd_arrays(l1, l2, h)
-        wh = self.omega * h
-        np.cos(wh, out=basis[4])
-        np.sin(wh, out=basis[5])
-        basis[6] = 1.0
+        for k, (_, w_k, _) in enumerate(self.tones):
+            wh = w_k * h
+            np.cos(wh, out=basis[4 + 2 * k])
+            np.sin(wh, out=basis[5 + 2 * k])
+        basis[-1] = 1.0
         rw = np.asarray(rws)[idx]  # (N, nout, 7)
         out = np.einsum("snk,ks->ns", rw, basis)
         return t, w, out

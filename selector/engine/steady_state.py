@@ -9,11 +9,14 @@ collapses) instead of running away.
 
 The state at the positive-going zero crossing of the mains, ``x0 = (v_c, v_o)``, is found by
 Newton's method on the cycle map (shooting): ``x0 = P(x0)``. The bridge is symmetric under
-``u -> -u, v_c -> -v_c``, so half a cycle and the mirror ``S = diag(-1, 1)`` suffice; the
-half-wave circuit uses the full cycle. The Jacobian of ``P`` is the product of the exact segment
-transition matrices (see :mod:`.pwl`). Convergence is typically 2-5 iterations; slow modes (a
-resistive load with a big reservoir below regulation, time constant of seconds) cost nothing
-extra, unlike simulating the start-up.
+``u -> -u, v_c -> -v_c``, so half a cycle and the mirror ``S = diag(-1, 1)`` suffice as long as
+the source has half-wave symmetry ``u(t + T/2) = -u(t)`` (a sine and any odd harmonics); with an
+even harmonic, and always for the half-wave circuit, the full cycle is shot. A distorted mains
+(:class:`~selector.engine.circuit.Harmonic`) enters as a multi-tone source (:mod:`.distortion`),
+solved exactly by superposition in every linear segment (:mod:`.pwl`). The Jacobian of ``P``
+is the product of the exact segment transition matrices (see :mod:`.pwl`). Convergence is
+typically 2-5 iterations; slow modes (a resistive load with a big reservoir below regulation,
+time constant of seconds) cost nothing extra, unlike simulating the start-up.
 """
 
 from __future__ import annotations
@@ -24,7 +27,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import OutOfRangeError
-from .circuit import Circuit
+from .circuit import Circuit, Harmonic
+from .distortion import has_even, thd, tones
 from .pwl import Mode, PwlSystem, Trace
 
 __all__ = ["LOAD_KNEE_V", "SteadyState", "build_system", "solve_steady_state"]
@@ -62,12 +66,22 @@ class _Params:
     cr: float
     i_load: float
     g_load: float
+    tones: tuple
 
 
-def _params(circuit: Circuit, mains_v: float, freq_hz: float, load_a: float, load_g: float):
+def _params(
+    circuit: Circuit,
+    mains_v: float,
+    freq_hz: float,
+    load_a: float,
+    load_g: float,
+    harmonics: tuple[Harmonic, ...] = (),
+):
+    vpk = math.sqrt(2.0) * mains_v
     return _Params(
         topology=circuit.topology,
-        vpk=math.sqrt(2.0) * mains_v,
+        vpk=vpk,
+        tones=tones(vpk, 2 * math.pi * freq_hz, harmonics),
         freq=freq_hz,
         r=circuit.series_resistance_ohm,
         c=circuit.x_capacitance_f,
@@ -166,7 +180,6 @@ def _zener_guards(p: _Params, z: int, v: _F, key, idx: int):
 
 def _bridge_builder(p: _Params):
     rt = p.r + 2 * p.rs
-    omega = 2 * math.pi * p.freq
 
     def build(key) -> Mode:
         s, z, ls = key
@@ -196,7 +209,7 @@ def _bridge_builder(p: _Params):
         keys += k
         n = len(rows)
         rows += guards
-        return Mode(key, dvc, dvo, rows, [(n + j, kk) for j, kk in enumerate(keys)], p.vpk, omega)
+        return Mode(key, dvc, dvo, rows, [(n + j, kk) for j, kk in enumerate(keys)], p.tones)
 
     return build
 
@@ -204,7 +217,6 @@ def _bridge_builder(p: _Params):
 def _halfwave_builder(p: _Params):
     gr = 1.0 / p.r
     gd_on = 1.0 / p.rs
-    omega = 2 * math.pi * p.freq
 
     def build(key) -> Mode:
         z, d, ls = key
@@ -241,7 +253,7 @@ def _halfwave_builder(p: _Params):
         keys += k
         n = len(rows)
         rows += guards
-        return Mode(key, dvc, dvo, rows, [(n + j, kk) for j, kk in enumerate(keys)], p.vpk, omega)
+        return Mode(key, dvc, dvo, rows, [(n + j, kk) for j, kk in enumerate(keys)], p.tones)
 
     return build
 
@@ -252,8 +264,10 @@ def build_system(
     freq_hz: float,
     load_a: float | None = None,
     load_g: float | None = None,
+    harmonics: tuple[Harmonic, ...] = (),
 ) -> PwlSystem:
-    """The switched system of ``circuit`` on ``mains_v`` rms at ``freq_hz``.
+    """The switched system of ``circuit`` on ``mains_v`` rms (the fundamental's) at ``freq_hz``,
+    with the ``harmonics`` of a distorted mains superposed.
 
     The bus load is ``load_a`` [A] plus ``load_g`` [S] x bus voltage; by default the circuit's own
     base load (regulator: its input current, constant).
@@ -262,9 +276,9 @@ def build_system(
         la, lg = bus_load(circuit)
         load_a = la if load_a is None else load_a
         load_g = lg if load_g is None else load_g
-    p = _params(circuit, mains_v, freq_hz, load_a, load_g)
+    p = _params(circuit, mains_v, freq_hz, load_a, load_g, tuple(harmonics))
     build = _bridge_builder(p) if p.topology == "bridge" else _halfwave_builder(p)
-    return PwlSystem(build, _NAMES, p.vpk, freq_hz, volt_scale=p.vpk)
+    return PwlSystem(build, _NAMES, p.vpk, freq_hz, volt_scale=p.vpk, tones=p.tones)
 
 
 def bus_load(circuit: Circuit) -> tuple[float, float]:
@@ -343,16 +357,20 @@ def solve_steady_state(
     tol: float = 1e-8,
     accept: float = 3e-4,
     max_iter: int = 40,
+    harmonics: tuple[Harmonic, ...] = (),
 ) -> SteadyState:
-    """Periodic steady state of ``circuit`` at one mains voltage [V rms] and frequency [Hz].
+    """Periodic steady state of ``circuit`` at one mains voltage [V rms of the fundamental] and
+    frequency [Hz], with the ``harmonics`` of a distorted mains (relative to the fundamental).
 
     Shooting: Newton on ``x0 - P(x0) = 0`` with the exact Jacobian; converged when the cycle map
     moves the state by less than ``tol`` x crest voltage, or when Newton's predicted correction
     ``(J - I)^-1 (P(x0) - x0)`` is below ``accept`` relative to the crest (capacitor) and the
     bus voltage (reservoir) - the sampled run then is within that distance of the orbit.
     """
-    system = build_system(circuit, mains_v, freq_hz, load_a, load_g)
-    bridge = circuit.topology == "bridge"
+    harmonics = tuple(harmonics)
+    system = build_system(circuit, mains_v, freq_hz, load_a, load_g, harmonics)
+    # half-cycle symmetry of the bridge needs u(t + T/2) = -u(t): no even harmonic
+    bridge = circuit.topology == "bridge" and not has_even(harmonics)
     span = system.period / 2 if bridge else system.period
     x, key = _initial_guess(circuit, system.vpk, system.omega)
     if x_guess is not None:
@@ -409,10 +427,13 @@ def solve_steady_state(
         # plots want the full cycle
         full = system.period if keep_trace else span
         _, _, _, trace = system.run(key, x, 0.0, full, collect=True)
-    return _summarise(trace, circuit, mains_v, freq_hz, it, x, keep_trace)
+    v_rms = mains_v * math.sqrt(1.0 + thd(harmonics) ** 2)
+    return _summarise(trace, circuit, mains_v, freq_hz, it, x, keep_trace, v_rms)
 
 
-def _summarise(trace: Trace, circuit: Circuit, mains_v, freq_hz, it, x, keep) -> SteadyState:
+def _summarise(
+    trace: Trace, circuit: Circuit, mains_v, freq_hz, it, x, keep, v_rms: float
+) -> SteadyState:
     o = trace.out
     mean = trace.mean
     i = o["i_line"]
@@ -420,7 +441,7 @@ def _summarise(trace: Trace, circuit: Circuit, mains_v, freq_hz, it, x, keep) ->
     vc = o["v_c"]
     vc_rms = math.sqrt(max(mean(vc * vc), 0.0))
     p_real = mean(o["u"] * i)
-    s_app = mains_v * i_rms
+    s_app = v_rms * i_rms  # total rms of the (distorted) mains x rms line current
     q = math.sqrt(max(s_app * s_app - p_real * p_real, 0.0))
     vo = o["v_o"]
     rb = circuit.bleeder_resistance_ohm

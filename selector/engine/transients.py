@@ -13,7 +13,8 @@ import numpy as np
 
 from ..errors import OutOfRangeError
 from . import closed_form as cf
-from .circuit import Circuit
+from .circuit import Circuit, Harmonic
+from .distortion import waveform_peak
 from .steady_state import build_system
 
 __all__ = [
@@ -109,21 +110,32 @@ class Startup:
 
 
 def inrush(
-    circuit: Circuit, mains_v: float, freq_hz: float, corner: dict, window_tau: float = 8.0
+    circuit: Circuit,
+    mains_v: float,
+    freq_hz: float,
+    corner: dict,
+    window_tau: float = 8.0,
+    harmonics: tuple[Harmonic, ...] = (),
 ) -> Inrush:
     """Switch-on at the crest (``u = +Vpk`` at t0), all capacitors empty; exact PWL simulation.
+
+    With ``harmonics`` (a distorted mains) the switch-on is at the instant of the distorted
+    wave's largest ``|u|`` (:func:`~selector.engine.distortion.waveform_peak`), and the source
+    keeps all its tones during the pulse.
 
     The pulse is integrated over ``window_tau`` time constants ``tau = (R + r_d) C C_r/(C + C_r)``
     (capped at a quarter cycle): energy in R, I^2 t, peak current, X capacitor dV/dt (= i / C).
     Check: for R C << 1/f the energy tends to ``0.5 C Vpk^2`` and ``I^2 t`` to ``Vpk^2 C / (2 R)``
     (RC charging from a step, textbook [S]) - see tests/test_engine_transients.py.
     """
-    system = build_system(circuit, mains_v, freq_hz, load_a=0.0, load_g=0.0)
+    system = build_system(circuit, mains_v, freq_hz, load_a=0.0, load_g=0.0, harmonics=harmonics)
     c = circuit.x_capacitance_f
     cr = circuit.reservoir_f
     r_d = circuit.diode_resistance_ohm * (2 if circuit.topology == "bridge" else 1)
     tau = (circuit.series_resistance_ohm + r_d) * c * cr / (c + cr)
     t0 = system.period / 4.0
+    if harmonics:
+        t0 = waveform_peak(harmonics)[1] / system.omega
     window = min(window_tau * tau, system.period / 4.0)
     key = (0, 0, 0)
     _, _, _, tr = system.run(

@@ -9,7 +9,8 @@
 
 Corners come from the command's JSON document (``worst_case.<name>_corner`` and
 ``inrush.corner``: dicts with ``mains_v``, ``freq_hz``, ``cap_f``, ``r_ohm``, ``vz_v``,
-``load_a``), so the plots show exactly the corners the tables name.
+``load_a``; on a distorted mains also ``thd``, with the harmonics in the document's ``mains``
+section), so the plots show exactly the corners the tables name, on the wave each was found on.
 """
 
 from __future__ import annotations
@@ -34,6 +35,8 @@ def corner_label(corner: Mapping[str, Any]) -> str:
         f"{format_value(float(corner['mains_v']), 'V', 3)} {float(corner['freq_hz']):g} Hz",
         f"C {format_value(float(corner['cap_f']), 'F', 3)}",
     ]
+    if "thd" in corner:
+        bits.append(f"THD {float(corner['thd']) * 100:.3g} %" if corner["thd"] else "sine")
     if "load_a" in corner:
         bits.append("no load" if not corner["load_a"] else "loaded")
     return ", ".join(bits)
@@ -73,6 +76,16 @@ def engine_waveforms(
     current (highest mains and capacitance, lowest resistance: where the inrush is worst).
     Corners missing everywhere are left out; an empty dict when there are none."""
     from ..engine import switch_on_waveform, waveforms
+    from ..engine.circuit import Harmonic
+
+    given = tuple(
+        Harmonic(int(h["order"]), float(h["fraction"]), float(h.get("phase_deg", 0.0)))
+        for h in ((doc.get("mains") or {}).get("harmonics") or [])
+    )
+
+    def harmonics_of(corner: Mapping[str, Any]) -> tuple:
+        """The wave a corner was found on: the document's harmonics when its ``thd`` > 0."""
+        return given if float(corner.get("thd", 0.0) or 0.0) > 0 else ()
 
     worst = doc.get("worst_case") or {}
     inrush_corner = (doc.get("inrush") or {}).get("corner")
@@ -86,13 +99,15 @@ def engine_waveforms(
     def wave(corner: Mapping[str, Any]) -> dict:
         loaded = bool(corner.get("load_a", 1.0))
         key = (*(float(corner[k]) for k in ("mains_v", "freq_hz", "cap_f")), loaded,
-               float(corner.get("r_ohm", 0)), float(corner.get("vz_v", 0)))  # fmt: skip
+               float(corner.get("r_ohm", 0)), float(corner.get("vz_v", 0)),
+               harmonics_of(corner))  # fmt: skip
         if key not in cache:
             cache[key] = waveforms(
                 _corner_circuit(circuit, corner),
                 float(corner["mains_v"]),
                 float(corner["freq_hz"]),
                 loaded=loaded,
+                harmonics=harmonics_of(corner),
             )
         return cache[key]
 
@@ -111,7 +126,10 @@ def engine_waveforms(
     corner = inrush_corner
     if isinstance(corner, Mapping) and {"mains_v", "freq_hz", "cap_f"} <= set(corner):
         w = switch_on_waveform(
-            _corner_circuit(circuit, corner), float(corner["mains_v"]), float(corner["freq_hz"])
+            _corner_circuit(circuit, corner),
+            float(corner["mains_v"]),
+            float(corner["freq_hz"]),
+            harmonics=harmonics_of(corner),
         )
         out["Switch-on current at the crest, everything discharged"] = (
             "A",

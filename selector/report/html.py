@@ -13,8 +13,10 @@ and its JSON key in ``data-key``, and the whole JSON document is embedded in a
 against (and machine-read like) the command's ``--json`` output.
 
 The report reads the JSON document generically: numeric leaves whose key ends in a unit suffix
-(``_a _v _w _f _ohm _s _j _hz _a2s``, and ``_c`` for degrees Celsius) are shown in engineering
-notation; other leaves are shown as text.
+(``_a _v _w _f _ohm _s _j _hz _a2s``, ``_var _va`` for reactive and apparent power, and ``_c``
+for degrees Celsius) are shown in engineering notation; unit-less fractions (keys with a word
+such as ``tol``, ``tolerance``, ``loss``, ``fraction`` or ``margin``, see
+:data:`FRACTION_WORDS`) as percentages (``0.1`` -> ``10 %``); other leaves are shown as text.
 """
 
 from __future__ import annotations
@@ -24,21 +26,23 @@ import datetime as _dt
 import json
 import math
 import os
+import re
 import tempfile
 from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
 import jinja2
+import markupsafe
 
 from .. import __version__
 from ..cautions import CAUTIONS
 from ..errors import BadValueError
-from ..units import format_value
+from ..units import format_percent, format_value
 from .plots import Trace, waveform_svg
 from .schematic import TOPOLOGIES, schematic_svg
 
-__all__ = ["REPORT_KINDS", "UNIT_SUFFIXES", "render_report", "write_report"]
+__all__ = ["FRACTION_WORDS", "REPORT_KINDS", "UNIT_SUFFIXES", "render_report", "write_report"]
 
 REPORT_KINDS = ("check", "design", "audit")
 
@@ -46,6 +50,8 @@ REPORT_KINDS = ("check", "design", "audit")
 UNIT_SUFFIXES: tuple[tuple[str, str], ...] = (
     ("_a2s", "A2s"),
     ("_ohm", "ohm"),
+    ("_var", "var"),
+    ("_va", "VA"),
     ("_v_per_s", "V/s"),
     ("_hz", "Hz"),
     ("_mm2", "mm²"),
@@ -74,6 +80,7 @@ _INPUT_KEYS = (
     "conditions",
     "boards",
     "effective",
+    "policy",
 )
 # sections holding computed figures (worst-case table); other numeric sections are added after
 _FIGURE_KEYS = (
@@ -107,6 +114,17 @@ def _quantity_name(key: str) -> str:
     return key.replace("_", " ")
 
 
+#: words of a unit-less key that make its value a fraction shown as a percentage
+#: (``mains_tolerance``, ``cap_tol``, ``cap_loss``, ``zener_power_fraction``, ``load_margin``)
+FRACTION_WORDS = frozenset({"tol", "tolerance", "loss", "fraction", "margin"})
+
+
+def _is_fraction_key(key: str) -> bool:
+    """Whether a JSON key names a fraction (0.1 = 10 %): no unit suffix, and one of its
+    ``_``-separated words is in :data:`FRACTION_WORDS`."""
+    return _unit_of(key) is None and not FRACTION_WORDS.isdisjoint(key.lower().split("_"))
+
+
 def _is_number(x: Any) -> bool:
     return isinstance(x, (int, float)) and not isinstance(x, bool)
 
@@ -118,11 +136,13 @@ def _show(key: str, value: Any) -> str:
     if isinstance(value, bool):
         return "yes" if value else "no"
     if _is_number(value):
-        if key == "margin":
-            return f"{float(value) * 100:+.1f} %"
         unit = _unit_of(key)
         if not math.isfinite(float(value)):
             return str(value)
+        if key == "margin":  # a computed margin: signed, one decimal, so the column aligns
+            return f"{float(value) * 100:+.1f} %"
+        if unit is None and _is_fraction_key(key):
+            return format_percent(float(value))
         if unit is None:
             return f"{value:.4g}" if isinstance(value, float) else str(value)
         if unit == "°C":
@@ -144,6 +164,19 @@ class _Cell:
     text: str
     key: str = ""
     si: str = ""
+
+    @property
+    def css(self) -> str:
+        """``num`` (right-aligned, one line), ``text long`` (a word too long for a narrow
+        column, e.g. a stock code, may break anywhere), ``text prose`` (a sentence: on a
+        narrow page it may break anywhere too) or ``text`` (wraps between words and at the
+        ``.`` and ``_`` joints of names, see :func:`_breakable`)."""
+        if self.si:
+            return "num"
+        pieces = re.split(r"[\s._]+", self.text)  # a text cell may wrap at spaces, . and _
+        if any(len(w) > 16 for w in pieces):
+            return "text long"
+        return "text prose" if len(self.text) > 30 else "text"
 
     @classmethod
     def of(cls, key: str, value: Any, path: str) -> _Cell:
@@ -322,9 +355,33 @@ def _ok_of(item: Mapping[str, Any]) -> bool | None:
     return None
 
 
-def _table(items: Sequence[Any], prefix: str) -> dict[str, Any]:
+def _row_cell(item: Mapping[str, Any], column: str, path: str) -> _Cell:
+    """One cell of a parts/findings row; the row's ``unit`` field gives the unit of its
+    stress/rating/limit/value, else a part's ``value_unit``, kind or role gives its value's."""
+    suffix = _UNIT_FIELD_NAMES.get(str(item.get("unit")), "")
+    role_unit = item.get("value_unit") if item.get("value_unit") in _UNIT_FIELD_NAMES else None
+    role_unit = role_unit or _ROLE_UNITS.get(str(item.get("kind") or item.get("role") or ""))
+    unit_key = column + suffix if column in _UNIT_FIELD_COLUMNS else column
+    if column == "value" and not suffix and role_unit:
+        unit_key = "value" + _UNIT_FIELD_NAMES[role_unit]
+    return _Cell.of(unit_key, item.get(column), f"{path}.{column}")
+
+
+#: columns of the parts table; every other field of a part (family, package, area and the
+#: ratings of its kind: ``rated_voltage_ac_v`` of a capacitor, ``vrrm_v`` of a rectifier, ...)
+#: is a line of the row's details cell, so a table of mixed parts fits the page width
+PART_COLUMNS = ("ref", "role", "code", "mpn", "description", "text", "value", "qty",
+                "arrangement", "unit_price", "line_price")  # fmt: skip
+
+
+def _table(
+    items: Sequence[Any], prefix: str, columns_kept: Sequence[str] | None = None
+) -> dict[str, Any]:
     """Column headers and cells of a list of flat dicts (parts, findings). A row's ``unit``
-    field (``"V"``, ``"W"``, ...) gives the unit of its stress/rating/limit/value columns."""
+    field (``"V"``, ``"W"``, ...) gives the unit of its stress/rating/limit/value columns.
+
+    ``columns_kept``: when given, only these fields are columns; the others are lines of one
+    details cell per row (see :data:`PART_COLUMNS`)."""
     columns: list[str] = []
     for item in items:
         if isinstance(item, Mapping):
@@ -338,20 +395,28 @@ def _table(items: Sequence[Any], prefix: str) -> dict[str, Any]:
         if c not in ("unit", "value_unit")
         and any(isinstance(it, Mapping) and it.get(c) not in (None, "", [], ()) for it in items)
     ]
+    folded: list[str] = []
+    if columns_kept is not None:
+        folded = [c for c in columns if c not in columns_kept]
+        columns = [c for c in columns if c in columns_kept]
     body = []
     for i, item in enumerate(items):
         item = item if isinstance(item, Mapping) else {"item": item}
-        suffix = _UNIT_FIELD_NAMES.get(str(item.get("unit")), "")
-        role_unit = item.get("value_unit") if item.get("value_unit") in _UNIT_FIELD_NAMES else None
-        role_unit = role_unit or _ROLE_UNITS.get(str(item.get("kind") or item.get("role") or ""))
-        cells = []
-        for c in columns:
-            unit_key = c + suffix if c in _UNIT_FIELD_COLUMNS else c
-            if c == "value" and not suffix and role_unit:
-                unit_key = "value" + _UNIT_FIELD_NAMES[role_unit]
-            cells.append(_Cell.of(unit_key, item.get(c), f"{prefix}[{i}].{c}"))
-        body.append({"ok": _ok_of(item), "severity": item.get("severity"), "cells": cells})
-    return {"columns": [_quantity_name(c) for c in columns], "rows": body}
+        path = f"{prefix}[{i}]"
+        details = [
+            {"name": _quantity_name(c), "cell": _row_cell(item, c, path)}
+            for c in folded
+            if item.get(c) not in (None, "", [], ())
+        ]
+        body.append(
+            {
+                "ok": _ok_of(item),
+                "severity": item.get("severity"),
+                "cells": [_row_cell(item, c, path) for c in columns],
+                "details": details,
+            }
+        )
+    return {"columns": [_quantity_name(c) for c in columns], "rows": body, "folded": bool(folded)}
 
 
 def _first_list(result: Mapping[str, Any], keys: Sequence[str]) -> tuple[str, list[Any]]:
@@ -389,14 +454,25 @@ def _plots(waveforms: Mapping[str, Any] | None) -> list[dict[str, str]]:
     return out
 
 
+def _breakable(text: Any) -> markupsafe.Markup:
+    """Escaped text with a line-break opportunity (``<wbr>``) after each ``.`` and ``_`` that
+    joins two parts of a name (``series_r.surge_voltage``), so the name wraps at its joints in
+    a narrow column instead of anywhere; not in numbers (``4.84``) and not after a one-letter
+    head (``x_capacitor``)."""
+    escaped = str(markupsafe.escape(text))
+    return markupsafe.Markup(re.sub(r"(?<=\w\w)([._])(?=[A-Za-z])", r"\1<wbr>", escaped))
+
+
 def _environment() -> jinja2.Environment:
-    return jinja2.Environment(
+    env = jinja2.Environment(
         loader=jinja2.PackageLoader("selector.report", "templates"),
         autoescape=jinja2.select_autoescape(["html", "j2"], default=True),
         undefined=jinja2.StrictUndefined,
         trim_blocks=True,
         lstrip_blocks=True,
     )
+    env.filters["breakable"] = _breakable
+    return env
 
 
 def render_report(
@@ -424,7 +500,10 @@ def render_report(
     doc = json.loads(json.dumps(_finite(result), default=_json_default, allow_nan=False))
     if circuit is not None and not any(k in doc for k in ("circuit", "requirement", "boards")):
         # a check document does not repeat its input: the report shows the analysed circuit
-        doc = {"circuit": _finite(_circuit_dict(circuit)), **doc}
+        # and the mains, tolerances and conditions it was analysed under, when given
+        given = {"mains": mains, "tolerances": tolerances, "conditions": conditions}
+        added = {k: _finite(_circuit_dict(v)) for k, v in given.items() if v is not None}
+        doc = {"circuit": _finite(_circuit_dict(circuit)), **added, **doc}
     full = doc
     doc = _focus(doc)
     topo = topology or _find_topology(doc, circuit)
@@ -448,7 +527,18 @@ def render_report(
             continue
         rows = _figure_rows(section, data)
         if any(r["cell"].si for r in rows):  # only sections with computed numbers
-            figures.append({"section": section.replace("_", " "), "rows": rows})
+            shared = {r["corner"] for r in rows}
+            corner = shared.pop() if len(shared) == 1 and len(rows) > 1 else ""
+            if corner:  # one corner for the whole section: said once, above its table
+                rows = [{**r, "corner": ""} for r in rows]
+            figures.append(
+                {
+                    "section": section.replace("_", " "),
+                    "rows": rows,
+                    "corners": any(r["corner"] for r in rows),
+                    "corner": corner,
+                }
+            )
     scalars = [
         {"quantity": _quantity_name(k), "cell": _Cell.of(k, v, k)}
         for k, v in doc.items()
@@ -473,7 +563,7 @@ def render_report(
             schematic=schematic,
             figures=figures,
             plots=_plots(waveforms),
-            parts=_table(parts, pkey) if parts else None,
+            parts=_table(parts, pkey, PART_COLUMNS) if parts else None,
             checks=_table(checks, ckey) if checks else None,
             failed=failed,
             n_checks=len(checks),

@@ -116,6 +116,8 @@ def _draw(d: schemdraw.Drawing, topology: str, labels: Mapping[str, str]) -> Non
     out = d.add(elm.Dot(open=True).label("+out", loc="top"))
     d.add(elm.Line().at(out.center).right(1.0))
     load = d.add(elm.RBox().down().toy(rail_y).label(t("load"), loc="bottom"))
+    # room for the load's label on the right: the drawing's box does not count label text
+    d.add(elm.Gap().at(load.center).right(0.6 + 0.16 * len(t("load"))))
     d.add(elm.Line().at(load.end).left().tox(rail_start))
     d.add(elm.Dot(open=True).at(load.end).label("0 V", loc="bottom"))
 

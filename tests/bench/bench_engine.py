@@ -4,7 +4,8 @@ Run: ``python tests/bench/bench_engine.py`` (needs ngspice for the reference). P
 of ``selector.engine.analyse`` (all corners, transients), the time of one ngspice run of one
 corner to steady state (12 mains cycles from a pre-charged reservoir, maximum step 5 us, as in
 DOMAIN.md section 7), their ratio (goal: >= 100), and the agreement with ngspice over the
-scenarios of tests/test_ngspice.py (largest deviation per quantity).
+scenarios of tests/test_ngspice.py (largest deviation per quantity). Also the same analysis on a
+distorted mains (the EN 50160 profile, 3rd/5th/7th [M]) and its ratio to the sine's.
 """
 
 from __future__ import annotations
@@ -34,7 +35,7 @@ from selector.engine import (  # noqa: E402
 from selector.engine.transients import inrush  # noqa: E402
 
 
-def time_analysis(repeat: int = 30) -> tuple[float, float, float, int]:
+def time_analysis(repeat: int = 30, harmonics: tuple = ()) -> tuple[float, float, float, int]:
     circuit = Circuit(
         x_capacitors_f=(330e-9,),
         series_resistance_ohm=470,
@@ -43,7 +44,7 @@ def time_analysis(repeat: int = 30) -> tuple[float, float, float, int]:
         reservoir_f=220e-6,
         load=Load(current_a=0.010),
     )
-    mains = Mains(230, 0.10, (50.0, 60.0))
+    mains = Mains(230, 0.10, (50.0, 60.0), harmonics=harmonics)
     analyse(circuit, mains, Tolerances(), Conditions())  # warm-up (imports, caches)
     times, cpu = [], []
     solves = 0
@@ -115,6 +116,14 @@ def main() -> None:
         f"engine: whole corner analysis (16 corners, {solves} exact solves + transients): "
         f"wall min {an_min * 1e3:.2f} ms, median {an_med * 1e3:.2f} ms; "
         f"CPU median {an_cpu * 1e3:.2f} ms"
+    )
+    from selector.engine.circuit import EN50160_HARMONICS
+
+    h_min, h_med, h_cpu, h_solves = time_analysis(harmonics=EN50160_HARMONICS)
+    print(
+        f"engine on a distorted mains (EN 50160 profile, {h_solves} exact solves): "
+        f"wall min {h_min * 1e3:.2f} ms, median {h_med * 1e3:.2f} ms; CPU median "
+        f"{h_cpu * 1e3:.2f} ms ({h_cpu / an_cpu:.1f}x the sine's CPU)"
     )
     if nu.ngspice_path() is None:
         print("ngspice not installed: no reference time")
