@@ -17,7 +17,7 @@ from typing import Any, Final
 import numpy as np
 
 from .candidates import OptionTable
-from .requirement import SQRT2, Requirement
+from .requirement import DISCHARGE_EXEMPT_F, PROFILE_LIMITS, SQRT2, Requirement
 
 #: relative widening of the closed-form screen (their error against the exact periodic solution
 #: is documented by the engine, <= 0.83 %; 5 % covers it with room) -- a larger value only
@@ -283,3 +283,27 @@ def ripple_reservoir_need(
     else:
         deficit = 2 * side + k * math.pi
     return i_hat / w * np.maximum(deficit, 0.0) / limit_v
+
+
+def bleeder_resistance_ceiling(req: Any, c_nom: Any, c_tol: Any) -> Any:
+    """Largest bleeder resistance, at its upper tolerance, that meets the discharge profile [ohm].
+
+    The engine discharges from the highest mains crest (at least sqrt(2) x the high line)
+    through the bleeder at +tolerance into the largest capacitance C (1 + tol):
+    V(t) = V0 exp(-t / (Rb C)) (RC discharge [S]), so Rb <= t_allowed / (C ln(V0 / V_limit)),
+    or Rb <= t_allowed / C for a time-constant rule (IEC 60950-1); infinite where the nominal
+    capacitance is exempt (<= 0.1 uF, IEC 60335-1 22.5 and IEC 60950-1 [S]). The same formula
+    as the engine, so no slack beyond rounding is needed.
+    """
+    limit_v, allowed_s, tau_rule = PROFILE_LIMITS[req.conditions.profile]
+    c_nom = np.asarray(c_nom, dtype=float)
+    c_dis = c_nom * (1 + np.asarray(c_tol, dtype=float))
+    v0 = SQRT2 * req.mains.high_v
+    if tau_rule:
+        rb_hi = allowed_s / c_dis
+    else:
+        rb_hi = allowed_s / (c_dis * math.log(max(v0 / limit_v, 1.0 + 1e-12)))
+    rb_hi = rb_hi * (1 + 1e-9)
+    if req.conditions.profile in ("iec60335", "iec60950"):
+        rb_hi = np.where(c_nom <= DISCHARGE_EXEMPT_F * (1 + 1e-9), np.inf, rb_hi)
+    return rb_hi

@@ -100,7 +100,9 @@ def make_group(setup: SearchSetup, topology: str, vz: float, stats: dict) -> Zen
     b_ok = np.asarray(st <= lim)
     st, lim, _ = rule_by_id("bleeder.voltage").check({"max_bleeder_voltage_v": v_cap}, bns, pol)
     b_ok &= np.asarray(st <= lim)
-    b_table = RangeMinimum(np.where(b_ok, bo.attrs["total_ohm"] * (1 - btol), np.nan), bo.key)
+    # each bleeder at its upper tolerance, as the engine discharges through it (its series
+    # resistance tolerance is at least the bleeder's own): see bounds.bleeder_resistance_ceiling
+    b_table = RangeMinimum(np.where(b_ok, bo.attrs["total_ohm"] * (1 + btol), np.nan), bo.key)
     ztol_min = float(np.nanmin(np.nan_to_num(zo.attrs["tolerance"], nan=0.0)))
     ztol_max = float(np.nanmax(np.nan_to_num(zo.attrs["tolerance"], nan=0.05)))
     zz_min = float(np.min(np.nan_to_num(zo.attrs["zz_ohm"], nan=0.0) * zo.qty))

@@ -13,7 +13,6 @@ completion of the point.
 
 from __future__ import annotations
 
-import math
 from types import SimpleNamespace
 from typing import Any, Final
 
@@ -23,6 +22,7 @@ from ..policy import Policy
 from .bounds import (
     SCREEN_SLACK,
     SURGE_SLACK,
+    bleeder_resistance_ceiling,
     max_rectifier_resistance,
     max_series_resistance_for_current,
     ripple_reservoir_need,
@@ -32,7 +32,7 @@ from .bounds import (
 from .candidates import rule_by_id, tally
 from .groups import NO_BOUND, ZenerGroup
 from .lookups import cheapest_at_least, cheapest_meeting_both
-from .requirement import DISCHARGE_EXEMPT_F, PROFILE_LIMITS, SQRT2, bus_demand, context_scalars
+from .requirement import SQRT2, bus_demand, context_scalars
 from .setup import SearchSetup
 
 SURGE_RULES: Final[frozenset[str]] = frozenset(
@@ -148,15 +148,7 @@ def completion_lower_bound(
     )
     zsel = cheapest_at_least(G.z_cap, G.zo.key, b["max_zener_power_w"])
     z_extra = np.where(zsel >= 0, G.zo.key[np.maximum(zsel, 0)] - int(np.min(G.zo.key)), NO_BOUND)
-    limit_v, allowed_s, tau_rule = PROFILE_LIMITS[req.conditions.profile]
-    c_dis = cx * (1 + xtol)
-    v0 = SQRT2 * req.mains.high_v
-    if tau_rule:
-        rb_hi = allowed_s / (c_dis * (1 - SCREEN_SLACK))
-    else:
-        rb_hi = allowed_s / (c_dis * math.log(max(v0 / limit_v, 1.0 + 1e-12)) * (1 - SCREEN_SLACK))
-    if req.conditions.profile == "iec60335":
-        rb_hi = np.where(cx * (1 - xtol) <= DISCHARGE_EXEMPT_F, np.inf, rb_hi)
+    rb_hi = bleeder_resistance_ceiling(req, cx, xtol)
     bsel = G.b_table.query(np.zeros(len(xs)), rb_hi)
     b_min = G.min_comp_key - (
         int(np.min(G.zo.key)) + int(np.min(G.rect.key)) + int(np.min(G.co.key))
@@ -313,17 +305,9 @@ def screen_points(setup: SearchSetup, G: ZenerGroup, xg, rg, kx, budget: int, st
         csel = cheapest_at_least(co.attrs["value"], co.key, need_ripple)
     tally(stats, "whole.burst_holdup", ok_xr & (csel < 0))
     ok &= csel >= 0
-    limit_v, allowed_s, tau_rule = PROFILE_LIMITS[req.conditions.profile]
-    # the engine discharges from the crest of the highest mains through the largest bleeder
-    # into the largest capacitance; the table holds each bleeder at its lowest tolerance
-    c_dis = b["c_max"]
-    v0 = SQRT2 * req.mains.high_v
-    if tau_rule:
-        rb_hi = allowed_s / (c_dis * (1 - SCREEN_SLACK))
-    else:
-        rb_hi = allowed_s / (c_dis * math.log(max(v0 / limit_v, 1.0 + 1e-12)) * (1 - SCREEN_SLACK))
-    if req.conditions.profile == "iec60335":
-        rb_hi = np.where(b["c_min_nom"] <= DISCHARGE_EXEMPT_F, np.inf, rb_hi)
+    rb_hi = bleeder_resistance_ceiling(
+        req, xo.attrs["value"][xg], np.nan_to_num(xo.attrs["tolerance"][xg], nan=0.2)
+    )
     room = pol.standby_limit_w - (
         b["max_zener_power_w"] + b["max_series_r_power_w"] + b["rectifier_loss_w"]
     )

@@ -130,7 +130,10 @@ def design(
     t0 = time.monotonic()
     pol = policy or Policy()
     setup = prepare(frame, req, pol)
-    setup.analyse = analyse or engine_api().analyse
+    api = engine_api()
+    setup.analyse = analyse or api.analyse
+    # the quick exact rejection needs the engine's own analysis (not a stand-in)
+    setup.min_current = api.min_dc_current if analyse is None else None
     if setup.analyse is None:
         raise RuntimeError("selector.engine.analyse is not available")
     precheck(setup)

@@ -49,6 +49,8 @@ class SearchSetup:
     #: catalogue rows as dicts, filled on first use by ``verify.catalogue_row``
     row_cache: dict[int, dict[str, Any]] = field(default_factory=dict)
     analyse: Callable[..., Any] | None = None
+    #: engine.analysis.min_dc_current when ``analyse`` is the engine's (quick rejection)
+    min_current: Callable[..., float] | None = None
     stats: dict[str, Any] | None = None
     last_exact: Any = None
 

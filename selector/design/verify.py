@@ -63,12 +63,10 @@ def engine_api():
     from ..engine import circuit as C
 
     ns = SimpleNamespace(**{k: getattr(C, k) for k in C.__all__})
-    try:
-        from ..engine import analyse
+    from ..engine.analysis import analyse, min_dc_current
 
-        ns.analyse = analyse
-    except ImportError:  # pragma: no cover - the engine is a dependency of the package
-        ns.analyse = None
+    ns.analyse = analyse
+    ns.min_dc_current = min_dc_current
     return ns
 
 
@@ -177,6 +175,8 @@ def verify_candidate(setup, topology, vz, xi, ri, scr):
         res, s, circ = _evaluate_completion(setup, topology, vz, xi, ri, current)
         if res is not None and (best is None or res[0] < best[0]):
             best = res
+        if "max_zener_power_w" not in s:
+            break  # rejected by the minimum current alone: the completion barely moves it
         proposal = (
             cheapest_passing(setup, zo, "zener", s),
             cheapest_passing(setup, rect, "rectifier", s),
@@ -218,11 +218,20 @@ def _evaluate_completion(setup, topology, vz, xi, ri, completion):
         setup.fo,
     )
     circ, tol = circuit_for(setup, topology, vz, xi, ri, zi, di, ci, bi)
-    an = setup.analyse(circ, req.mains, tol, req.conditions)
     ctx = rule_context(setup, circ, vz, ci, float(setup.ro.attrs["tolerance"][ri]))
-    s, _ = R.stresses_from_analysis(an, ctx)
     stats = setup.stats if setup.stats is not None else {}
     fails = stats.setdefault("exact_fail", {})
+    if setup.min_current is not None:
+        # the most frequent exact failure first, at the cost of one or two solves: the same
+        # figure analyse() would report (engine.analysis.min_dc_current)
+        i_min = setup.min_current(circ, req.mains, tol)
+        if ctx["load_a"] * (1 + pol.load_margin) > i_min:
+            fails["whole.min_current"] = fails.get("whole.min_current", 0) + 1
+            s = {**ctx, "min_dc_current_a": i_min}
+            setup.last_exact = (["whole.min_current"], s, circ)
+            return None, s, circ
+    an = setup.analyse(circ, req.mains, tol, req.conditions)
+    s, _ = R.stresses_from_analysis(an, ctx)
     parts = parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, None)
     fsel = None
     if not bool(setup.ro.attrs["fusible_flag"][ri]):

@@ -57,6 +57,8 @@ __all__ = [
     "analyse",
     "corner_circuit",
     "corners",
+    "min_dc_current",
+    "weakest_corner",
 ]
 
 
@@ -229,6 +231,45 @@ def _regulator_figures(circuit: Circuit, st: SteadyState):
     return power, headroom
 
 
+def weakest_corner(circuit: Circuit, mains: Mains, tol: Tolerances) -> Corner:
+    """The corner of least available DC current, as ``analyse`` picks it: the closed forms'
+    argmin over the corner grid (monotonic in every corner variable like the exact solution)."""
+    grid = corners(circuit, mains, tol)
+    i_cf = cf.dc_current(
+        circuit.topology,
+        np.array([k.mains_v for k in grid]),
+        np.array([k.cap_f for k in grid]),
+        np.array([k.freq_hz for k in grid]),
+        np.array([k.vz_v for k in grid]),
+        circuit.diode_drop_v,
+        np.array([k.r_ohm for k in grid]),
+    )
+    return grid[int(np.argmin(i_cf))]
+
+
+def min_dc_current(circuit: Circuit, mains: Mains, tolerances: Tolerances | None = None) -> float:
+    """``analyse(...).worst_case.min_dc_current_a`` alone, for a quick exact rejection [A].
+
+    The same corner (``weakest_corner``), the same supply states and the same reading out of
+    regulation as ``analyse``, with one or two exact solves instead of all of them; equal to
+    the full analysis to the last bit (tests/test_engine.py).
+    """
+    tol = tolerances or Tolerances()
+    k = weakest_corner(circuit, mains, tol)
+    cc = corner_circuit(circuit, k)
+    hs_given = tuple(mains.harmonics)
+    states: tuple[tuple, ...] = (hs_given, ()) if hs_given else ((),)
+    solves = [(hs, solve_steady_state(cc, k.mains_v, k.freq_hz, harmonics=hs)) for hs in states]
+    hs_min, s_min = min(solves, key=lambda t: t[1].dc_current_a)
+    if s_min.zener_current_a > 1e-9 or circuit.load.is_zero:
+        return float(s_min.dc_current_a)
+    return float(
+        solve_steady_state(
+            cc, k.mains_v, k.freq_hz, harmonics=hs_min, load_a=0.0, load_g=0.0
+        ).dc_current_a
+    )
+
+
 def analyse(
     circuit: Circuit,
     mains: Mains,
@@ -254,7 +295,7 @@ def analyse(
     i_cf = cf.dc_current(top, V, C, F, Z, vf, R)
     pz_cf = cf.zener_power_no_load(top, V, C, F, Z, vf, R)
     pr_cf = cf.series_r_power(V, C, F, R)
-    k_min = grid[int(np.argmin(i_cf))]
+    k_min = weakest_corner(circuit, mains, tol)
     k_max_i = grid[int(np.argmax(i_cf))]
     k_max_pz = grid[int(np.argmax(pz_cf))]
     k_max_pr = grid[int(np.argmax(pr_cf))]
