@@ -183,7 +183,7 @@ def _relaxations(req: Any, policy: Any, rule: str) -> list[Relaxation]:
     out: list[Relaxation] = []
     if rule == "whole.min_current" or rule.startswith("zener") or rule == "x_capacitor.*":
         if rule == "whole.min_current":
-            lo = 0.1 * req.load_a
+            lo = 0.01 * req.load_a
             out.append(
                 Relaxation(
                     rule,

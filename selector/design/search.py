@@ -21,7 +21,7 @@ import pandas as pd
 
 from ..errors import InfeasibleError
 from ..policy import Policy
-from .explain import infeasible_error, precheck
+from .explain import checked_relaxation, infeasible_error, precheck
 from .groups import NO_BOUND, ZenerGroup, make_group
 from .pairs import add_series_pairs, add_x_pairs
 from .requirement import KEY_BITS, PRICE_SCALE, Design, Requirement
@@ -118,6 +118,7 @@ def design(
     progress: Callable[[int, int], None] | None = None,
     analyse: Callable[..., Any] | None = None,
     time_limit_s: float | None = None,
+    explain: bool = True,
 ) -> list[Design]:
     """The ``req.top`` best compliant designs over the catalogue ``frame`` (parts_frame).
 
@@ -125,7 +126,9 @@ def design(
     ``time_limit_s`` the search stops after that long and says which bound is still open (the
     best set found and the least key any unverified set can have); without it the search runs
     until it has proven optimality over the search space. Raises InfeasibleError naming the
-    blocking rule and a relaxation.
+    blocking rule and, with ``explain``, a relaxation that was applied and found a design
+    (``explain.checked_relaxation``; the error then carries ``relaxed_requirement`` and
+    ``relaxed_policy``).
     """
     t0 = time.monotonic()
     pol = policy or Policy()
@@ -136,7 +139,12 @@ def design(
     setup.min_current = api.min_dc_current if analyse is None else None
     if setup.analyse is None:
         raise RuntimeError("selector.engine.analyse is not available")
-    precheck(setup)
+    try:
+        precheck(setup)
+    except InfeasibleError as err:
+        if not explain:
+            raise
+        raise _explained(err, frame, req, pol, analyse, {}, None) from None
     stats: dict[str, Any] = {
         "points": 0,
         "passed": 0,
@@ -201,6 +209,8 @@ def design(
     run.found.sort(key=lambda t: t[0])
     if not run.found:
         err = infeasible_error(setup, stats, verified=stats["verified"])
+        if explain and not run.stopped_by:
+            err = _explained(err, frame, req, pol, analyse, stats, deadline)
         if run.stopped_by:
             err = InfeasibleError(
                 f"no design found within the time limit ({time_limit_s:g} s); "
@@ -294,3 +304,56 @@ def _report(run: _Search, stats: dict, best_key: int, open_lb: int, minimize: st
         "seconds": {**{k: round(v, 4) for k, v in run.seconds.items()}, "total": round(total, 4)},
         "note": note,
     }
+
+
+#: how long the explanation of an infeasible request may spend re-running the search [s]
+EXPLAIN_SECONDS: Final[float] = 30.0
+
+
+def _explained(err, frame, req, pol, analyse, stats, deadline):
+    """The infeasibility error with a checked relaxation (see ``explain.checked_relaxation``).
+
+    Rules are tried in this order: those that were the only failure of some exactly verified
+    set (they remove the last otherwise feasible sets), then the screen's and the exact check's
+    tallies, then the rule the error names.
+    """
+    order: list[str] = []
+    for tally in (
+        stats.get("sole_fail", {}),
+        stats.get("exact_fail", {}),
+        stats.get("completion", {}),
+        {k: v["count"] for k, v in stats.get("blocking", {}).items()},
+    ):
+        for rid, _ in sorted(tally.items(), key=lambda kv: -kv[1]):
+            if rid not in order:
+                order.append(rid)
+    if err.rule and err.rule not in order:
+        order.append(err.rule)
+    end = time.monotonic() + EXPLAIN_SECONDS
+    if deadline is not None:
+        end = min(end, deadline)
+    tried: dict = {}
+
+    def feasible(r, p) -> bool:
+        left = end - time.monotonic()
+        if left <= 0:
+            return False
+        try:
+            design(frame, r, p, analyse=analyse, time_limit_s=left, explain=False)
+        except InfeasibleError:
+            return False
+        tried["last"] = (r, p)
+        return True
+
+    found = checked_relaxation(feasible, req, pol, order, end)
+    if found is None:
+        return err
+    rule, text = found
+    out = InfeasibleError(
+        f"blocked by rule {rule}: no set passes every rule at every corner; relax: {text} "
+        "(checked: with it the search finds a design)",
+        rule=rule,
+        relaxation=text,
+    )
+    out.relaxed_requirement, out.relaxed_policy = tried["last"]
+    return out

@@ -247,6 +247,9 @@ def _evaluate_completion(setup, topology, vz, xi, ri, completion):
     if bad:
         for b in bad:
             fails[b] = fails.get(b, 0) + 1
+        if len(set(bad)) == 1:  # the only rule between this set and a design
+            sole = stats.setdefault("sole_fail", {})
+            sole[bad[0]] = sole.get(bad[0], 0) + 1
         return None, s, circ
     key = (
         setup.xo.key[xi]
