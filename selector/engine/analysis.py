@@ -22,6 +22,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..errors import OutOfRangeError
 from . import closed_form as cf
 from .circuit import Circuit, Conditions, Mains, Tolerances
 from .steady_state import SteadyState, solve_steady_state
@@ -45,6 +46,7 @@ __all__ = [
     "analyse",
     "corner_circuit",
     "corners",
+    "surge_through_circuit",
 ]
 
 
@@ -207,6 +209,44 @@ def corner_circuit(circuit: Circuit, k: Corner) -> Circuit:
     return c
 
 
+def surge_through_circuit(
+    circuit: Circuit, grid: list[Corner], level_v: float, vout_max_v: float
+) -> Surge:
+    """The surge section from :func:`.surge_circuit.worst_surge`: every stress at its own worst
+    corner, phase and polarity over ``grid``; ``bus_ok`` compares the bus peak with
+    ``vout_max_v``. The corners' load is off (see :func:`.surge_circuit.surge_case`)."""
+    from .surge_circuit import worst_surge, zener_surge_slope
+
+    # the bleeder and the Zener voltage follow the grid; the load does not change the stresses
+    distinct = list(dict.fromkeys(grid))
+    vals, where = worst_surge(circuit, distinct, level_v)
+    return Surge(
+        level_v=level_v,
+        peak_current_a=vals["peak_current_a"],
+        series_r_energy_j=vals["series_r_energy_j"],
+        series_r_peak_voltage_v=vals["series_r_peak_voltage_v"],
+        x_cap_voltage_step_v=vals["x_cap_voltage_step_v"],
+        x_cap_dvdt_v_per_s=vals["x_cap_dvdt_v_per_s"],
+        i2t_a2s=vals["fuse_i2t_a2s"],
+        corner=where["peak_current_a"],
+        zener_peak_current_a=vals["zener_peak_current_a"],
+        zener_pulse_energy_j=vals["zener_pulse_energy_j"],
+        rectifier_peak_current_a=vals["rectifier_peak_current_a"],
+        rectifier_i2t_a2s=vals["rectifier_i2t_a2s"],
+        fuse_i2t_a2s=vals["fuse_i2t_a2s"],
+        bus_peak_v=vals["bus_peak_v"],
+        x_cap_peak_total_v=vals["x_cap_peak_total_v"],
+        phase_deg=where["peak_current_a"]["phase_deg"],
+        vout_max_v=vout_max_v,
+        bus_ok=bool(vals["bus_peak_v"] <= vout_max_v),
+        reservoir_esr_ohm=circuit.reservoir_esr_ohm,
+        zener_slope_ohm=zener_surge_slope(circuit),
+        corners=where,
+        method="IEC 61000-4-5 generator circuit in series with the mains, whole circuit, "
+        "all corners x 8 phases x both polarities",
+    )
+
+
 def _regulator_figures(circuit: Circuit, st: SteadyState):
     reg = circuit.regulator
     if reg is None:
@@ -223,11 +263,15 @@ def analyse(
     tolerances: Tolerances | None = None,
     conditions: Conditions | None = None,
     progress: Callable[[int, int], None] | None = None,
+    surge_model: str = "circuit",
 ) -> Analysis:
     """Worst-case analysis of ``circuit`` on ``mains`` (SI throughout). See module docstring.
 
     The closed forms pick the extreme corner of each quantity; those corners (usually 4-6
-    distinct ones) and the nominal point are solved exactly.
+    distinct ones) and the nominal point are solved exactly. The surge: ``surge_model``
+    ``"circuit"`` (default) simulates the generator through the whole circuit at every corner
+    and phase (:func:`surge_through_circuit`); ``"loop"`` is the narrow series-loop model of
+    :func:`.transients.surge` at the switch-on corner (what the design screen bounds).
     """
     tol = tolerances or Tolerances()
     cond = conditions or Conditions()
@@ -391,9 +435,14 @@ def analyse(
     k_in = Corner(mains.high_v, f_hi, c_max, r_min, rb_min, circuit.zener_voltage_v, False)
     cin = corner_circuit(circuit, k_in)
     ins = inrush(cin, mains.high_v, f_hi, k_in.record(circuit))
-    sur = (
-        surge(cin, cond.surge_v, k_in.record(circuit)) if cond.surge_v > 0 else surge(cin, 0.0, {})
-    )
+    if cond.surge_v <= 0 or surge_model not in ("circuit", "loop"):
+        if surge_model not in ("circuit", "loop"):
+            raise OutOfRangeError(f"surge model {surge_model!r}: one of circuit, loop")
+        sur = surge(cin, 0.0, {})
+    elif surge_model == "loop":
+        sur = surge(cin, cond.surge_v, k_in.record(circuit))
+    else:
+        sur = surge_through_circuit(circuit, grid, cond.surge_v, cond.vout_max(circuit))
     rb_max = max(k.bleeder_ohm for k in grid)
     k_dis = Corner(mains.high_v, f_hi, c_max, r_min, rb_max, circuit.zener_voltage_v, False)
     dis = discharge(
