@@ -172,6 +172,7 @@ def _surge_rows(s) -> list[tuple[str, str, str, str]]:
         ("Surge X cap dV/dt", "", _f(s.x_cap_dvdt_v_per_s, "V/s"), "x_cap_dvdt_v_per_s"),
         ("Surge Zener peak", "", _f(s.zener_peak_current_a, "A"), "zener_peak_current_a"),
         ("Surge Zener energy", "", _f(s.zener_pulse_energy_j, "J"), "zener_pulse_energy_j"),
+        ("Surge Zener peak power", "", _f(s.zener_peak_power_w, "W"), "zener_peak_power_w"),
         (
             "Surge rectifier peak",
             "",

@@ -231,6 +231,7 @@ def surge_through_circuit(
         corner=where["peak_current_a"],
         zener_peak_current_a=vals["zener_peak_current_a"],
         zener_pulse_energy_j=vals["zener_pulse_energy_j"],
+        zener_peak_power_w=vals["zener_peak_power_w"],
         rectifier_peak_current_a=vals["rectifier_peak_current_a"],
         rectifier_i2t_a2s=vals["rectifier_i2t_a2s"],
         fuse_i2t_a2s=vals["fuse_i2t_a2s"],

@@ -317,6 +317,7 @@ class SurgeRun:
     x_cap_dvdt_v_per_s: np.ndarray
     zener_peak_current_a: np.ndarray
     zener_pulse_energy_j: np.ndarray
+    zener_peak_power_w: np.ndarray
     rectifier_peak_current_a: np.ndarray
     rectifier_i2t_a2s: np.ndarray
     fuse_i2t_a2s: np.ndarray
@@ -642,6 +643,7 @@ def _stresses(outs, vx, dts, p, case_idx, phase_deg, pol, top, n_steps) -> Surge
         x_cap_dvdt_v_per_s=np.max(np.abs(i_cx), axis=0) / p["cap"],
         zener_peak_current_a=np.max(iz_b, axis=0),
         zener_pulse_energy_j=_trap(np.abs(i_z * v_z), dts),
+        zener_peak_power_w=np.max(np.abs(i_z * v_z), axis=0),
         rectifier_peak_current_a=rect_pk,
         rectifier_i2t_a2s=rect_i2t,
         fuse_i2t_a2s=i2,
@@ -669,6 +671,7 @@ SURGE_STRESSES = (
     "x_cap_dvdt_v_per_s",
     "zener_peak_current_a",
     "zener_pulse_energy_j",
+    "zener_peak_power_w",
     "rectifier_peak_current_a",
     "rectifier_i2t_a2s",
     "fuse_i2t_a2s",

@@ -78,6 +78,7 @@ class Surge:
     corner: dict | None
     zener_peak_current_a: float | None = None
     zener_pulse_energy_j: float | None = None
+    zener_peak_power_w: float | None = None
     rectifier_peak_current_a: float | None = None
     rectifier_i2t_a2s: float | None = None
     fuse_i2t_a2s: float | None = None
