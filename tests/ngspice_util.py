@@ -25,11 +25,15 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from selector.engine.surge_circuit import ExpDiode
+
 VT = 0.025852  # thermal voltage at 27 C [V] (kT/q)
 IS = 1e-12
 RS = 0.1
 IBV = 10e-3
 DIODE_MODEL = f".model DR D(IS={IS} N=1 RS={RS} CJO=20p)"
+#: the same diode for the engine: lines fitted to it over a pulse's current range
+PHYSICAL_DIODE = ExpDiode(is_a=IS, n=1.0, rs_ohm=RS, vt_v=VT)
 
 
 def ngspice_path() -> str | None:

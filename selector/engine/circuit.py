@@ -151,7 +151,12 @@ class Circuit:
     Zener's forward direction; ``zener_impedance_ohm`` is the dynamic resistance in breakdown.
     ``reservoir_esr_ohm`` is the reservoir's equivalent series resistance (catalogue-independent;
     default :data:`DEFAULT_RESERVOIR_ESR_OHM`); the steady state leaves it out (its drop at the
-    ripple current is mV), the surge model includes it.
+    ripple current is mV), the surge model includes it. ``pulse_diode_drop_v`` and
+    ``pulse_diode_resistance_ohm`` are the rectifier's straight line in the high-current region
+    (amperes to tens of amperes: switch-on and surge); ``None`` takes the steady-state values. A
+    junction's tangent at tens of mA has a slope resistance ``VT / I`` far above its ohmic
+    resistance and overstates the drop at 20 A by volts (switch-on peaks a few % low); see
+    :meth:`pulse_diode` and :meth:`.surge_circuit.ExpDiode.line`.
     """
 
     topology: str = "bridge"
@@ -166,6 +171,8 @@ class Circuit:
     load: Load = field(default_factory=Load)
     regulator: Regulator | None = None
     reservoir_esr_ohm: float = DEFAULT_RESERVOIR_ESR_OHM
+    pulse_diode_drop_v: float | None = None
+    pulse_diode_resistance_ohm: float | None = None
 
     def __post_init__(self) -> None:
         _need(
@@ -185,6 +192,8 @@ class Circuit:
         _need(1.0 <= self.zener_voltage_v <= 200, f"Zener {self.zener_voltage_v} V out of 1..200 V")
         _need(0 <= self.zener_impedance_ohm <= 1e3, "Zener impedance outside 0..1 kohm")
         _need(1e-7 <= self.reservoir_f <= 0.1, f"reservoir {self.reservoir_f} F out of range")
+        for v in (self.pulse_diode_drop_v, self.pulse_diode_resistance_ohm):
+            _need(v is None or 0 <= v <= 100, f"pulse diode value {v} outside 0..100")
         _need(
             0 <= self.reservoir_esr_ohm <= 100,
             f"reservoir ESR {self.reservoir_esr_ohm} ohm outside 0..100 ohm",
@@ -216,6 +225,19 @@ class Circuit:
     def with_values(self, **changes) -> Circuit:
         """A copy with some fields changed (``dataclasses.replace``)."""
         return replace(self, **changes)
+
+    def pulse_diode(self) -> tuple[float, float]:
+        """(drop [V], resistance [ohm]) of one rectifier diode for pulses (switch-on, surge)."""
+        vf = self.diode_drop_v if self.pulse_diode_drop_v is None else self.pulse_diode_drop_v
+        rd = self.pulse_diode_resistance_ohm
+        return vf, self.diode_resistance_ohm if rd is None else rd
+
+    def for_pulses(self) -> Circuit:
+        """A copy whose diode is the pulse diode (for the switch-on and surge models)."""
+        vf, rd = self.pulse_diode()
+        if vf == self.diode_drop_v and rd == self.diode_resistance_ohm:
+            return self
+        return replace(self, diode_drop_v=vf, diode_resistance_ohm=rd)
 
     @property
     def has_bleeder(self) -> bool:

@@ -711,12 +711,14 @@ def zener_surge_slope(circuit) -> float:
 def surge_case(circuit, k, phases_deg=SURGE_PHASES_DEG) -> SurgeCase:
     """The :class:`SurgeCase` of ``circuit`` at corner ``k`` (an :class:`.analysis.Corner`:
     mains, frequency, capacitance, series R, bleeder, Zener voltage), pre-charged from the
-    steady state. The load is off during the surge (its mA are negligible against the surge's
-    amperes, and without it the Zener takes the most, [P])."""
+    steady state (steady-state diodes); the pulse itself uses the pulse diode
+    (:meth:`.circuit.Circuit.pulse_diode`). The load is off during the surge (its mA are
+    negligible against the surge's amperes, and without it the Zener takes the most, [P])."""
     from .analysis import corner_circuit
 
     cc = corner_circuit(circuit, k)
     vx, vo = pre_states(cc, k.mains_v, k.freq_hz, phases_deg)
+    vf, rd = circuit.pulse_diode()
     return SurgeCase(
         topology=circuit.topology,
         mains_v=k.mains_v,
@@ -724,8 +726,8 @@ def surge_case(circuit, k, phases_deg=SURGE_PHASES_DEG) -> SurgeCase:
         cap_f=k.cap_f,
         r_ohm=k.r_ohm,
         bleeder_ohm=k.bleeder_ohm,
-        vf_v=circuit.diode_drop_v,
-        rd_ohm=circuit.diode_resistance_ohm,
+        vf_v=vf,
+        rd_ohm=rd,
         vz_v=k.vz_v,
         zz_ohm=zener_surge_slope(circuit),
         reservoir_f=circuit.reservoir_f,

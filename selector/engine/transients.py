@@ -140,8 +140,10 @@ def inrush(
     The pulse is integrated over ``window_tau`` time constants ``tau = (R + r_d) C C_r/(C + C_r)``
     (capped at a quarter cycle): energy in R, I^2 t, peak current, X capacitor dV/dt (= i / C).
     Check: for R C << 1/f the energy tends to ``0.5 C Vpk^2`` and ``I^2 t`` to ``Vpk^2 C / (2 R)``
-    (RC charging from a step, textbook [S]) - see tests/test_engine_transients.py.
+    (RC charging from a step, textbook [S]) - see tests/test_engine_transients.py. The diodes
+    are the circuit's pulse diode (:meth:`Circuit.pulse_diode`, the high-current line).
     """
+    circuit = circuit.for_pulses()
     system = build_system(circuit, mains_v, freq_hz, load_a=0.0, load_g=0.0)
     c = circuit.x_capacitance_f
     cr = circuit.reservoir_f
