@@ -386,6 +386,7 @@ def surge_metrics(sc: SurgeScenario, gen, u0: float, window: float, pre=None) ->
         "x_cap_dvdt_v_per_s": float(np.max(np.abs(i_cx))) / sc.cap_f,
         "zener_peak_current_a": float(np.max(np.maximum(iz, 0.0))),
         "zener_pulse_energy_j": _trapz(np.abs(iz * vz), t),
+        "zener_peak_power_w": float(np.max(np.abs(iz * vz))),
         "rectifier_peak_current_a": rect_pk,
         "rectifier_i2t_a2s": rect_i2t,
         "fuse_i2t_a2s": i2t,
