@@ -207,12 +207,16 @@ def test_phase_grid_is_fine_enough(topology: str, r_ohm: float) -> None:
     # corner: no stress more than 0.5 % worse off the four
     circuit = CIRCUIT.with_values(topology=topology, series_resistance_ohm=r_ohm)
     k = Corner(253.0, 50.0, 330e-9 * 1.1, r_ohm * 0.95, 0.95e6, 5.1 * 1.05)
-    coarse = sc.simulate([sc.surge_case(circuit, k)], 2000.0)
+    coarse = sc.simulate([sc.surge_case(circuit, k, exact_pre_state=True)], 2000.0)
     fine = sc.simulate([sc.surge_case(circuit, k, tuple(range(0, 360, 10)))], 2000.0)
+    fast = sc.simulate([sc.surge_case(circuit, k)], 2000.0)
     for name in sc.SURGE_STRESSES:
-        assert float(np.max(getattr(coarse, name))) == pytest.approx(
-            float(np.max(getattr(fine, name))), rel=0.005
-        ), name
+        worst = float(np.max(getattr(fine, name)))
+        assert float(np.max(getattr(coarse, name))) == pytest.approx(worst, rel=0.005), name
+        # the clamped (phasor) pre-state the analysis uses moves no stress by more than 1 %,
+        # the Zener's small share at a high series R (its bus starts a few mV off) by 2 %
+        tol = 0.02 if name.startswith("zener") else 0.01
+        assert float(np.max(getattr(fast, name))) == pytest.approx(worst, rel=tol), name
 
 
 def test_exp_diode_line_is_close_over_its_range() -> None:
@@ -223,3 +227,25 @@ def test_exp_diode_line_is_close_over_its_range() -> None:
     assert np.max(np.abs(vf + rd * i - d.voltage(i))) < 0.02
     # at high current the slope approaches the ohmic RS (VT / I -> 0)
     assert rd == pytest.approx(0.1, abs=0.01)
+
+
+@pytest.mark.parametrize("topology", ["bridge", "half-wave"])
+def test_clamped_pre_state_matches_the_periodic_solution(topology: str) -> None:
+    # phasor picture of the clamped bus (circuit theory) against the engine's periodic steady
+    # state (shooting), wherever w R C <= 0.1: within 1 V at the standard's four phases
+    for r in (10.0, 47.0, 470.0, 2200.0):
+        for cap in (47e-9, 330e-9, 2.2e-6):
+            for f in (50.0, 60.0):
+                if 2 * math.pi * f * r * cap > sc.CLAMPED_MAX_WRC:
+                    continue
+                c = Circuit(
+                    topology=topology,
+                    x_capacitors_f=(cap,),
+                    series_resistance_ohm=r,
+                    zener_voltage_v=12.0,
+                    reservoir_f=470e-6,
+                )
+                exact = sc.pre_states(c, 253.0, f, sc.SURGE_PHASES_DEG)
+                fast = sc.pre_states_clamped(c, 253.0, f, sc.SURGE_PHASES_DEG)
+                assert np.allclose(exact[0], fast[0], atol=1.0), (r, cap, f)
+                assert np.allclose(exact[1], fast[1], atol=0.01), (r, cap, f)

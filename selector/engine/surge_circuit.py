@@ -71,6 +71,7 @@ from ..errors import OutOfRangeError
 
 __all__ = [
     "GENERATOR",
+    "CLAMPED_MAX_WRC",
     "DEFAULT_ZENER_SURGE_SLOPE_OHM",
     "SURGE_PHASES_DEG",
     "SURGE_STRESSES",
@@ -84,6 +85,7 @@ __all__ = [
     "derive_generator",
     "generator_waveform",
     "pre_states",
+    "pre_states_clamped",
     "simulate",
     "surge_case",
     "voltage_wave_times",
@@ -697,6 +699,56 @@ SURGE_STRESSES = (
 )
 
 
+#: largest w R C for which :func:`pre_states_clamped` is used (its error is then < 1 V)
+CLAMPED_MAX_WRC = 0.1
+
+
+def pre_states_clamped(circuit, mains_v: float, freq_hz: float, phases_deg) -> tuple[list, list]:
+    """X-capacitor and bus voltage [V] at the mains phases 0/90/180/270 from the clamped-bus
+    picture (no load, so the clamp holds the bus at ``V_bus`` = Vz + Zz I_dc; half-wave
+    Vz + Zz I - Vf, the peak of the Zener node less a diode drop):
+
+    while the rectifier conducts, the loop is R + C driven by ``u - s V_clamp``, whose
+    sinusoidal current ``i = I cos(w t - a)``, ``I = w C Vpk / sqrt(1 + (w R C)^2)``,
+    ``a = atan(w R C)``, gives ``v_x = u - s V_clamp - R i`` (``V_clamp`` = Vz + 2 Vf for the
+    bridge; Vz on the positive and Vf on the negative side for the half-wave). At the zero
+    crossing and at the crest the rectifier still conducts, so ``v_x(0) = -V+ - R I cos a``,
+    ``v_x(90) = Vpk - V+ - R I sin a``, and their mirror images at 180 and 270 degrees with
+    ``V-``. The start of each conduction interval leaves an R C transient that this leaves out,
+    so it is used for ``w R C <= 0.1`` only (:data:`CLAMPED_MAX_WRC`; within 1 V of the sampled
+    periodic solution for 10 ohm..2.2 kohm, 47 nF..2.2 uF, tests/test_surge_circuit.py: 0.1 %
+    of an X capacitor's surge peak). Circuit theory (phasors), textbook.
+    Other phases: ValueError.
+    """
+    vpk = math.sqrt(2.0) * mains_v
+    w = 2 * math.pi * freq_hz
+    c = circuit.x_capacitance_f
+    r = circuit.series_resistance_ohm
+    vf = circuit.diode_drop_v
+    vz = circuit.zener_voltage_v
+    wrc = w * r * c
+    i_pk = w * c * vpk / math.sqrt(1.0 + wrc * wrc)
+    a = math.atan(wrc)
+    zz = circuit.zener_impedance_ohm
+    if circuit.topology == "bridge":
+        hi = lo = vz + 2 * vf
+        # the reservoir averages the Zener's current: I_dc = 4 f C (Vpk - V+) (DOMAIN.md 2)
+        bus = vz + zz * 4 * freq_hz * c * (vpk - hi)
+    else:
+        hi, lo = vz, vf
+        # the reservoir holds the peak of node A less one diode drop
+        bus = vz + zz * i_pk - vf
+    ri_c, ri_s = r * i_pk * math.cos(a), r * i_pk * math.sin(a)
+    out = {0.0: -hi - ri_c, 90.0: vpk - hi - ri_s, 180.0: lo + ri_c, 270.0: -(vpk - lo - ri_s)}
+    vx = []
+    for ph in phases_deg:
+        key = ph % 360.0
+        if key not in out:
+            raise ValueError(f"clamped pre-state only at 0/90/180/270 degrees, not {ph}")
+        vx.append(out[key])
+    return vx, [bus] * len(vx)
+
+
 def pre_states(circuit, mains_v: float, freq_hz: float, phases_deg) -> tuple[list, list]:
     """X-capacitor and bus voltage [V] at each mains phase (u = Vpk sin(phase)) of the periodic
     steady state without load (:func:`.steady_state.solve_steady_state`): phase 0 is the
@@ -731,16 +783,22 @@ def zener_surge_slope(circuit) -> float:
     return zz if zz > 0 else DEFAULT_ZENER_SURGE_SLOPE_OHM
 
 
-def surge_case(circuit, k, phases_deg=SURGE_PHASES_DEG) -> SurgeCase:
+def surge_case(circuit, k, phases_deg=SURGE_PHASES_DEG, exact_pre_state=False) -> SurgeCase:
     """The :class:`SurgeCase` of ``circuit`` at corner ``k`` (an :class:`.analysis.Corner`:
-    mains, frequency, capacitance, series R, bleeder, Zener voltage), pre-charged from the
-    steady state (steady-state diodes); the pulse itself uses the pulse diode
+    mains, frequency, capacitance, series R, bleeder, Zener voltage), pre-charged as in the
+    periodic steady state (:func:`pre_states_clamped` at the standard's phases, else
+    :func:`pre_states`; steady-state diodes); the pulse itself uses the pulse diode
     (:meth:`.circuit.Circuit.pulse_diode`). The load is off during the surge (its mA are
     negligible against the surge's amperes, and without it the Zener takes the most, [P])."""
     from .analysis import corner_circuit
 
     cc = corner_circuit(circuit, k)
-    vx, vo = pre_states(cc, k.mains_v, k.freq_hz, phases_deg)
+    wrc = 2 * math.pi * k.freq_hz * k.r_ohm * k.cap_f
+    standard = all((ph % 360.0) in (0.0, 90.0, 180.0, 270.0) for ph in phases_deg)
+    if standard and wrc <= CLAMPED_MAX_WRC and not exact_pre_state:
+        vx, vo = pre_states_clamped(cc, k.mains_v, k.freq_hz, phases_deg)
+    else:
+        vx, vo = pre_states(cc, k.mains_v, k.freq_hz, phases_deg)
     vf, rd = circuit.pulse_diode()
     return SurgeCase(
         topology=circuit.topology,
