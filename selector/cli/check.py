@@ -198,7 +198,12 @@ def _surge_rows(s) -> list[tuple[str, str, str, str]]:
             "Bus limit (--vout-max)",
             "",
             _f(s.vout_max_v, "V"),
-            f"{verdict}; default 1.3 x bus voltage (common practice)",
+            f"{verdict}; "
+            + (
+                "default 1.3 x bus voltage (common practice)"
+                if s.vout_max_default
+                else "given with --vout-max"
+            ),
         )
     )
     return rows

@@ -210,7 +210,11 @@ def corner_circuit(circuit: Circuit, k: Corner) -> Circuit:
 
 
 def surge_through_circuit(
-    circuit: Circuit, grid: list[Corner], level_v: float, vout_max_v: float
+    circuit: Circuit,
+    grid: list[Corner],
+    level_v: float,
+    vout_max_v: float,
+    vout_max_default: bool = True,
 ) -> Surge:
     """The surge section from :func:`.surge_circuit.worst_surge`: every stress at its own worst
     corner, phase and polarity over ``grid``; ``bus_ok`` compares the bus peak with
@@ -239,6 +243,7 @@ def surge_through_circuit(
         x_cap_peak_total_v=vals["x_cap_peak_total_v"],
         phase_deg=where["peak_current_a"]["phase_deg"],
         vout_max_v=vout_max_v,
+        vout_max_default=vout_max_default,
         bus_ok=bool(vals["bus_peak_v"] <= vout_max_v),
         reservoir_esr_ohm=circuit.reservoir_esr_ohm,
         zener_slope_ohm=zener_surge_slope(circuit),
@@ -443,7 +448,9 @@ def analyse(
     elif surge_model == "loop":
         sur = surge(cin, cond.surge_v, k_in.record(circuit))
     else:
-        sur = surge_through_circuit(circuit, grid, cond.surge_v, cond.vout_max(circuit))
+        sur = surge_through_circuit(
+            circuit, grid, cond.surge_v, cond.vout_max(circuit), cond.vout_max_v is None
+        )
     rb_max = max(k.bleeder_ohm for k in grid)
     k_dis = Corner(mains.high_v, f_hi, c_max, r_min, rb_max, circuit.zener_voltage_v, False)
     dis = discharge(

@@ -86,6 +86,7 @@ class Surge:
     x_cap_peak_total_v: float | None = None
     phase_deg: float | None = None
     vout_max_v: float | None = None
+    vout_max_default: bool | None = None
     bus_ok: bool | None = None
     reservoir_esr_ohm: float | None = None
     zener_slope_ohm: float | None = None
