@@ -239,3 +239,8 @@ def test_surge_options_reservoir_esr_zener_z_vout_max() -> None:
     assert "default 1.3 x bus voltage (common practice)" in table
     r = runner.invoke(app, [*SURGE_EXAMPLE, "--reservoir-esr", "-1"])
     assert r.exit_code == 2
+    # the bus limit shows in every output, also without a surge
+    no_surge = [*SURGE_EXAMPLE[:-1], "0"]
+    assert "Bus limit (--vout-max)" in invoke(*no_surge).stdout
+    doc = json.loads(invoke(*no_surge, "--json").stdout)
+    assert doc["vout_max_v"] == pytest.approx(1.3 * 5.1) and doc["vout_max_default"] is True

@@ -114,16 +114,20 @@ def check(
     )
     from ..engine import analyse
 
+    conditions = conditions_from_options(ambient, profile, surge, vout_max)
     result = analyse(
         circuit,
         mains_from_options(mains, mains_tol, freq),
         tolerances_from_options(cap_tol, cap_loss, r_tol, zener_tol),
-        conditions_from_options(ambient, profile, surge, vout_max),
+        conditions,
     )
     doc = {
         "topology": result.topology,
         "ambient_c": result.ambient_c,
         "ok": result.ok,
+        # the highest bus voltage the load tolerates (--vout-max; default 1.3 x bus, [P])
+        "vout_max_v": conditions.vout_max(circuit),
+        "vout_max_default": conditions.vout_max_v is None,
         "nominal": result.nominal,
         "worst_case": result.worst_case,
         "inrush": result.inrush,
@@ -140,7 +144,7 @@ def check(
     if json:
         print_json(doc)
     else:
-        typer.echo(render_table(result))
+        typer.echo(render_table(result, conditions.vout_max(circuit)))
         echo_cautions()
     if not result.ok:
         raise typer.Exit(EXIT_FINDINGS)
@@ -209,7 +213,7 @@ def _surge_rows(s) -> list[tuple[str, str, str, str]]:
     return rows
 
 
-def render_table(a: Analysis) -> str:
+def render_table(a: Analysis, vout_max_v: float | None = None) -> str:
     """The human report: one aligned table (quantity, nominal, worst, corner) and verdicts."""
     n, w, i, s, d = a.nominal, a.worst_case, a.inrush, a.surge, a.discharge
     rows: list[tuple[str, str, str, str]] = [
@@ -335,6 +339,15 @@ def render_table(a: Analysis) -> str:
         ]
     elif s.corners is not None:
         rows += _surge_rows(s)
+    if s.corners is None and vout_max_v is not None:
+        rows.append(
+            (
+                "Bus limit (--vout-max)",
+                "",
+                _f(vout_max_v, "V"),
+                "no surge analysed (default 1.3 x bus voltage, common practice)",
+            )
+        )
     dis_note = "exempt (C <= 0.1 µF)" if d.exempt else ("ok" if d.ok else "FAILS")
     rows += [
         (
