@@ -55,8 +55,8 @@ current, so the error of an event located to within one step is second order in 
 quartering every step moves the reported stresses by < 0.3 % (measured: ~1e-4,
 tests/test_surge_circuit.py). All corners and phases run at once, vectorised over a batch, so
 the worst case is found by enumeration, not by assumption. Why not a fixed-step trapezoidal
-integration: it needs steps of a few ns through the 1.2 us front for the same accuracy (some
-20,000 steps over the window); the exact segments need 166.
+integration: it would need steps of a few ns through the 1.2 us front for the same accuracy
+(our estimate: some 20,000 steps over the window); the exact segments need 166.
 
 The pre-state (X capacitor and bus at the surge's phase) comes from the clamped-bus phasor
 picture at the standard's phases (:func:`pre_states_clamped`, within 1 V of the periodic
