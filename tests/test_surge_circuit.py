@@ -249,3 +249,24 @@ def test_clamped_pre_state_matches_the_periodic_solution(topology: str) -> None:
                 fast = sc.pre_states_clamped(c, 253.0, f, sc.SURGE_PHASES_DEG)
                 assert np.allclose(exact[0], fast[0], atol=1.0), (r, cap, f)
                 assert np.allclose(exact[1], fast[1], atol=0.01), (r, cap, f)
+
+
+def test_circuit_and_conditions_fields() -> None:
+    from selector.engine import Conditions
+    from selector.engine.circuit import DEFAULT_RESERVOIR_ESR_OHM, VOUT_MAX_FACTOR
+    from selector.errors import OutOfRangeError
+
+    c = Circuit(zener_voltage_v=12.0)
+    # documented defaults ([P] common practice): 0.3 ohm ESR, 1.3 x the bus voltage
+    assert c.reservoir_esr_ohm == DEFAULT_RESERVOIR_ESR_OHM == 0.3
+    assert Conditions().vout_max(c) == pytest.approx(VOUT_MAX_FACTOR * 12.0) == 15.6
+    half = c.with_values(topology="half-wave")
+    assert Conditions().vout_max(half) == pytest.approx(1.3 * (12.0 - 0.8))
+    assert Conditions(vout_max_v=20.0).vout_max(c) == 20.0
+    with pytest.raises(OutOfRangeError):
+        Circuit(reservoir_esr_ohm=-1.0)
+    # the pulse diode falls back to the steady-state diode
+    assert c.pulse_diode() == (c.diode_drop_v, c.diode_resistance_ohm)
+    assert c.with_values(pulse_diode_resistance_ohm=0.05).pulse_diode() == (0.8, 0.05)
+    assert sc.zener_surge_slope(c) == sc.DEFAULT_ZENER_SURGE_SLOPE_OHM
+    assert sc.zener_surge_slope(c.with_values(zener_impedance_ohm=2.0)) == 2.0
