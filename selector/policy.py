@@ -60,6 +60,9 @@ class Policy:
     rectifier_surge_fraction: float = 1.0
     #: fuse: switch-on I^2t <= fuse melting I^2t x this [P]
     fuse_i2t_fraction: float = 0.5
+    #: Zener: surge peak power <= non-repetitive pulse power rating (scaled to the pulse's
+    #: width) x this [P]
+    zener_pulse_fraction: float = 1.0
     #: fuse: fault current with a shorted X capacitor >= rated current x this [P]
     fuse_fault_factor: float = 2.0
     #: fusible resistor: fault power with a shorted X capacitor >= rated power x this [P]
@@ -92,6 +95,7 @@ _FRACTIONS: Final[frozenset[str]] = frozenset(
         "rectifier_voltage_fraction",
         "rectifier_surge_fraction",
         "fuse_i2t_fraction",
+        "zener_pulse_fraction",
         "burst_droop_fraction",
         "output_ripple_fraction",
     }

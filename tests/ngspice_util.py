@@ -26,11 +26,15 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from selector.engine.surge_circuit import ExpDiode
+
 VT = 0.025852  # thermal voltage at 27 C [V] (kT/q)
 IS = 1e-12
 RS = 0.1
 IBV = 10e-3
 DIODE_MODEL = f".model DR D(IS={IS} N=1 RS={RS} CJO=20p)"
+#: the same diode for the engine: lines fitted to it over a pulse's current range
+PHYSICAL_DIODE = ExpDiode(is_a=IS, n=1.0, rs_ohm=RS, vt_v=VT)
 
 
 def ngspice_path() -> str | None:
@@ -221,4 +225,191 @@ def switch_on_metrics(sc: Scenario, window_s: float) -> dict[str, float]:
     return {
         "peak_current_a": float(np.max(np.abs(i))),
         "series_r_energy_j": sc.r_ohm * _trapz(i * i, t),
+    }
+
+
+# --- surge (IEC 61000-4-5 combination wave through the whole circuit) ------------------------
+
+
+@dataclass
+class SurgeScenario:
+    """One surge comparison case (SI): the circuit, the surge level [V], the mains phase [deg]
+    at which it starts and its polarity (+1/-1). ``zener_rs`` is the Zener model's RS."""
+
+    name: str
+    topology: str
+    cap_f: float
+    r_ohm: float
+    vz_v: float
+    reservoir_f: float
+    esr_ohm: float
+    level_v: float
+    phase_deg: float
+    polarity: int
+    mains_v: float = 230.0
+    freq_hz: float = 50.0
+    bleeder_ohm: float = 1e6
+    zener_rs: float = RS
+
+
+def _surge_circuit_lines(
+    sc: SurgeScenario, vcx: float, vres: float, u0: float | None = None
+) -> tuple[list[str], str]:
+    """The dropper from node ``line`` on (X capacitor and reservoir with their initial
+    voltages); returns (lines, ngspice vectors to write). With the mains voltage ``u0`` at the
+    start, every node gets a consistent initial voltage (otherwise the 100 pF node capacitors
+    start at 0 V and their charging spike would be read as the surge's peak current)."""
+    lines = [
+        f"R1 line n1 {sc.r_ohm}",
+        f"C1 n1 n2 {sc.cap_f} IC={vcx}",
+        f"RB n1 n2 {sc.bleeder_ohm}",
+        "VSENSE n2 n3 0",
+        "CP1 n1 0 100p",
+        "CP2 n3 0 100p",
+        DIODE_MODEL,
+        f".model DZ D(IS={IS} N=1 RS={sc.zener_rs} CJO=20p BV={sc.vz_v} IBV={IBV})",
+    ]
+    esr = max(sc.esr_ohm, 1e-6)
+    if sc.topology == "bridge":
+        lines += [
+            "D1 n3 pb DR",
+            "D2 nm n3 DR",
+            "D3 0 pb DR",
+            "D4 nm 0 DR",
+            "VB pb p 0",
+            f"RESR p pr {esr}",
+            f"CR pr nm {sc.reservoir_f} IC={vres}",
+            "VZS p pz 0",
+            "DZ1 nm pz DZ",
+            "CP3 p 0 100p",
+            "CP4 nm 0 100p",
+            "RREF nm 0 100Meg",
+        ]
+        p, nm = vres / 2, -vres / 2
+        if u0 is not None:
+            # the bridge state the start voltages imply; the bridge's diodes get at most 0.75 V
+            n3 = u0 - vcx
+            if n3 > p + 0.7:
+                nm, p = -0.7, vres - 0.7
+                n3 = min(n3, p + 0.75)
+            elif n3 < nm - 0.7:
+                p, nm = -0.7, -0.7 - vres
+                n3 = max(n3, nm - 0.75)
+            lines.append(f".ic v(line)={n3 + vcx} v(n1)={n3 + vcx} v(n2)={n3} v(n3)={n3}")
+        lines.append(f".ic v(p)={p} v(pb)={p} v(pr)={p} v(nm)={nm}")
+        vecs = "i(vsense) v(n1)-v(n2) i(vzs) v(p)-v(nm) v(pr)-v(nm)"
+    else:
+        lines += [
+            "VZS n3 az 0",
+            "DZ1 0 az DZ",
+            "D1 n3 pb DR",
+            "VB pb p 0",
+            f"RESR p pr {esr}",
+            f"CR pr 0 {sc.reservoir_f} IC={vres}",
+            f".ic v(p)={vres} v(pr)={vres}",
+        ]
+        if u0 is not None:
+            # node A is held by the Zener (forward or breakdown) or the diode into the bus
+            n3 = min(max(u0 - vcx, -0.75), vres + 0.75, sc.vz_v + 0.2)
+            lines.append(
+                f".ic v(line)={n3 + vcx} v(n1)={n3 + vcx} v(n2)={n3} v(n3)={n3} v(az)={n3} "
+                f"v(pb)={vres}"
+            )
+        vecs = "i(vsense) v(n1)-v(n2) i(vzs) v(n3) v(p) v(pr) i(vb)"
+    return lines, vecs
+
+
+def _control(tstop: float, tmax: float, vecs: str) -> list[str]:
+    return [
+        f".tran {tmax} {tstop} 0 {tmax} uic",
+        ".options reltol=1e-4 abstol=1e-10 vntol=1e-7",
+        ".control",
+        "set wr_singlescale",
+        "set wr_vecnames",
+        "run",
+        f"wrdata OUT {vecs}",
+        ".endc",
+        ".end",
+    ]
+
+
+def surge_pre_state(sc: SurgeScenario, cycles: int = 4) -> tuple[float, float]:
+    """ngspice's own X-capacitor and reservoir voltages at the surge phase: ``cycles`` mains
+    cycles from a reservoir pre-charged near Vz (no load), ending at ``phase_deg``."""
+    vpk = math.sqrt(2) * sc.mains_v
+    v0 = sc.vz_v if sc.topology == "bridge" else sc.vz_v - 0.7
+    body, vecs = _surge_circuit_lines(sc, 0.0, v0)
+    tstop = (cycles + sc.phase_deg / 360.0) / sc.freq_hz
+    text = "\n".join(
+        [
+            f"* dropper surge pre-state {sc.name}",
+            f"VS line 0 SIN(0 {vpk} {sc.freq_hz} 0 0 0)",
+            *body,
+            *_control(tstop, 2e-6, vecs),
+        ]
+    )
+    d = run(text + "\n", "OUT")
+    vcx = float(d[-1, 2])
+    vres = float(d[-1, 5]) if sc.topology == "bridge" else float(d[-1, 6])
+    return vcx, vres
+
+
+def surge_netlist(sc: SurgeScenario, gen, u0: float, vcx: float, vres: float, window: float):
+    """The surge netlist: the generator (``gen``: element values, charged to ``u0`` with the
+    scenario's polarity) between the mains source and the dropper, from the pre-state."""
+    vpk = math.sqrt(2) * sc.mains_v
+    u_start = vpk * math.sin(math.radians(sc.phase_deg))
+    body, vecs = _surge_circuit_lines(sc, vcx, vres, u_start)
+    lines = [
+        f"* dropper surge {sc.name}",
+        f"VS a 0 SIN(0 {vpk} {sc.freq_hz} 0 0 {sc.phase_deg})",
+        f"CC g1 a {gen.cc_f} IC={sc.polarity * u0}",
+        f"RS1 g1 a {gen.rs1_ohm}",
+        f"LR g1 g2 {gen.lr_h} IC=0",
+        f"RM g2 line {gen.rm_ohm}",
+        f"RS2 line a {gen.rs2_ohm}",
+        f".ic v(a)={u_start} v(g1)={u_start + sc.polarity * u0} v(g2)={u_start}",
+        *body,
+        *_control(window, 20e-9, vecs),
+    ]
+    return "\n".join(lines) + "\n"
+
+
+def surge_metrics(sc: SurgeScenario, gen, u0: float, window: float, pre=None) -> dict:
+    """Run the surge in ngspice and return the stresses the engine reports (same names)."""
+    vcx, vres = pre if pre is not None else surge_pre_state(sc)
+    d = run(surge_netlist(sc, gen, u0, vcx, vres, window), "OUT")
+    t = d[:, 0]
+    i = d[:, 1]
+    vx = d[:, 2]
+    iz = d[:, 3]
+    if sc.topology == "bridge":
+        vz = d[:, 4]
+        bus = d[:, 4]
+        pos, neg = np.maximum(i, 0.0), np.maximum(-i, 0.0)
+        rect_pk = max(float(np.max(pos)), float(np.max(neg)))
+        rect_i2t = max(_trapz(pos * pos, t), _trapz(neg * neg, t))
+    else:
+        vz = d[:, 4]
+        bus = d[:, 5]
+        idd = np.maximum(d[:, 7], 0.0)
+        fwd = np.maximum(-iz, 0.0)
+        rect_pk = max(float(np.max(idd)), float(np.max(fwd)))
+        rect_i2t = max(_trapz(idd * idd, t), _trapz(fwd * fwd, t))
+    i_cx = i - vx / sc.bleeder_ohm
+    i2t = _trapz(i * i, t)
+    return {
+        "pre_state": (vcx, vres),
+        "peak_current_a": float(np.max(np.abs(i))),
+        "series_r_energy_j": sc.r_ohm * i2t,
+        "x_cap_peak_total_v": float(np.max(np.abs(vx))),
+        "x_cap_voltage_step_v": float(np.max(np.abs(vx - vx[0]))),
+        "x_cap_dvdt_v_per_s": float(np.max(np.abs(i_cx))) / sc.cap_f,
+        "zener_peak_current_a": float(np.max(np.maximum(iz, 0.0))),
+        "zener_pulse_energy_j": _trapz(np.abs(iz * vz), t),
+        "zener_peak_power_w": float(np.max(np.abs(iz * vz))),
+        "rectifier_peak_current_a": rect_pk,
+        "rectifier_i2t_a2s": rect_i2t,
+        "fuse_i2t_a2s": i2t,
+        "bus_peak_v": float(np.max(bus)),
     }

@@ -242,3 +242,74 @@ def test_bad_harmonics_exit_two(text: str, token: str) -> None:
 def test_harmonics_option_on_every_circuit_command(command: str) -> None:
     r = invoke(command, "--help")
     assert "--harmonics" in r.stdout
+
+
+SURGE_EXAMPLE = [
+    "check", "--mains", "230", "--cap", "330n", "--series-r", "47", "--bleeder", "1M",
+    "--zener", "5.1", "--reservoir", "470u", "--load", "12m", "--surge", "2k",
+]  # fmt: skip
+
+
+def test_surge_json_keys_and_acceptance() -> None:
+    # issue 11: the surge section keeps its keys and gains the whole-circuit stresses, each with
+    # its corner and phase; with 47 ohm at 2 kV the bus peak is well above 5.1 V, with 470 ohm
+    # it stays below 1.3 x 5.1 V (the default --vout-max, common practice [P])
+    doc = json.loads(invoke(*SURGE_EXAMPLE, "--json").stdout)
+    s = doc["surge"]
+    old = {
+        "level_v",
+        "peak_current_a",
+        "series_r_energy_j",
+        "series_r_peak_voltage_v",
+        "x_cap_voltage_step_v",
+        "x_cap_dvdt_v_per_s",
+        "i2t_a2s",
+        "corner",
+    }
+    new = {
+        "zener_peak_current_a",
+        "zener_pulse_energy_j",
+        "rectifier_peak_current_a",
+        "rectifier_i2t_a2s",
+        "fuse_i2t_a2s",
+        "bus_peak_v",
+        "x_cap_peak_total_v",
+        "phase_deg",
+        "vout_max_v",
+        "bus_ok",
+        "reservoir_esr_ohm",
+        "corners",
+    }
+    assert old | new <= set(s)
+    assert s["vout_max_v"] == pytest.approx(1.3 * 5.1)
+    assert s["bus_peak_v"] > 2 * 5.1 and s["bus_ok"] is False
+    assert s["phase_deg"] in (0.0, 90.0, 180.0, 270.0)
+    assert {"phase_deg", "polarity", "cap_f", "r_ohm"} <= set(s["corners"]["bus_peak_v"])
+    doc470 = json.loads(
+        invoke(*[a if a != "47" else "470" for a in SURGE_EXAMPLE], "--json").stdout
+    )
+    assert doc470["surge"]["bus_peak_v"] < 1.3 * 5.1 and doc470["surge"]["bus_ok"] is True
+
+
+def test_surge_options_reservoir_esr_zener_z_vout_max() -> None:
+    base = json.loads(invoke(*SURGE_EXAMPLE, "--json").stdout)["surge"]
+    doc = json.loads(
+        invoke(
+            *SURGE_EXAMPLE, "--reservoir-esr", "1", "--zener-z", "2", "--vout-max", "40", "--json"
+        ).stdout
+    )["surge"]
+    assert doc["reservoir_esr_ohm"] == 1.0 and doc["zener_slope_ohm"] == 2.0
+    assert doc["vout_max_v"] == 40.0 and doc["bus_ok"] is True
+    assert doc["vout_max_default"] is False and base["vout_max_default"] is True
+    # more ESR and a softer Zener: the bus rises higher (series resistances, circuit theory)
+    assert doc["bus_peak_v"] > base["bus_peak_v"]
+    table = invoke(*SURGE_EXAMPLE).stdout
+    assert "Surge bus peak" in table and "Bus limit (--vout-max)" in table
+    assert "default 1.3 x bus voltage (common practice)" in table
+    r = runner.invoke(app, [*SURGE_EXAMPLE, "--reservoir-esr", "-1"])
+    assert r.exit_code == 2
+    # the bus limit shows in every output, also without a surge
+    no_surge = [*SURGE_EXAMPLE[:-1], "0"]
+    assert "Bus limit (--vout-max)" in invoke(*no_surge).stdout
+    doc = json.loads(invoke(*no_surge, "--json").stdout)
+    assert doc["vout_max_v"] == pytest.approx(1.3 * 5.1) and doc["vout_max_default"] is True

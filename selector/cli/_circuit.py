@@ -18,6 +18,7 @@ import typer
 
 from ..engine import Circuit, Conditions, Load, Mains, Regulator, Tolerances
 from ..engine.circuit import (
+    DEFAULT_RESERVOIR_ESR_OHM,
     DISCHARGE_PROFILES,
     HARMONIC_PROFILES,
     MAX_HARMONIC_ORDER,
@@ -50,11 +51,13 @@ __all__ = [
     "ProfileOpt",
     "QuiescentOpt",
     "RegulatorOpt",
+    "ReservoirEsrOpt",
     "ReservoirOpt",
     "RTolOpt",
     "SeriesROpt",
     "SurgeOpt",
     "TopologyOpt",
+    "VoutMaxOpt",
     "ZenerOpt",
     "ZenerTolOpt",
     "ZenerZOpt",
@@ -100,6 +103,21 @@ ZenerOpt = Annotated[str, typer.Option("--zener", help="Zener voltage, V (12).")
 ZenerTolOpt = Annotated[str, typer.Option("--zener-tol", help="Zener voltage tolerance, %.")]
 ZenerZOpt = Annotated[str, typer.Option("--zener-z", help="Zener dynamic impedance, ohm.")]
 ReservoirOpt = Annotated[str, typer.Option("--reservoir", help="Reservoir capacitor, F (220u).")]
+ReservoirEsrOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--reservoir-esr",
+        help="Reservoir ESR, ohm (default 0.3, common practice); used by the surge model.",
+    ),
+]
+VoutMaxOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--vout-max",
+        help="Highest bus voltage the load tolerates, V (default 1.3 x the bus voltage, "
+        "common practice); the surge's bus peak is judged against it.",
+    ),
+]
 LoadOpt = Annotated[str, typer.Option("--load", help="DC load current, A (15m).")]
 LoadROpt = Annotated[
     str | None, typer.Option("--load-r", help="Load as a resistor, ohm (instead of --load).")
@@ -268,9 +286,9 @@ def tolerances_from_options(
 
 
 def conditions_from_options(
-    ambient: str = "40", profile: str = "iec60335", surge: str = "1k"
+    ambient: str = "40", profile: str = "iec60335", surge: str = "1k", vout_max: str | None = None
 ) -> Conditions:
-    """Ambient, discharge profile and surge level from the option texts."""
+    """Ambient, discharge profile, surge level and highest bus voltage from the option texts."""
     prof = profile.strip().lower().replace("-", "").replace(" ", "")
     if prof not in DISCHARGE_PROFILES:
         raise BadValueError(
@@ -280,6 +298,7 @@ def conditions_from_options(
         ambient_c=_num(ambient, None, "--ambient"),
         profile=prof,
         surge_v=_num(surge, "V", "--surge"),
+        vout_max_v=_num(vout_max, "V", "--vout-max") if vout_max else None,
     )
 
 
@@ -321,6 +340,7 @@ def circuit_from_options(
     regulator: str | None = None,
     dropout: str = "1",
     quiescent: str = "5m",
+    reservoir_esr: str | None = None,
 ) -> Circuit:
     """The circuit from the option texts. ``cap`` must hold at least one value."""
     if not cap:
@@ -354,6 +374,11 @@ def circuit_from_options(
         reservoir_f=_num(reservoir, "F", "--reservoir"),
         load=load or Load(),
         regulator=reg,
+        reservoir_esr_ohm=(
+            _num(reservoir_esr, "ohm", "--reservoir-esr")
+            if reservoir_esr
+            else DEFAULT_RESERVOIR_ESR_OHM
+        ),
     )
 
 

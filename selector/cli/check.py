@@ -35,11 +35,13 @@ from ._circuit import (
     ProfileOpt,
     QuiescentOpt,
     RegulatorOpt,
+    ReservoirEsrOpt,
     ReservoirOpt,
     RTolOpt,
     SeriesROpt,
     SurgeOpt,
     TopologyOpt,
+    VoutMaxOpt,
     ZenerOpt,
     ZenerTolOpt,
     ZenerZOpt,
@@ -73,6 +75,7 @@ def check(
     zener_tol: ZenerTolOpt = "5",
     zener_z: ZenerZOpt = "0",
     reservoir: ReservoirOpt = "220u",
+    reservoir_esr: ReservoirEsrOpt = None,
     load: LoadOpt = "0",
     load_r: LoadROpt = None,
     burst: BurstOpt = None,
@@ -86,6 +89,7 @@ def check(
     ambient: AmbientOpt = "40",
     profile: ProfileOpt = "iec60335",
     surge: SurgeOpt = "1k",
+    vout_max: VoutMaxOpt = None,
     json: JsonOpt = False,
     db: DbOpt = None,
     report: Annotated[
@@ -109,19 +113,23 @@ def check(
         regulator=regulator,
         dropout=dropout,
         quiescent=quiescent,
+        reservoir_esr=reservoir_esr,
     )
     from ..engine import analyse
     from ..engine.distortion import mains_record
 
     supply = mains_from_options(mains, mains_tol, freq, harmonics)
     tolerances = tolerances_from_options(cap_tol, cap_loss, r_tol, zener_tol)
-    conditions = conditions_from_options(ambient, profile, surge)
+    conditions = conditions_from_options(ambient, profile, surge, vout_max)
     result = analyse(circuit, supply, tolerances, conditions)
     doc = {
         "topology": result.topology,
         "ambient_c": result.ambient_c,
         "ok": result.ok,
         "mains": mains_record(supply),
+        # the highest bus voltage the load tolerates (--vout-max; default 1.3 x bus, [P])
+        "vout_max_v": conditions.vout_max(circuit),
+        "vout_max_default": conditions.vout_max_v is None,
         "nominal": result.nominal,
         "worst_case": result.worst_case,
         "inrush": result.inrush,
@@ -141,7 +149,7 @@ def check(
     if json:
         print_json(doc)
     else:
-        typer.echo(render_table(result))
+        typer.echo(render_table(result, conditions.vout_max(circuit)))
         typer.echo(describe_mains(doc["mains"]))
         echo_cautions()
     if not result.ok:
@@ -156,7 +164,62 @@ def _f(value: float | None, unit: str) -> str:
     return format_value(value, unit)
 
 
-def render_table(a: Analysis) -> str:
+def _surge_corner(rec: dict) -> str:
+    sign = "+" if rec.get("polarity", 1) > 0 else "-"
+    return f"{describe_corner(rec)} {rec['phase_deg']:g}° {sign}"
+
+
+def _surge_rows(s) -> list[tuple[str, str, str, str]]:
+    """Surge through the whole circuit: each stress with its corner, phase and polarity."""
+    c = s.corners
+    lvl = format_value(s.level_v, "V")
+    out = [
+        (f"Surge {lvl} peak current", "", _f(s.peak_current_a, "A"), "peak_current_a"),
+        ("Surge peak voltage on R", "", _f(s.series_r_peak_voltage_v, "V"), "peak_current_a"),
+        ("Surge energy in R", "", _f(s.series_r_energy_j, "J"), "series_r_energy_j"),
+        ("Surge X cap step", "", _f(s.x_cap_voltage_step_v, "V"), "x_cap_voltage_step_v"),
+        ("Surge X cap total peak", "", _f(s.x_cap_peak_total_v, "V"), "x_cap_peak_total_v"),
+        ("Surge X cap dV/dt", "", _f(s.x_cap_dvdt_v_per_s, "V/s"), "x_cap_dvdt_v_per_s"),
+        ("Surge Zener peak", "", _f(s.zener_peak_current_a, "A"), "zener_peak_current_a"),
+        ("Surge Zener energy", "", _f(s.zener_pulse_energy_j, "J"), "zener_pulse_energy_j"),
+        ("Surge Zener peak power", "", _f(s.zener_peak_power_w, "W"), "zener_peak_power_w"),
+        (
+            "Surge rectifier peak",
+            "",
+            _f(s.rectifier_peak_current_a, "A"),
+            "rectifier_peak_current_a",
+        ),
+        ("Surge rectifier I²t", "", f"{s.rectifier_i2t_a2s:.3g} A²s", "rectifier_i2t_a2s"),
+        ("Surge fuse I²t", "", f"{s.fuse_i2t_a2s:.3g} A²s", "fuse_i2t_a2s"),
+        ("Surge bus peak", "", _f(s.bus_peak_v, "V"), "bus_peak_v"),
+    ]
+    rows = [(a, b, v, _surge_corner(c[key])) for a, b, v, key in out]
+    rows.append(
+        (
+            "Surge model ESR / Zener slope",
+            "",
+            f"{_f(s.reservoir_esr_ohm, 'ohm')} / {_f(s.zener_slope_ohm, 'ohm')}",
+            "defaults 0.3 Ω / 1 Ω when not given (common practice)",
+        )
+    )
+    verdict = "ok" if s.bus_ok else "EXCEEDED"
+    rows.append(
+        (
+            "Bus limit (--vout-max)",
+            "",
+            _f(s.vout_max_v, "V"),
+            f"{verdict}; "
+            + (
+                "default 1.3 x bus voltage (common practice)"
+                if s.vout_max_default
+                else "given with --vout-max"
+            ),
+        )
+    )
+    return rows
+
+
+def render_table(a: Analysis, vout_max_v: float | None = None) -> str:
     """The human report: one aligned table (quantity, nominal, worst, corner) and verdicts."""
     n, w, i, s, d = a.nominal, a.worst_case, a.inrush, a.surge, a.discharge
     rows: list[tuple[str, str, str, str]] = [
@@ -272,7 +335,7 @@ def render_table(a: Analysis) -> str:
         ("Switch-on I²t", "", f"{i.i2t_a2s:.3g} A²s", ic),
         ("Switch-on X cap dV/dt", "", _f(i.x_cap_dvdt_v_per_s, "V/s"), ic),
     ]
-    if s.peak_current_a is not None:
+    if s.peak_current_a is not None and s.corners is None:
         sc = f"{format_value(s.level_v, 'V')} IEC 61000-4-5, 2 Ω"
         rows += [
             ("Surge peak current", "", _f(s.peak_current_a, "A"), sc),
@@ -280,6 +343,17 @@ def render_table(a: Analysis) -> str:
             ("Surge energy in R", "", _f(s.series_r_energy_j, "J"), sc),
             ("Surge step on X cap", "", _f(s.x_cap_voltage_step_v, "V"), sc),
         ]
+    elif s.corners is not None:
+        rows += _surge_rows(s)
+    if s.corners is None and vout_max_v is not None:
+        rows.append(
+            (
+                "Bus limit (--vout-max)",
+                "",
+                _f(vout_max_v, "V"),
+                "no surge analysed (default 1.3 x bus voltage, common practice)",
+            )
+        )
     dis_note = "exempt (C <= 0.1 µF)" if d.exempt else ("ok" if d.ok else "FAILS")
     rows += [
         (

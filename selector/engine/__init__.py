@@ -18,6 +18,7 @@ from typing import TYPE_CHECKING
 # to declare its options - does not pull numpy into `dropper --help`.
 _WHERE = {
     "closed_form": None,
+    "surge_circuit": None,
     "Analysis": "analysis",
     "Corner": "analysis",
     "Nominal": "analysis",
@@ -25,6 +26,7 @@ _WHERE = {
     "analyse": "analysis",
     "corner_circuit": "analysis",
     "corners": "analysis",
+    "surge_through_circuit": "analysis",
     "DISCHARGE_PROFILES": "circuit",
     "TOPOLOGIES": "circuit",
     "Circuit": "circuit",
@@ -69,8 +71,17 @@ def __getattr__(name: str):
 
 
 if TYPE_CHECKING:  # pragma: no cover
-    from . import closed_form
-    from .analysis import Analysis, Corner, Nominal, WorstCase, analyse, corner_circuit, corners
+    from . import closed_form, surge_circuit
+    from .analysis import (
+        Analysis,
+        Corner,
+        Nominal,
+        WorstCase,
+        analyse,
+        corner_circuit,
+        corners,
+        surge_through_circuit,
+    )
     from .circuit import (
         DISCHARGE_PROFILES,
         TOPOLOGIES,
@@ -128,6 +139,8 @@ __all__ = [
     "solve_steady_state",
     "startup",
     "surge",
+    "surge_circuit",
+    "surge_through_circuit",
     "surge_wave",
     "switch_on_waveform",
     "waveforms",

@@ -34,6 +34,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..errors import OutOfRangeError
 from . import closed_form as cf
 from .circuit import Circuit, Conditions, Mains, Tolerances
 from .steady_state import SteadyState, solve_steady_state
@@ -58,6 +59,7 @@ __all__ = [
     "corner_circuit",
     "corners",
     "min_dc_current",
+    "surge_through_circuit",
     "weakest_corner",
 ]
 
@@ -221,6 +223,50 @@ def corner_circuit(circuit: Circuit, k: Corner) -> Circuit:
     return c
 
 
+def surge_through_circuit(
+    circuit: Circuit,
+    grid: list[Corner],
+    level_v: float,
+    vout_max_v: float,
+    vout_max_default: bool = True,
+) -> Surge:
+    """The surge section from :func:`.surge_circuit.worst_surge`: every stress at its own worst
+    corner, phase and polarity over ``grid``; ``bus_ok`` compares the bus peak with
+    ``vout_max_v``. The corners' load is off (see :func:`.surge_circuit.surge_case`)."""
+    from .surge_circuit import worst_surge, zener_surge_slope
+
+    # the bleeder and the Zener voltage follow the grid; the load does not change the stresses
+    distinct = list(dict.fromkeys(grid))
+    vals, where = worst_surge(circuit, distinct, level_v)
+    return Surge(
+        level_v=level_v,
+        peak_current_a=vals["peak_current_a"],
+        series_r_energy_j=vals["series_r_energy_j"],
+        series_r_peak_voltage_v=vals["series_r_peak_voltage_v"],
+        x_cap_voltage_step_v=vals["x_cap_voltage_step_v"],
+        x_cap_dvdt_v_per_s=vals["x_cap_dvdt_v_per_s"],
+        i2t_a2s=vals["fuse_i2t_a2s"],
+        corner=where["peak_current_a"],
+        zener_peak_current_a=vals["zener_peak_current_a"],
+        zener_pulse_energy_j=vals["zener_pulse_energy_j"],
+        zener_peak_power_w=vals["zener_peak_power_w"],
+        rectifier_peak_current_a=vals["rectifier_peak_current_a"],
+        rectifier_i2t_a2s=vals["rectifier_i2t_a2s"],
+        fuse_i2t_a2s=vals["fuse_i2t_a2s"],
+        bus_peak_v=vals["bus_peak_v"],
+        x_cap_peak_total_v=vals["x_cap_peak_total_v"],
+        phase_deg=where["peak_current_a"]["phase_deg"],
+        vout_max_v=vout_max_v,
+        vout_max_default=vout_max_default,
+        bus_ok=bool(vals["bus_peak_v"] <= vout_max_v),
+        reservoir_esr_ohm=circuit.reservoir_esr_ohm,
+        zener_slope_ohm=zener_surge_slope(circuit),
+        corners=where,
+        method="IEC 61000-4-5 generator circuit in series with the mains, whole circuit, "
+        "all corners x 8 phases x both polarities",
+    )
+
+
 def _regulator_figures(circuit: Circuit, st: SteadyState):
     reg = circuit.regulator
     if reg is None:
@@ -276,11 +322,15 @@ def analyse(
     tolerances: Tolerances | None = None,
     conditions: Conditions | None = None,
     progress: Callable[[int, int], None] | None = None,
+    surge_model: str = "circuit",
 ) -> Analysis:
     """Worst-case analysis of ``circuit`` on ``mains`` (SI throughout). See module docstring.
 
     The closed forms pick the extreme corner of each quantity; those corners (usually 4-6
-    distinct ones) and the nominal point are solved exactly.
+    distinct ones) and the nominal point are solved exactly. The surge: ``surge_model``
+    ``"circuit"`` (default) simulates the generator through the whole circuit at every corner
+    and phase (:func:`surge_through_circuit`); ``"loop"`` is the narrow series-loop model of
+    :func:`.transients.surge` at the switch-on corner (what the design screen bounds).
     """
     tol = tolerances or Tolerances()
     cond = conditions or Conditions()
@@ -466,9 +516,17 @@ def analyse(
     # switch-on at the higher crest of the supply states (the distorted one when it peaks)
     hs_on = hs_given if mains.crest_factor > 1.0 else ()
     ins = inrush(cin, mains.high_v, f_hi, record(k_in, hs_on, False), harmonics=hs_on)
-    sur = (
-        surge(cin, cond.surge_v, k_in.record(circuit)) if cond.surge_v > 0 else surge(cin, 0.0, {})
-    )
+    # the surge rides on the fundamental (the surge model carries the mains as a sine)
+    if cond.surge_v <= 0 or surge_model not in ("circuit", "loop"):
+        if surge_model not in ("circuit", "loop"):
+            raise OutOfRangeError(f"surge model {surge_model!r}: one of circuit, loop")
+        sur = surge(cin, 0.0, {})
+    elif surge_model == "loop":
+        sur = surge(cin, cond.surge_v, k_in.record(circuit))
+    else:
+        sur = surge_through_circuit(
+            circuit, grid, cond.surge_v, cond.vout_max(circuit), cond.vout_max_v is None
+        )
     rb_max = max(k.bleeder_ohm for k in grid)
     k_dis = Corner(mains.high_v, f_hi, c_max, r_min, rb_max, circuit.zener_voltage_v, False)
     dis = discharge(

@@ -20,10 +20,12 @@ from dataclasses import dataclass, field, replace
 from ..errors import OutOfRangeError
 
 __all__ = [
+    "DEFAULT_RESERVOIR_ESR_OHM",
     "DISCHARGE_PROFILES",
     "EN50160_HARMONICS",
     "HARMONIC_PROFILES",
     "TOPOLOGIES",
+    "VOUT_MAX_FACTOR",
     "Circuit",
     "Conditions",
     "Harmonic",
@@ -35,6 +37,10 @@ __all__ = [
 
 TOPOLOGIES = ("bridge", "half-wave")
 DISCHARGE_PROFILES = ("iec60335", "iec62368", "iec60950")
+#: reservoir ESR [ohm] assumed when the part gives none: a general-purpose aluminium electrolytic
+#: of some 100 uF to 1 mF lies around 0.05-0.5 ohm at 100 kHz, small cans higher; 0.3 ohm is our
+#: choice ([P] common practice, no source). Only the surge uses it (bus peak, Zener share).
+DEFAULT_RESERVOIR_ESR_OHM = 0.3
 
 
 def _need(ok: bool, what: str) -> None:
@@ -227,6 +233,14 @@ class Circuit:
     ``bleeder_resistance_ohm`` may be ``math.inf`` (no bleeder). ``diode_drop_v`` and
     ``diode_resistance_ohm`` describe one rectifier diode (bridge: two conduct in series) and the
     Zener's forward direction; ``zener_impedance_ohm`` is the dynamic resistance in breakdown.
+    ``reservoir_esr_ohm`` is the reservoir's equivalent series resistance (catalogue-independent;
+    default :data:`DEFAULT_RESERVOIR_ESR_OHM`); the steady state leaves it out (its drop at the
+    ripple current is mV), the surge model includes it. ``pulse_diode_drop_v`` and
+    ``pulse_diode_resistance_ohm`` are the rectifier's straight line in the high-current region
+    (amperes to tens of amperes: switch-on and surge); ``None`` takes the steady-state values. A
+    junction's tangent at tens of mA has a slope resistance ``VT / I`` far above its ohmic
+    resistance and overstates the drop at 20 A by volts (switch-on peaks a few % low); see
+    :meth:`pulse_diode` and :meth:`.surge_circuit.ExpDiode.line`.
     """
 
     topology: str = "bridge"
@@ -240,6 +254,9 @@ class Circuit:
     reservoir_f: float = 220e-6
     load: Load = field(default_factory=Load)
     regulator: Regulator | None = None
+    reservoir_esr_ohm: float = DEFAULT_RESERVOIR_ESR_OHM
+    pulse_diode_drop_v: float | None = None
+    pulse_diode_resistance_ohm: float | None = None
 
     def __post_init__(self) -> None:
         _need(
@@ -259,6 +276,12 @@ class Circuit:
         _need(1.0 <= self.zener_voltage_v <= 200, f"Zener {self.zener_voltage_v} V out of 1..200 V")
         _need(0 <= self.zener_impedance_ohm <= 1e3, "Zener impedance outside 0..1 kohm")
         _need(1e-7 <= self.reservoir_f <= 0.1, f"reservoir {self.reservoir_f} F out of range")
+        for v in (self.pulse_diode_drop_v, self.pulse_diode_resistance_ohm):
+            _need(v is None or 0 <= v <= 100, f"pulse diode value {v} outside 0..100")
+        _need(
+            0 <= self.reservoir_esr_ohm <= 100,
+            f"reservoir ESR {self.reservoir_esr_ohm} ohm outside 0..100 ohm",
+        )
         if self.regulator is not None:
             _need(
                 self.regulator.output_v < self.bus_voltage_v,
@@ -287,6 +310,19 @@ class Circuit:
         """A copy with some fields changed (``dataclasses.replace``)."""
         return replace(self, **changes)
 
+    def pulse_diode(self) -> tuple[float, float]:
+        """(drop [V], resistance [ohm]) of one rectifier diode for pulses (switch-on, surge)."""
+        vf = self.diode_drop_v if self.pulse_diode_drop_v is None else self.pulse_diode_drop_v
+        rd = self.pulse_diode_resistance_ohm
+        return vf, self.diode_resistance_ohm if rd is None else rd
+
+    def for_pulses(self) -> Circuit:
+        """A copy whose diode is the pulse diode (for the switch-on and surge models)."""
+        vf, rd = self.pulse_diode()
+        if vf == self.diode_drop_v and rd == self.diode_resistance_ohm:
+            return self
+        return replace(self, diode_drop_v=vf, diode_resistance_ohm=rd)
+
     @property
     def has_bleeder(self) -> bool:
         return math.isfinite(self.bleeder_resistance_ohm)
@@ -307,13 +343,21 @@ class Tolerances:
             _need(0 <= v < 0.9, f"{name} {v} outside 0..0.9")
 
 
+#: default highest allowed bus voltage as a multiple of the nominal bus voltage ([P] common
+#: practice, no source: parts on a clamped bus are commonly rated for 1.3 x its voltage)
+VOUT_MAX_FACTOR = 1.3
+
+
 @dataclass(frozen=True)
 class Conditions:
-    """Ambient temperature [C], discharge profile, IEC 61000-4-5 surge level [V] (0: none)."""
+    """Ambient temperature [C], discharge profile, IEC 61000-4-5 surge level [V] (0: none), and
+    the highest bus voltage the load tolerates ``vout_max_v`` [V] (None: ``VOUT_MAX_FACTOR`` x
+    the nominal bus voltage, see :meth:`vout_max`)."""
 
     ambient_c: float = 40.0
     profile: str = "iec60335"
     surge_v: float = 1000.0
+    vout_max_v: float | None = None
 
     def __post_init__(self) -> None:
         _need(
@@ -322,3 +366,13 @@ class Conditions:
         )
         _need(-40 <= self.ambient_c <= 125, f"ambient {self.ambient_c} C outside -40..125 C")
         _need(0 <= self.surge_v <= 10e3, f"surge level {self.surge_v} V outside 0..10 kV")
+        _need(
+            self.vout_max_v is None or 0 < self.vout_max_v <= 1000,
+            f"highest bus voltage {self.vout_max_v} V outside 0..1000 V",
+        )
+
+    def vout_max(self, circuit: Circuit) -> float:
+        """The highest allowed bus voltage [V]: the given one, else 1.3 x the bus voltage [P]."""
+        if self.vout_max_v is not None:
+            return self.vout_max_v
+        return VOUT_MAX_FACTOR * circuit.bus_voltage_v

@@ -58,7 +58,16 @@ class Inrush:
 
 @dataclass
 class Surge:
-    """IEC 61000-4-5 combination wave at ``level_v`` through the 2 ohm generator (JSON keys)."""
+    """IEC 61000-4-5 combination wave at ``level_v`` (JSON keys).
+
+    From :func:`.surge_circuit.worst_surge` (the generator as a circuit, in series with the
+    mains at every phase and both polarities, through the whole circuit): every figure is the
+    largest over the corners and phases, ``corners`` names where each one was found (corner keys
+    plus ``phase_deg`` and ``polarity``); ``corner`` and ``phase_deg`` are those of the peak
+    current. ``i2t_a2s`` is the line current's (= ``fuse_i2t_a2s``); ``rectifier_i2t_a2s`` per
+    diode; ``x_cap_peak_total_v`` the X capacitor's charge at that phase plus the step.
+    ``method`` says which model produced the figures (:func:`surge` leaves the new ones None).
+    """
 
     level_v: float
     peak_current_a: float | None
@@ -68,6 +77,22 @@ class Surge:
     x_cap_dvdt_v_per_s: float | None
     i2t_a2s: float | None
     corner: dict | None
+    zener_peak_current_a: float | None = None
+    zener_pulse_energy_j: float | None = None
+    zener_peak_power_w: float | None = None
+    rectifier_peak_current_a: float | None = None
+    rectifier_i2t_a2s: float | None = None
+    fuse_i2t_a2s: float | None = None
+    bus_peak_v: float | None = None
+    x_cap_peak_total_v: float | None = None
+    phase_deg: float | None = None
+    vout_max_v: float | None = None
+    vout_max_default: bool | None = None
+    bus_ok: bool | None = None
+    reservoir_esr_ohm: float | None = None
+    zener_slope_ohm: float | None = None
+    corners: dict | None = None
+    method: str = "series loop 2 ohm + R + C, bus shorted"
 
 
 @dataclass
@@ -126,8 +151,10 @@ def inrush(
     The pulse is integrated over ``window_tau`` time constants ``tau = (R + r_d) C C_r/(C + C_r)``
     (capped at a quarter cycle): energy in R, I^2 t, peak current, X capacitor dV/dt (= i / C).
     Check: for R C << 1/f the energy tends to ``0.5 C Vpk^2`` and ``I^2 t`` to ``Vpk^2 C / (2 R)``
-    (RC charging from a step, textbook [S]) - see tests/test_engine_transients.py.
+    (RC charging from a step, textbook [S]) - see tests/test_engine_transients.py. The diodes
+    are the circuit's pulse diode (:meth:`Circuit.pulse_diode`, the high-current line).
     """
+    circuit = circuit.for_pulses()
     system = build_system(circuit, mains_v, freq_hz, load_a=0.0, load_g=0.0, harmonics=harmonics)
     c = circuit.x_capacitance_f
     cr = circuit.reservoir_f
