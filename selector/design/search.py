@@ -137,6 +137,7 @@ def design(
     setup.analyse = analyse or api.analyse
     # the quick exact rejection needs the engine's own analysis (not a stand-in)
     setup.min_current = api.min_dc_current if analyse is None else None
+    setup.surge_bounds = api.surge_lower_bounds if analyse is None else None
     if setup.analyse is None:
         raise RuntimeError("selector.engine.analyse is not available")
     try:

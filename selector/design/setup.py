@@ -51,6 +51,8 @@ class SearchSetup:
     analyse: Callable[..., Any] | None = None
     #: engine.analysis.min_dc_current when ``analyse`` is the engine's (quick rejection)
     min_current: Callable[..., float] | None = None
+    #: engine.analysis.surge_lower_bounds likewise
+    surge_bounds: Callable[..., dict[str, float]] | None = None
     stats: dict[str, Any] | None = None
     last_exact: Any = None
 

@@ -18,7 +18,7 @@ from typing import Any, Final
 import numpy as np
 
 from .. import rules as R
-from .candidates import OptionTable
+from .candidates import OptionTable, rule_by_id
 from .requirement import bus_demand, context_scalars
 from .setup import SearchSetup
 
@@ -63,10 +63,11 @@ def engine_api():
     from ..engine import circuit as C
 
     ns = SimpleNamespace(**{k: getattr(C, k) for k in C.__all__})
-    from ..engine.analysis import analyse, min_dc_current
+    from ..engine.analysis import analyse, min_dc_current, surge_lower_bounds
 
     ns.analyse = analyse
     ns.min_dc_current = min_dc_current
+    ns.surge_lower_bounds = surge_lower_bounds
     return ns
 
 
@@ -154,6 +155,14 @@ def rule_context(setup, circ, vz, ci, r_tol=0.0):
     return ctx
 
 
+#: rules checked on ``surge_lower_bounds`` before the full analysis (their parts are known)
+SURGE_PRECHECK_RULES: Final[tuple[str, ...]] = (
+    "series_r.surge_voltage",
+    "series_r.surge_energy",
+    "x_cap.dvdt_surge",
+)
+
+
 def verify_candidate(setup, topology, vz, xi, ri, scr):
     """Analyse one grid point exactly; re-choose its completion; evaluate every rule.
 
@@ -176,7 +185,9 @@ def verify_candidate(setup, topology, vz, xi, ri, scr):
         if res is not None and (best is None or res[0] < best[0]):
             best = res
         if "max_zener_power_w" not in s:
-            break  # rejected by the minimum current alone: the completion barely moves it
+            # rejected on the minimum current or the X / series-R surge rules alone: neither
+            # depends on the completion (beyond the diode drop and the Zener's tolerance)
+            break
         proposal = (
             cheapest_passing(setup, zo, "zener", s),
             cheapest_passing(setup, rect, "rectifier", s),
@@ -230,9 +241,22 @@ def _evaluate_completion(setup, topology, vz, xi, ri, completion):
             s = {**ctx, "min_dc_current_a": i_min}
             setup.last_exact = (["whole.min_current"], s, circ)
             return None, s, circ
+    parts = parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, None)
+    if setup.surge_bounds is not None and req.conditions.surge_v > 0:
+        # the surge rules of the X capacitor and the series resistance on a quick lower bound
+        # of the engine's surge figures (engine.analysis.surge_lower_bounds)
+        sb = {**ctx, **setup.surge_bounds(circ, req.mains, tol, req.conditions.surge_v)}
+        for rid in SURGE_PRECHECK_RULES:
+            rule = rule_by_id(rid)
+            role_parts = parts[rule.role]
+            for part in role_parts if isinstance(role_parts, list) else [role_parts]:
+                st, lim, _ = rule.check(sb, part, pol)
+                if not st <= lim:
+                    fails[rid] = fails.get(rid, 0) + 1
+                    setup.last_exact = ([rid], sb, circ)
+                    return None, sb, circ
     an = setup.analyse(circ, req.mains, tol, req.conditions)
     s, _ = R.stresses_from_analysis(an, ctx)
-    parts = parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, None)
     fsel = None
     if not bool(setup.ro.attrs["fusible_flag"][ri]):
         fsel = cheapest_fuse(setup, s, parts)

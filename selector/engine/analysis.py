@@ -59,6 +59,7 @@ __all__ = [
     "corner_circuit",
     "corners",
     "min_dc_current",
+    "surge_lower_bounds",
     "surge_through_circuit",
     "weakest_corner",
 ]
@@ -314,6 +315,32 @@ def min_dc_current(circuit: Circuit, mains: Mains, tolerances: Tolerances | None
             cc, k.mains_v, k.freq_hz, harmonics=hs_min, load_a=0.0, load_g=0.0
         ).dc_current_a
     )
+
+
+def surge_lower_bounds(
+    circuit: Circuit, mains: Mains, tolerances: Tolerances | None, level_v: float
+) -> dict[str, float]:
+    """Lower bounds of ``analyse(...).surge``'s series-R and X-capacitor figures, cheaply [SI].
+
+    ``analyse`` reports each surge stress as its maximum over every corner of the grid, every
+    phase and both polarities (``surge_through_circuit``); this is the same maximum over the
+    corners of the high line and the lowest series resistance only (where the pulse current is
+    largest), so each figure is at most the full analysis' one. Keys as in the rules' stresses:
+    ``surge_series_r_energy_j``, ``surge_series_r_peak_voltage_v``, ``surge_x_cap_dvdt_v_per_s``.
+    """
+    from .surge_circuit import worst_surge
+
+    tol = tolerances or Tolerances()
+    grid = corners(circuit, mains, tol)
+    r_min = min(k.r_ohm for k in grid)
+    vz_max = max(k.vz_v for k in grid)
+    sub = [k for k in grid if k.mains_v == mains.high_v and k.r_ohm == r_min and k.vz_v == vz_max]
+    vals, _ = worst_surge(circuit, list(dict.fromkeys(sub)), level_v)
+    return {
+        "surge_series_r_energy_j": float(vals["series_r_energy_j"]),
+        "surge_series_r_peak_voltage_v": float(vals["series_r_peak_voltage_v"]),
+        "surge_x_cap_dvdt_v_per_s": float(vals["x_cap_dvdt_v_per_s"]),
+    }
 
 
 def analyse(
