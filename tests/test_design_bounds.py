@@ -1,0 +1,121 @@
+"""The design screen's bounds against the exact engine (the screen must stay a relaxation).
+
+Each bound the solver prunes with must never exceed the figure the exact engine reports for the
+same circuit (a lower bound of a stress), or a feasible set could be pruned. Outside references:
+the worked examples reproduce textbook formulas (RC discharge V = V0 exp(-t / RC) [S]; the mains
+phase at which a rectifier stops and restarts conducting, from u = Vpk sin(wt) [S]); the
+property checks compare with selector.engine.analyse, whose own agreement with ngspice is
+asserted in tests/test_ngspice*.py.
+"""
+
+from __future__ import annotations
+
+import math
+import random
+
+import numpy as np
+import pytest
+
+from selector.design import bounds as B
+from selector.design.requirement import Requirement
+from selector.engine import Circuit, Conditions, Load, Mains, Tolerances, analyse
+from selector.engine.analysis import min_dc_current, surge_lower_bounds
+
+
+def _req(volts=230.0, freqs=(50.0,), profile="iec60335", load=0.01, surge=1000.0):
+    return Requirement(
+        load_a=load,
+        vout_v=5.1,
+        mains=Mains(volts, 0.10, freqs),
+        conditions=Conditions(40.0, profile, surge),
+    )
+
+
+def test_ripple_discharge_time_worked_example():
+    # 207 V rms (Vpk 292.7 V), 50 Hz, swing 13.5 V, R C -> 0:
+    # acos(1 - 13.5 / 292.7) / (2 pi 50) = 0.970 ms (mains phase where conduction restarts)
+    t = B.ripple_discharge_time("bridge", 207 * math.sqrt(2), 50.0, 13.5, 0.0, 0.0)
+    assert float(t) == pytest.approx(0.970e-3, abs=0.001e-3)
+    # half-wave: no supply for half a cycle
+    assert float(B.ripple_discharge_time("half-wave", 300.0, 50.0, 13.5, 0.0, 0.0)) == 0.01
+
+
+def test_bleeder_ceiling_worked_example():
+    # IEC 60335-1 22.5: 34 V after 1 s [S]. 253 V rms high line (crest 357.8 V), 330 nF + 10 %
+    # (363 nF): Rb <= 1 / (363e-9 ln(357.8 / 34)) = 1.170 Mohm (RC discharge, textbook [S])
+    rb = float(B.bleeder_resistance_ceiling(_req(), 330e-9, 0.10))
+    assert rb == pytest.approx(1.170e6, rel=1e-3)
+    # at or below 0.1 uF the capacitor is exempt under IEC 60335-1 and IEC 60950-1 [S]
+    assert math.isinf(float(B.bleeder_resistance_ceiling(_req(), 100e-9, 0.2)))
+    assert math.isinf(float(B.bleeder_resistance_ceiling(_req(profile="iec60950"), 100e-9, 0.2)))
+    # IEC 60950-1 2.1.1.7: R C <= 1 s [S]
+    rb950 = float(B.bleeder_resistance_ceiling(_req(profile="iec60950"), 1e-6, 0.0))
+    assert rb950 == pytest.approx(1e6, rel=1e-6)
+
+
+def _random_circuits(n: int, seed: int):
+    rnd = random.Random(seed)
+    for _ in range(n):
+        top = rnd.choice(["bridge", "half-wave"])
+        yield (
+            top,
+            Circuit(
+                topology=top,
+                x_capacitors_f=(rnd.choice([100e-9, 220e-9, 470e-9, 1e-6, 2.2e-6]),),
+                series_resistance_ohm=rnd.choice([3.3, 4.7, 6.8, 10.0, 22.0, 47.0, 100.0, 470.0]),
+                bleeder_resistance_ohm=1e6,
+                diode_drop_v=0.8,
+                diode_resistance_ohm=0.1,
+                zener_voltage_v=rnd.choice([5.1, 12.0]),
+                zener_impedance_ohm=rnd.choice([2.0, 7.0]),
+                reservoir_f=rnd.choice([22e-6, 100e-6, 470e-6]),
+                load=Load(current_a=rnd.choice([0.002, 0.005, 0.01])),
+            ),
+            Tolerances(cap_tol=rnd.choice([0.1, 0.2]), cap_loss=0.1, r_tol=0.05, zener_tol=0.05),
+            Mains(rnd.choice([120.0, 230.0]), 0.10, rnd.choice([(50.0,), (60.0,), (50.0, 60.0)])),
+            rnd.choice([500.0, 1000.0, 2000.0]),
+        )
+
+
+CIRCUITS = list(_random_circuits(24, seed=11))
+
+
+@pytest.mark.parametrize("case", CIRCUITS, ids=lambda c: c[0])
+def test_screen_bounds_stay_below_the_engine(case):
+    top, circ, tol, mains, level = case
+    an = analyse(circ, mains, tol, Conditions(40.0, "iec60335", level))
+    c, r = circ.x_capacitance_f, circ.series_resistance_ohm
+    rd = circ.diode_resistance_ohm * (2 if top == "bridge" else 1)
+    # surge: the loop-model bound at the engine's transient corner (-R, +C), scaled (bounds.py)
+    sb = B.surge_bounds(level, np.array([r * (1 - tol.r_tol)]), np.array([c * (1 + tol.cap_tol)]),
+                        1.0, rd)  # fmt: skip
+    assert sb["surge_series_r_energy_j"][0] <= an.surge.series_r_energy_j
+    assert sb["surge_series_r_peak_voltage_v"][0] <= an.surge.series_r_peak_voltage_v
+    assert sb["surge_x_cap_dvdt_v_per_s"][0] <= an.surge.x_cap_dvdt_v_per_s
+    # the quick surge bound of the verification is a lower bound of the full analysis
+    q = surge_lower_bounds(circ, mains, tol, level)
+    assert q["surge_series_r_energy_j"] <= an.surge.series_r_energy_j * (1 + 1e-12)
+    assert q["surge_series_r_peak_voltage_v"] <= an.surge.series_r_peak_voltage_v * (1 + 1e-12)
+    assert q["surge_x_cap_dvdt_v_per_s"] <= an.surge.x_cap_dvdt_v_per_s * (1 + 1e-12)
+    # the quick minimum current is the analysis' own figure
+    assert min_dc_current(circ, mains, tol) == an.worst_case.min_dc_current_a
+    # ripple: the nominal reservoir the ripple rule needs, from the bound, is at most the one
+    # that gives the engine's ripple as the limit (a reservoir at the bound gives at least it)
+    if an.worst_case.load_met:
+        limit = an.worst_case.max_output_ripple_v
+        need = B.ripple_reservoir_need(
+            Requirement(
+                load_a=circ.load.current_a,
+                vout_v=1.0,
+                mains=mains,
+                conditions=Conditions(40.0, "iec60335", level),
+            ),
+            top,
+            circ.zener_voltage_v,
+            tol.zener_tol,
+            circ.diode_drop_v,
+            limit,
+            r * (1 + tol.r_tol),
+            c * (1 - tol.cap_tol) * (1 - tol.cap_loss),
+        )
+        assert float(need) <= circ.reservoir_f * (1 + 1e-9)
