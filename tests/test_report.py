@@ -411,6 +411,29 @@ def test_long_rule_names_wrap_at_their_joints():
     assert "Vz=4.84 V" in render_report("audit", doc)  # nor numbers
 
 
+def test_dotted_part_codes_wrap_at_every_joint():
+    """A built-in code (selector/catalogue/expand.py: words joined by dots, many starting with a
+    digit) wraps at each dot, so the code column of an A4 parts table stays narrow; a decimal
+    number inside a code stays whole, and the cell's class judges the same pieces."""
+    from selector.report.html import _Cell
+
+    doc = json.loads(json.dumps(DESIGN_DOC))
+    parts = doc["designs"][0]["parts"]
+    parts[0]["code"] = "xcap.x3.275vac.330n.20pct"
+    parts[1]["code"] = "res.fusible.0w5.8R2.5pct"
+    parts[2]["code"] = "res.thick.0805.100k.5pct"
+    html = render_report("design", doc)
+    assert ">xcap.<wbr>x3.<wbr>275vac.<wbr>330n.<wbr>20pct</td>" in html
+    assert ">res.<wbr>fusible.<wbr>0w5.<wbr>8R2.<wbr>5pct</td>" in html
+    assert ">res.<wbr>thick.<wbr>0805.100k.<wbr>5pct</td>" in html  # 0805.100 reads as a number
+    assert "res.fusible.0w5.8R2.5pct" in "".join(_parse(html).text)  # the text is unchanged
+    # every piece is short, so the cell wraps at its joints (class text), not anywhere (long)
+    assert re.search(r'<td class="text" data-key="parts\[1\]\.code"', html)
+    assert _Cell("fusible.0w5.8R2.5pct").css == "text"
+    assert _Cell("fusible0w58R25pct").css == "text long"  # one word of 17 letters
+    assert _Cell("12345678.123456789").css == "text long"  # a number does not break
+
+
 def test_failing_checks_are_counted_and_marked():
     html = render_report("check", CHECK_DOC)
     assert "1 of 2 checks fail" in html

@@ -173,7 +173,8 @@ class _Cell:
         ``.`` and ``_`` joints of names, see :func:`_breakable`)."""
         if self.si:
             return "num"
-        pieces = re.split(r"[\s._]+", self.text)  # a text cell may wrap at spaces, . and _
+        # a text cell wraps at spaces and where :func:`_breakable` puts a joint, nowhere else
+        pieces = re.split(r"\s+|<wbr>", _JOINED_WORD.sub(_wrap_word_joints, self.text))
         if any(len(w) > 16 for w in pieces):
             return "text long"
         return "text prose" if len(self.text) > 30 else "text"
@@ -454,13 +455,32 @@ def _plots(waveforms: Mapping[str, Any] | None) -> list[dict[str, str]]:
     return out
 
 
+#: a word made of letter/digit runs joined by ``.`` or ``_`` (a name, a part code, a number)
+_JOINED_WORD = re.compile(r"[A-Za-z0-9]+(?:[._][A-Za-z0-9]+)+")
+
+
+def _wrap_word_joints(match: re.Match[str]) -> str:
+    """The word of ``match`` (see :data:`_JOINED_WORD`) with ``<wbr>`` after each joint, except
+    after a one-letter head (``x_capacitor``) and inside a number: a run of digits before the
+    joint and a digit after it (``4.84``, ``1.2MV``, ``0805.100k``)."""
+    pieces = re.split(r"([._])", match.group(0))
+    out = [pieces[0]]
+    for i in range(1, len(pieces), 2):
+        head, joint, tail = pieces[i - 1], pieces[i], pieces[i + 1]
+        number = head.isdigit() and tail[0].isdigit()
+        one_letter_head = i == 1 and len(head) < 2
+        out.append(joint + ("" if number or one_letter_head else "<wbr>") + tail)
+    return "".join(out)
+
+
 def _breakable(text: Any) -> markupsafe.Markup:
     """Escaped text with a line-break opportunity (``<wbr>``) after each ``.`` and ``_`` that
-    joins two parts of a name (``series_r.surge_voltage``), so the name wraps at its joints in
-    a narrow column instead of anywhere; not in numbers (``4.84``) and not after a one-letter
-    head (``x_capacitor``)."""
+    joins two parts of a name or a part code (``series_r.surge_voltage``,
+    ``res.fusible.0w5.8R2.5pct``), so it wraps at its joints in a narrow column instead of
+    anywhere; not in numbers (``4.84``) and not after a one-letter head (``x_capacitor``).
+    :attr:`_Cell.css` counts on these joints when it judges whether a word fits a column."""
     escaped = str(markupsafe.escape(text))
-    return markupsafe.Markup(re.sub(r"(?<=\w\w)([._])(?=[A-Za-z])", r"\1<wbr>", escaped))
+    return markupsafe.Markup(_JOINED_WORD.sub(_wrap_word_joints, escaped))
 
 
 def _environment() -> jinja2.Environment:
