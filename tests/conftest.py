@@ -42,6 +42,18 @@ def catalogue_url(tmp_path_factory: pytest.TempPathFactory) -> str:
     return url
 
 
+@pytest.fixture(scope="session")
+def builtin_frame(catalogue_url: str):
+    """The built-in catalogue as the design solver reads it (``parts_frame``)."""
+    from selector.catalogue import open_catalogue, parts_frame
+
+    engine = open_catalogue(catalogue_url)
+    try:
+        yield parts_frame(engine)
+    finally:
+        engine.dispose()
+
+
 @pytest.fixture
 def catalogue_engine(catalogue_url: str):
     from selector.catalogue import make_engine

@@ -28,14 +28,8 @@ import random_sets_vs_design as RS  # noqa: E402
 
 
 @pytest.fixture(scope="module")
-def frame(catalogue_url):
-    from selector.catalogue import open_catalogue, parts_frame
-
-    engine = open_catalogue(catalogue_url)
-    try:
-        yield parts_frame(engine)
-    finally:
-        engine.dispose()
+def frame(builtin_frame):
+    return builtin_frame
 
 
 def _req(load, vout, volts=230.0, freqs=(50.0, 60.0), top="bridge"):

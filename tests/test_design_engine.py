@@ -27,14 +27,8 @@ REQUIREMENTS = [
 
 
 @pytest.fixture(scope="module")
-def frame(catalogue_url):
-    from selector.catalogue import open_catalogue, parts_frame
-
-    engine = open_catalogue(catalogue_url)
-    try:
-        yield parts_frame(engine)
-    finally:
-        engine.dispose()
+def frame(builtin_frame):
+    return builtin_frame
 
 
 def _design(frame, load, vout, freqs, top):

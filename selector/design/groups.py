@@ -202,6 +202,22 @@ def prune_options(
     return xkeep, ridx[ok]
 
 
+def prune_for_group(setup, g: ZenerGroup, xidx=None, ridx=None):
+    """``prune_options`` with the group's own figures (see there)."""
+    return prune_options(
+        setup,
+        g.topology,
+        g.vz,
+        g.vf_lo,
+        g.vf_hi,
+        float(np.max(g.z_cap)),
+        g.ztol_min,
+        g.zz_min,
+        xidx=xidx,
+        ridx=ridx,
+    )
+
+
 def series_necessary(setup, topology, vz, vf_lo, vf_hi, ztol_min, xkeep, r_tot, rtol, rns):
     """Mask of series options (total resistance, tolerance, rule namespace) that can take part
     in a feasible point with some X option of ``xkeep``: the current with the largest kept

@@ -18,7 +18,7 @@ import numpy as np
 
 from .bounds import max_series_resistance_for_current, screen_bounds
 from .candidates import OptionTable, concat_options, keep_best_per_signature
-from .groups import NO_BOUND, ZenerGroup, prune_options, series_necessary
+from .groups import NO_BOUND, ZenerGroup, prune_for_group, series_necessary
 from .lookups import cheapest_at_least
 from .requirement import bus_demand, objective_key
 from .series import unequal_series_pairs
@@ -176,17 +176,7 @@ def add_x_pairs(setup: SearchSetup, groups: list[ZenerGroup], budget: int, stats
     setup.xo = concat_options([setup.xo, pairs])
     new = np.arange(start, len(setup.xo))
     for g in groups:
-        xk, rk = prune_options(
-            setup,
-            g.topology,
-            g.vz,
-            g.vf_lo,
-            g.vf_hi,
-            float(np.max(g.z_cap)),
-            g.ztol_min,
-            g.zz_min,
-            xidx=new,
-        )
+        xk, rk = prune_for_group(setup, g, xidx=new)
         _set_group_options(setup, g, xk, rk)
 
 
@@ -233,20 +223,7 @@ def add_series_pairs(
     base = int(np.min(setup.xo.key)) + min(g.min_comp_key for g in groups)
     key_budget = budget if budget >= NO_BOUND else budget - base
     # the X options of each group (singles and pairs) that a series pair would meet
-    group_x = []
-    for g in groups:
-        xk, _ = prune_options(
-            setup,
-            g.topology,
-            g.vz,
-            g.vf_lo,
-            g.vf_hi,
-            float(np.max(g.z_cap)),
-            g.ztol_min,
-            g.zz_min,
-            ridx=np.zeros(0, dtype=np.int64),
-        )
-        group_x.append(xk)
+    group_x = [prune_for_group(setup, g, ridx=np.zeros(0, dtype=np.int64))[0] for g in groups]
 
     need = avg_a * (1 + pol.load_margin)
     # per group: the largest series resistance each X option allows (current bound)
