@@ -30,31 +30,15 @@ catalogue parts (a BOM, ``parts``) every part rule of :mod:`selector.rules` runs
 per-unit stresses too, with the policy's derating; ``whole.standby_power`` (a limit for the
 product, not a part rating) and ``whole.burst_holdup`` are not yield criteria.
 
-Method and accuracy. The exact engine (one Newton shooting per circuit, ~1-2 ms) is used only to
-calibrate the numpy closed forms (:mod:`selector.engine.closed_form`, R-corrected, within
-0.63 % / 0.72 % of the exact solver uncalibrated). For the current criterion the ratio
-``rho = exact / closed form`` is solved at the nominal point and at every corner of the band of
-the drawn variables (2^k + 1 solves, k <= 6 variables with a non-zero band, per frequency) and
-fitted by least squares with a model linear in each band position plus all pairwise products
-(an exact interpolation on a 2-level factorial for the main effects and interactions). The
-calibrated current is ``closed form x rho(z)``; the largest relative error at the solved points
-is reported (``calibration.max_error``) and tests check random units against the exact solver
-within 0.5 %. The per-unit stresses are the exact worst-case stresses of
-:func:`selector.engine.analyse` scaled by the closed-form ratio between the unit and the corner
-that produced them (exact at that corner; against an exact analysis of the unit itself within
-0.5 %, see tests/test_production_yield.py); the surge and ripple figures (surge pulse, reservoir
-ripple current, output ripple; the half-wave diode's average current, which is the load) stay at
-their worst-case values: a worst-case miss there counts as a miss on every unit. (The worst case
-is the largest over the corners the engine solves; a unit may pass it by a fraction of a per
-cent: 0.5 % seen for the ripple current.)
+Method and accuracy: :mod:`selector.yield_model` (the calibration of the closed forms
+against the exact engine, the per-unit stresses and their accuracy).
 
-Confidence interval: Wilson's score interval (:func:`wilson_interval`).
+Confidence interval: Wilson's score interval (:func:`.yield_statistics.wilson_interval`).
 """
 
 from __future__ import annotations
 
 import dataclasses
-import itertools
 import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
@@ -64,7 +48,21 @@ import numpy as np
 
 from .engine import closed_form as cf
 from .engine.circuit import Circuit, Conditions, Mains, Tolerances
-from .errors import BadValueError, OutOfRangeError
+from .errors import BadValueError
+from .yield_model import (
+    Calibration,
+    ToleranceBand,
+    available_current,
+    calibrate_current,
+    unit_stresses,
+)
+from .yield_statistics import (
+    DISTRIBUTIONS,
+    band_positions,
+    margin_sensitivities,
+    rank_correlation,
+    wilson_interval,
+)
 
 __all__ = [
     "DISTRIBUTIONS",
@@ -82,12 +80,7 @@ __all__ = [
     "wilson_interval",
 ]
 
-DISTRIBUTIONS: Final[tuple[str, ...]] = ("uniform", "normal")
 LINE_MODES: Final[tuple[str, ...]] = ("band", "drawn")
-#: the band edge of the normal draw, in standard deviations
-NORMAL_SIGMAS: Final[float] = 3.0
-#: two-sided 95 % normal quantile
-Z_95: Final[float] = 1.959963984540054
 #: whole-circuit rules that are not part of the yield (see module docstring)
 NOT_YIELD_RULES: Final[frozenset[str]] = frozenset({"whole.standby_power", "whole.burst_holdup"})
 #: reservoir tolerance when none is given: aluminium electrolytics are commonly +/-20 %
@@ -96,119 +89,6 @@ RESERVOIR_TOL: Final[float] = 0.2
 #: samples drawn and evaluated per block (progress is reported per block)
 BLOCK: Final[int] = 50_000
 MAX_SAMPLES: Final[int] = 10_000_000
-
-
-# ---------------------------------------------------------------------------------------------
-# statistics (pure functions)
-
-
-def wilson_interval(successes: int, trials: int, z: float = Z_95) -> tuple[float, float]:
-    """Wilson score interval for a binomial proportion [-].
-
-    ``p = k / n``; ``centre = (p + z^2 / 2n) / (1 + z^2 / n)``;
-    ``half = z / (1 + z^2 / n) * sqrt(p (1 - p) / n + z^2 / 4n^2)``; interval centre +/- half.
-    Unlike the normal (Wald) interval it stays inside 0..1 and is not empty at k = 0 or k = n:
-    at k = 0 the upper end is ``z^2 / (n + z^2)``, at k = n the lower end is ``n / (n + z^2)``.
-    Valid for 0 <= k <= n, n >= 1; ``z`` the two-sided normal quantile (1.96 for 95 %).
-
-    Source: E. B. Wilson, "Probable inference, the law of succession, and statistical
-    inference", Journal of the American Statistical Association 22 (1927) 209-212 [S];
-    worked examples in R. G. Newcombe, Statistics in Medicine 17 (1998) 857-872, table II [M].
-
-    Example: 0 of 20 -> (0, 0.1611); 81 of 263 -> (0.2553, 0.3662).
-    """
-    if trials < 1 or not 0 <= successes <= trials:
-        raise BadValueError(f"Wilson interval needs 0 <= successes <= trials, trials >= 1 "
-                            f"(got {successes} of {trials})")  # fmt: skip
-    n = float(trials)
-    p = successes / n
-    z2 = z * z
-    denom = 1.0 + z2 / n
-    centre = (p + z2 / (2.0 * n)) / denom
-    half = z / denom * math.sqrt(p * (1.0 - p) / n + z2 / (4.0 * n * n))
-    lo = 0.0 if successes == 0 else max(0.0, centre - half)
-    hi = 1.0 if successes == trials else min(1.0, centre + half)
-    return lo, hi
-
-
-def _ranks(x: np.ndarray) -> np.ndarray:
-    """Ranks 1..n with ties given their average rank."""
-    order = np.argsort(x, kind="mergesort")
-    xs = x[order]
-    ranks = np.empty(len(x), dtype=float)
-    # start index of each run of equal values
-    starts = np.flatnonzero(np.r_[True, xs[1:] != xs[:-1]])
-    ends = np.r_[starts[1:], len(x)]
-    avg = (starts + ends + 1) / 2.0  # mean of the 1-based ranks start+1 .. end
-    ranks[order] = np.repeat(avg, ends - starts)
-    return ranks
-
-
-def rank_correlation(x: Any, y: Any) -> float:
-    """Spearman's rank correlation [-]: Pearson's correlation of the ranks (ties: mean rank).
-
-    ``rho = cov(rank x, rank y) / (sd(rank x) sd(rank y))``; 0 when either is constant.
-    Source: C. Spearman, American Journal of Psychology 15 (1904) 72-101 [S]. Without ties it
-    equals ``1 - 6 sum d^2 / (n (n^2 - 1))``. Example: x = 1..5, y = (2, 1, 4, 3, 5) -> 0.8.
-    """
-    a = np.asarray(x, dtype=float)
-    b = np.asarray(y, dtype=float)
-    if a.shape != b.shape or a.ndim != 1 or len(a) < 2:
-        raise BadValueError("rank correlation needs two 1-D arrays of the same length >= 2")
-    ra = _ranks(a) - (len(a) + 1) / 2.0
-    rb = _ranks(b) - (len(b) + 1) / 2.0
-    den = math.sqrt(float(ra @ ra) * float(rb @ rb))
-    return 0.0 if den == 0 else float(ra @ rb) / den
-
-
-def band_positions(rng: np.random.Generator, n: int, dist: str) -> np.ndarray:
-    """``n`` positions z in -1..+1 within a tolerance band.
-
-    ``uniform``: uniform on -1..+1. ``normal``: normal with the band edge at +/-3 sigma
-    (sigma = 1/3), truncated to the band by redrawing what falls outside ([P] the usual reading
-    of a tolerance as +/-3 sigma for a centred process).
-    """
-    if dist == "uniform":
-        return rng.uniform(-1.0, 1.0, n)
-    if dist != "normal":
-        raise BadValueError(f"unknown distribution {dist!r}; one of {', '.join(DISTRIBUTIONS)}")
-    z = rng.normal(0.0, 1.0 / NORMAL_SIGMAS, n)
-    bad = np.flatnonzero(np.abs(z) > 1.0)
-    while len(bad):
-        z[bad] = rng.normal(0.0, 1.0 / NORMAL_SIGMAS, len(bad))
-        bad = bad[np.abs(z[bad]) > 1.0]
-    return z
-
-
-# ---------------------------------------------------------------------------------------------
-# the exact reference
-
-
-def _unit_circuit(circuit: Circuit, c_f: float, r_ohm: float, rb_ohm: float, vz_v: float,
-                  res_f: float) -> Circuit:  # fmt: skip
-    return dataclasses.replace(
-        circuit,
-        x_capacitors_f=(c_f,),
-        series_resistance_ohm=r_ohm,
-        bleeder_resistance_ohm=rb_ohm,
-        zener_voltage_v=vz_v,
-        reservoir_f=res_f,
-    )
-
-
-def available_current(circuit: Circuit, mains_v: float, freq_hz: float) -> float:
-    """Available DC current of one circuit at one mains [A], as ``dropper check`` reads it.
-
-    The exact periodic steady state with the load: when the clamp still conducts the current
-    into the bus; when the load pulls the bus out of regulation, the current into the bus held
-    at the clamp (no-load solve), as :func:`selector.engine.analyse` does.
-    """
-    from .engine.steady_state import solve_steady_state
-
-    st = solve_steady_state(circuit, mains_v, freq_hz)
-    if st.zener_current_a > 1e-9 or (circuit.load.is_zero and circuit.regulator is None):
-        return st.dc_current_a
-    return solve_steady_state(circuit, mains_v, freq_hz, load_a=0.0, load_g=0.0).dc_current_a
 
 
 # ---------------------------------------------------------------------------------------------
@@ -277,24 +157,6 @@ def bom_design(path: Any, **audit_options: Any) -> BomDesign:
 
 
 @dataclass
-class Calibration:
-    """The fitted ratio exact / closed form for the current criterion, per frequency.
-
-    ``variables``: the band variables of the fit (``x_capacitance_f``, ...); ``coefficients``
-    per frequency: intercept, one per variable, one per pair (in ``itertools.combinations``
-    order); ``points``: exact solves used; ``max_error``: largest relative error of the
-    calibrated closed form at those points."""
-
-    method: str
-    variables: list[str]
-    frequencies_hz: list[float]
-    coefficients: dict[float, list[float]]
-    points: int
-    max_error: float
-    closed_form_max_error: float
-
-
-@dataclass
 class YieldResult:
     """A production-yield run (SI). ``to_dict`` gives the JSON document's figures.
 
@@ -344,15 +206,6 @@ class YieldResult:
 # the run
 
 
-@dataclass(frozen=True)
-class _Band:
-    """One drawn variable: name, nominal, relative half-width (0: not drawn)."""
-
-    name: str
-    nominal: float
-    tol: float
-
-
 def _check_inputs(samples: int, dist: str, line: str, reservoir_tol: float) -> None:
     if not isinstance(samples, (int, np.integer)) or not 1 <= samples <= MAX_SAMPLES:
         raise BadValueError(f"--samples: {samples!r} is not a whole number in 1..{MAX_SAMPLES}")
@@ -370,118 +223,6 @@ def _demand(circuit: Circuit) -> float:
         reg = circuit.regulator
         return circuit.load.average_demand_a(reg.output_v) + reg.quiescent_a
     return circuit.load.average_demand_a(circuit.bus_voltage_v)
-
-
-def _features(z: np.ndarray) -> np.ndarray:
-    """Design matrix rows: 1, z_j, z_j z_k (j < k) for positions ``z`` of shape (m, k)."""
-    m, k = z.shape
-    cols = [np.ones(m)] + [z[:, j] for j in range(k)]
-    cols += [z[:, a] * z[:, b] for a, b in itertools.combinations(range(k), 2)]
-    return np.column_stack(cols)
-
-
-def _calibrate(
-    circuit: Circuit,
-    bands: Sequence[_Band],
-    mains_v: tuple[float, float],
-    freqs: Sequence[float],
-    draw_mains: bool,
-) -> tuple[Calibration, Callable[[np.ndarray, np.ndarray, np.ndarray], np.ndarray]]:
-    """Fit ``rho = exact / closed form`` on the band corners (see module docstring).
-
-    ``bands`` are the current-criterion variables in the order x_capacitance_f (end-of-life),
-    series_resistance_ohm, bleeder_resistance_ohm, zener_voltage_v, reservoir_f; ``mains_v`` the
-    (criterion value, half-width) of the mains; returns the calibration record and
-    ``predict(z_matrix, freq_array, closed_form_current) -> calibrated current``.
-    """
-    top = circuit.topology
-    vf = circuit.diode_drop_v
-    live = [b for b in bands if b.tol > 0]
-    names = [b.name for b in live]
-    v_mid, v_half = mains_v
-    if draw_mains and v_half > 0:
-        names.append("mains_v")
-    k = len(names)
-    corners = np.array(list(itertools.product((-1.0, 1.0), repeat=k)), ndmin=2).reshape(-1, k)
-    points = np.vstack([np.zeros((1, k)), corners]) if k else np.zeros((1, 0))
-    coefs: dict[float, np.ndarray] = {}
-    worst_err = 0.0
-    worst_cf_err = 0.0
-    solves = 0
-    by_name = {b.name: b for b in bands}
-    for f in freqs:
-        ratios = []
-        for zrow in points:
-            val = {b.name: b.nominal for b in bands}
-            for j, name in enumerate(names):
-                if name != "mains_v":
-                    b = by_name[name]
-                    val[name] = b.nominal * (1.0 + b.tol * zrow[j])
-            v = v_mid + (v_half * zrow[names.index("mains_v")] if "mains_v" in names else 0.0)
-            unit = _unit_circuit(
-                circuit,
-                val["x_capacitance_f"],
-                val["series_resistance_ohm"],
-                val["bleeder_resistance_ohm"],
-                val["zener_voltage_v"],
-                val["reservoir_f"],
-            )
-            exact = available_current(unit, v, f)
-            approx = float(
-                cf.dc_current(
-                    top,
-                    v,
-                    val["x_capacitance_f"],
-                    f,
-                    val["zener_voltage_v"],
-                    vf,
-                    val["series_resistance_ohm"],
-                )
-            )
-            solves += 1
-            if approx <= 0:
-                raise OutOfRangeError(
-                    f"the clamp ({val['zener_voltage_v']:.3g} V) is above what the capacitor "
-                    f"can swing at {v:.4g} V; no current to calibrate"
-                )
-            ratios.append(exact / approx)
-        rho = np.array(ratios)
-        worst_cf_err = max(worst_cf_err, float(np.max(np.abs(1.0 / rho - 1.0))))
-        X = _features(points)
-        # with fewer points than terms (k <= 1) lstsq gives the minimum-norm exact fit
-        coef, *_ = np.linalg.lstsq(X, rho, rcond=None)
-        fit = X @ coef
-        worst_err = max(worst_err, float(np.max(np.abs(fit / rho - 1.0))))
-        coefs[float(f)] = coef
-
-    def predict(z: np.ndarray, freq: np.ndarray, approx: np.ndarray) -> np.ndarray:
-        X = _features(z)
-        out = np.empty_like(approx)
-        for f, coef in coefs.items():
-            sel = freq == f
-            out[sel] = approx[sel] * (X[sel] @ coef)
-        return out
-
-    cal = Calibration(
-        method=(
-            "closed form x fitted ratio exact/closed form (linear in each band position plus "
-            "pairwise products), solved at the nominal point and every band corner"
-        ),
-        variables=names,
-        frequencies_hz=[float(f) for f in freqs],
-        coefficients={f: [float(c) for c in coef] for f, coef in coefs.items()},
-        points=solves,
-        max_error=worst_err,
-        closed_form_max_error=worst_cf_err,
-    )
-    return cal, predict
-
-
-def _anchor(exact: float, g_unit: np.ndarray, g_corner: float) -> np.ndarray:
-    """The exact worst-case stress scaled by the closed-form ratio unit / corner."""
-    if not math.isfinite(exact) or g_corner == 0:
-        return np.full(np.shape(g_unit), exact, dtype=float)
-    return exact * (g_unit / g_corner)
 
 
 def _unknown(v: Any) -> bool:
@@ -542,14 +283,14 @@ def production_yield(
 
     # the current criterion's calibration (X capacitance at end of life)
     bands = [
-        _Band("x_capacitance_f", c_total * loss, tol.cap_tol),
-        _Band("series_resistance_ohm", r0, tol.r_tol),
-        _Band("bleeder_resistance_ohm", rb0, rb_tol),
-        _Band("zener_voltage_v", vz0, tol.zener_tol),
-        _Band("reservoir_f", cr0, reservoir_tol),
+        ToleranceBand("x_capacitance_f", c_total * loss, tol.cap_tol),
+        ToleranceBand("series_resistance_ohm", r0, tol.r_tol),
+        ToleranceBand("bleeder_resistance_ohm", rb0, rb_tol),
+        ToleranceBand("zener_voltage_v", vz0, tol.zener_tol),
+        ToleranceBand("reservoir_f", cr0, reservoir_tol),
     ]
     crit_freqs = freqs if draw_mains else (freqs[0],)
-    cal, predict = _calibrate(
+    cal, predict = calibrate_current(
         circuit, bands, (v_mid, v_half) if draw_mains else (low, 0.0), crit_freqs, draw_mains
     )
 
@@ -708,7 +449,7 @@ def production_yield(
         if progress is not None:
             progress(done, 2 * samples)
     margin_all = np.concatenate(margins)
-    sens = _sensitivities(
+    sens = margin_sensitivities(
         positions, margin_all, np.concatenate(fail_var), tol, reservoir_tol, rb_tol
     )
     driver = sens[0] if (sens and telling) else None
@@ -757,154 +498,3 @@ def production_yield(
         criterion_v=np.concatenate(crit_v),
         criterion_hz=np.concatenate(crit_f),
     )
-
-
-def _sensitivities(
-    positions: Mapping[str, np.ndarray],
-    margin: np.ndarray,
-    failed: np.ndarray,
-    tol: Tolerances,
-    reservoir_tol: float,
-    bleeder_tol: float,
-) -> list[dict[str, Any]]:
-    """Per drawn variable: Spearman's rank correlation of its band position with the unit's
-    smallest margin (on the rules that tell units apart), and the share of units missing those
-    rules in the bottom and top third of its band (frequency: the lowest and the highest of the
-    set); strongest correlation first. Variables with no band are left out."""
-    width = {
-        "series_resistance_ohm": tol.r_tol,
-        "bleeder_resistance_ohm": bleeder_tol,
-        "zener_voltage_v": tol.zener_tol,
-        "reservoir_f": reservoir_tol,
-    }
-    out = []
-    for name, z in positions.items():
-        w = tol.cap_tol if name.startswith("x_capac") else width.get(name, 1.0)
-        if w == 0 or np.ptp(z) == 0:
-            continue
-        if name == "freq_hz":
-            low_sel, high_sel = z == np.min(z), z == np.max(z)
-        else:
-            low_sel, high_sel = z < -1.0 / 3.0, z > 1.0 / 3.0
-        rho = rank_correlation(z, margin) if np.ptp(margin) > 0 else 0.0
-        out.append(
-            {
-                "parameter": name,
-                "rank_correlation": rho,
-                "miss_rate_low": float(np.mean(failed[low_sel])) if low_sel.any() else 0.0,
-                "miss_rate_high": float(np.mean(failed[high_sel])) if high_sel.any() else 0.0,
-            }
-        )
-    out.sort(key=lambda d: -abs(d["rank_correlation"]))
-    return out
-
-
-def unit_stresses(
-    s_worst: Mapping[str, Any],
-    analysis: Any,
-    circuit: Circuit,
-    v: np.ndarray,
-    v_fault: np.ndarray,
-    f: np.ndarray,
-    c: np.ndarray,
-    r: np.ndarray,
-    rb: np.ndarray,
-    vz: np.ndarray,
-    cr: np.ndarray,
-    i_avail: np.ndarray,
-    demand: float,
-) -> dict[str, Any]:
-    """Per-unit stresses: the exact worst case scaled by closed-form ratios (module docstring).
-
-    ``s_worst`` are the flat stresses of ``analysis``
-    (:func:`selector.rules.stresses_from_analysis`); each scaled key is
-    ``exact worst x g(unit) / g(corner)`` with ``g`` the closed form of that quantity (Zener
-    power, series-R power, line current, capacitor voltage, DC current, bus voltage; switch-on:
-    C V^2, V / R, V^2 C / R, V / (R C); discharge: Rb C). Arrays of one length in, a stress
-    mapping for :meth:`selector.rules.Rule.check` out. ``c`` is the day-one X capacitance;
-    ``v``, ``f`` the stress line of each unit, ``v_fault`` the line at which a shorted X
-    capacitor must open the fuse (the lowest, or the unit's)."""
-    top = circuit.topology
-    vf = circuit.diode_drop_v
-    wc = analysis.worst_case
-    s = dict(s_worst)
-
-    def at(corner: Mapping[str, Any]) -> tuple[float, float, float, float, float]:
-        return (
-            float(corner["mains_v"]),
-            float(corner["freq_hz"]),
-            float(corner["cap_f"]),
-            float(corner["r_ohm"]),
-            float(corner.get("vz_v", circuit.zener_voltage_v)),
-        )
-
-    def line_rms(vv, cc, ff, rr):
-        return cf.line_current_rms(vv, cc, ff, rr)
-
-    def vcap(vv, cc, ff, rr):
-        return cf.line_current_rms(vv, cc, ff, rr) * cf.reactance(cc, ff)
-
-    def idc(vv, cc, ff, zz, rr):
-        return cf.dc_current(top, vv, cc, ff, zz, vf, rr)
-
-    V, F, C, R, Z = at(wc.max_zener_power_corner)
-    s["max_zener_power_w"] = _anchor(
-        wc.max_zener_power_w,
-        cf.zener_power_no_load(top, v, c, f, vz, vf, r),
-        float(cf.zener_power_no_load(top, V, C, F, Z, vf, R)),
-    )
-    V, F, C, R, Z = at(wc.max_series_r_power_corner)
-    s["max_series_r_power_w"] = _anchor(
-        wc.max_series_r_power_w,
-        cf.series_r_power(v, c, f, r),
-        float(cf.series_r_power(V, C, F, R)),
-    )
-    V, F, C, R, Z = at(wc.max_line_current_rms_corner)
-    s["max_line_current_rms_a"] = _anchor(
-        wc.max_line_current_rms_a, line_rms(v, c, f, r), float(line_rms(V, C, F, R))
-    )
-    if circuit.has_bleeder:
-        k = wc.max_bleeder_power_corner
-        V, F, C, R, Z = at(k)
-        rb_c = float(k.get("bleeder_ohm", circuit.bleeder_resistance_ohm))
-        s["max_bleeder_power_w"] = _anchor(
-            wc.max_bleeder_power_w, vcap(v, c, f, r) ** 2 / rb, float(vcap(V, C, F, R)) ** 2 / rb_c
-        )
-    V, F, C, R, Z = at(wc.max_bleeder_voltage_corner)
-    s["max_bleeder_voltage_v"] = _anchor(
-        wc.max_bleeder_voltage_v, vcap(v, c, f, r), float(vcap(V, C, F, R))
-    )
-    V, F, C, R, Z = at(wc.max_output_voltage_corner)
-    drop = vf if top == "half-wave" else 0.0  # the bus sits a diode drop below the Zener there
-    s["max_output_voltage_v"] = _anchor(wc.max_output_voltage_v, vz - drop, Z - drop)
-    V, F, C, R, Z = at(wc.max_dc_current_corner)
-    i_unit = idc(v, c, f, vz, r)
-    i_corner = float(idc(V, C, F, Z, R))
-    if top == "bridge":
-        # each bridge diode carries half the DC current; the half-wave diode carries the load
-        # only (the Zener shunts the rest before it), so there the worst case stands
-        s["max_rectifier_avg_current_a"] = _anchor(wc.max_rectifier_avg_current_a, i_unit, i_corner)
-    # the ripple figures (reservoir ripple current, output ripple) are largest where the clamp
-    # lets go, which no monotonic closed form tracks: they keep their worst-case values
-    s["mains_max_v"] = v
-    s["mains_min_v"] = v_fault
-    s["max_rectifier_reverse_voltage_v"] = math.sqrt(2.0) * v
-    # switch-on at the crest: energy ~ C, peak ~ V / R, I^2 t ~ V^2 C / R, dV/dt ~ V / (R C)
-    ins = analysis.inrush
-    V, F, C, R, Z = at(ins.corner)
-    s["inrush_series_r_energy_j"] = _anchor(ins.series_r_energy_j, c * v * v, C * V * V)
-    s["inrush_peak_current_a"] = _anchor(ins.peak_current_a, v / r, V / R)
-    s["inrush_rectifier_peak_current_a"] = _anchor(ins.rectifier_peak_current_a, v / r, V / R)
-    s["inrush_i2t_a2s"] = _anchor(ins.i2t_a2s, v * v * c / r, V * V * C / R)
-    s["inrush_x_cap_dvdt_v_per_s"] = _anchor(ins.x_cap_dvdt_v_per_s, v / (r * c), V / (R * C))
-    dis = analysis.discharge
-    if circuit.has_bleeder and math.isfinite(dis.time_s):
-        k = dis.corner
-        s["discharge_time_s"] = _anchor(
-            dis.time_s, rb * c, float(k.get("bleeder_ohm", rb[0])) * float(k["cap_f"])
-        )
-    # a shorted X capacitor leaves the unit's own series resistance across the line
-    s["series_resistance_ohm"] = r
-    s["min_dc_current_a"] = i_avail
-    s["load_a"] = demand
-    return s
