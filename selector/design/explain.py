@@ -159,7 +159,7 @@ _SURGE_RULES: Final[frozenset[str]] = frozenset(
     {"x_cap.dvdt_surge", "x_cap.impulse", "series_r.surge_energy", "series_r.surge_voltage"}
 )
 #: steps of the bisection on one knob (each a full search)
-_BISECT_STEPS: Final[int] = 5
+_BISECT_STEPS: Final[int] = 6
 
 
 @dataclass(frozen=True)
@@ -183,13 +183,16 @@ def _relaxations(req: Any, policy: Any, rule: str) -> list[Relaxation]:
     out: list[Relaxation] = []
     if rule == "whole.min_current" or rule.startswith("zener") or rule == "x_capacitor.*":
         if rule == "whole.min_current":
-            lo = 0.01 * req.load_a
+            # geometric steps: the load a catalogue carries can be orders of magnitude lower
+            def load_at(t: float) -> float:
+                return req.load_a * 0.01**t
+
             out.append(
                 Relaxation(
                     rule,
                     "load",
-                    lambda t: (replace(req, load_a=req.load_a - t * (req.load_a - lo)), policy),
-                    lambda t: _load_text(req.load_a - t * (req.load_a - lo)),
+                    lambda t: (replace(req, load_a=load_at(t)), policy),
+                    lambda t: _load_text(load_at(t)),
                 )
             )
         if req.topology == "half-wave":

@@ -350,8 +350,12 @@ def _explained(err, frame, req, pol, analyse, stats, deadline):
     if found is None:
         return err
     rule, text = found
+    detail = "no set passes every rule at every corner"
+    original = str(err)
+    if err.rule == rule and original.startswith(f"blocked by rule {rule}: "):
+        detail = original[len(f"blocked by rule {rule}: ") :].split("; relax:")[0]
     out = InfeasibleError(
-        f"blocked by rule {rule}: no set passes every rule at every corner; relax: {text} "
+        f"blocked by rule {rule}: {detail}; relax: {text} "
         "(checked: with it the search finds a design)",
         rule=rule,
         relaxation=text,
