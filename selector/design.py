@@ -1840,8 +1840,8 @@ def _best_passing(
     else:
         standby_ok = None
     for rule in R.rules_for(role):
-        if rule.role == "whole" or rule.applies is not None:
-            continue
+        if rule.role == "whole" or (rule.applies is not None and not rule.applies(s, ns)):
+            continue  # (the part-independent conditions: surge level, burst)
         if any(_missing(s.get(k)) for k in rule.stress_keys):
             continue  # the exact evaluate() turns this into a warn and rejects the design
         st, lim, _ = rule.check(s, ns, setup.policy)
