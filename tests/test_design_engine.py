@@ -25,6 +25,15 @@ REQUIREMENTS = [
     (0.004, 5.1, (60.0,), "half-wave"),
 ]
 
+#: the rules that apply to every design at the 1 kV surge (fuse.surge_i2t only to a real fuse)
+SURGE_AND_WINDOW_RULES = {
+    "x_cap.surge_total",
+    "bleeder.surge_voltage",
+    "rectifier.surge_i2t",
+    "zener.surge_power",
+    "whole.output_window_max",
+}
+
 
 @pytest.fixture(scope="module")
 def frame(builtin_frame):
@@ -47,6 +56,10 @@ def test_engine_design_passes_every_rule(frame, load, vout, freqs, top):
     d = _design(frame, load, vout, freqs, top)
     assert d.topology == top
     assert all(f.severity == "pass" for f in d.checks)
+    # the surge rules (issue 11) and the output window are among the checks that passed
+    ids = {f.rule for f in d.checks}
+    assert SURGE_AND_WINDOW_RULES <= ids
+    assert "fuse.surge_i2t" in ids or "fuse.fusible_opens_on_short" in ids
     assert d.worst_case.load_met
     assert d.worst_case.min_dc_current_a >= load * 1.1  # default load margin 10 % [P]
 

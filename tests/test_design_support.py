@@ -205,6 +205,36 @@ class _Sec(SimpleNamespace):
     pass
 
 
+def _standin_surge(loop, circuit, mains, cond, c_max, r_min):
+    """The loop model's surge (what the design screen bounds) plus the whole-circuit figures
+    (Zener, rectifier, fuse, bus, X-capacitor total) of the engine's generator model at one
+    corner: high line, highest frequency, +C, -R, nominal Zener voltage."""
+    from selector.engine.analysis import Corner, surge_through_circuit
+
+    k = Corner(
+        mains.high_v,
+        max(mains.frequencies_hz),
+        c_max,
+        r_min,
+        circuit.bleeder_resistance_ohm,
+        circuit.zener_voltage_v,
+    )
+    whole = surge_through_circuit(circuit, [k], cond.surge_v, cond.vout_max(circuit))
+    for name in (
+        "zener_peak_current_a",
+        "zener_pulse_energy_j",
+        "zener_peak_power_w",
+        "rectifier_peak_current_a",
+        "rectifier_i2t_a2s",
+        "fuse_i2t_a2s",
+        "bus_peak_v",
+        "x_cap_peak_total_v",
+        "vout_max_v",
+    ):
+        setattr(loop, name, getattr(whole, name))
+    return loop
+
+
 def standin_analyse(circuit, mains, tol, cond):
     """Worst case over corners from closed forms (DOMAIN.md section 2 [S])."""
     f_set = mains.frequencies_hz
@@ -276,7 +306,9 @@ def standin_analyse(circuit, mains, tol, cond):
 
     corner_circ = circuit.with_values(x_capacitors_f=(c_max,), series_resistance_ohm=r_min)
     surge = (
-        engine_surge(corner_circ, cond.surge_v, {})
+        _standin_surge(
+            engine_surge(corner_circ, cond.surge_v, {}), circuit, mains, cond, c_max, r_min
+        )
         if cond.surge_v > 0
         else SimpleNamespace(
             level_v=0.0,

@@ -326,8 +326,10 @@ def cheapest_passing(
     else:
         standby_ok = None
     for rule in R.rules_for(role):
-        if rule.role == "whole" or rule.applies is not None:
+        if rule.role == "whole":
             continue
+        if rule.applies is not None and not rule.applies(s, ns):
+            continue  # e.g. the surge rules without a surge level
         if any(is_missing(s.get(k)) for k in rule.stress_keys):
             continue  # the exact evaluate() turns this into a warn and rejects the design
         st, lim, _ = rule.check(s, ns, setup.policy)

@@ -171,6 +171,9 @@ class WorstCase:
     max_regulator_power_w: float | None
     min_regulator_headroom_v: float | None
     regulator_ok: bool | None
+    #: the output window the load tolerates (Conditions.vout_max / vout_min) [V]
+    vout_max_v: float | None = None
+    vout_min_v: float | None = None
 
 
 @dataclass
@@ -513,6 +516,8 @@ def analyse(
         max_regulator_power_w=reg_p,
         min_regulator_headroom_v=reg_h,
         regulator_ok=None if reg_h is None else bool(reg_h >= 0),
+        vout_max_v=cond.vout_max(circuit),
+        vout_min_v=cond.vout_min(circuit),
     )
     nom_reg_p, _ = _regulator_figures(circuit, nom)
     nominal = Nominal(

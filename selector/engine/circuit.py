@@ -26,6 +26,7 @@ __all__ = [
     "HARMONIC_PROFILES",
     "TOPOLOGIES",
     "VOUT_MAX_FACTOR",
+    "VOUT_MIN_FACTOR",
     "Circuit",
     "Conditions",
     "Harmonic",
@@ -346,18 +347,23 @@ class Tolerances:
 #: default highest allowed bus voltage as a multiple of the nominal bus voltage ([P] common
 #: practice, no source: parts on a clamped bus are commonly rated for 1.3 x its voltage)
 VOUT_MAX_FACTOR = 1.3
+#: default lowest allowed bus voltage as a multiple of the nominal bus voltage (vout - 10 %,
+#: [P] common practice, no source)
+VOUT_MIN_FACTOR = 0.9
 
 
 @dataclass(frozen=True)
 class Conditions:
     """Ambient temperature [C], discharge profile, IEC 61000-4-5 surge level [V] (0: none), and
     the highest bus voltage the load tolerates ``vout_max_v`` [V] (None: ``VOUT_MAX_FACTOR`` x
-    the nominal bus voltage, see :meth:`vout_max`)."""
+    the nominal bus voltage, see :meth:`vout_max`) and the lowest ``vout_min_v`` [V] (None:
+    ``VOUT_MIN_FACTOR`` x the nominal bus voltage, see :meth:`vout_min`)."""
 
     ambient_c: float = 40.0
     profile: str = "iec60335"
     surge_v: float = 1000.0
     vout_max_v: float | None = None
+    vout_min_v: float | None = None
 
     def __post_init__(self) -> None:
         _need(
@@ -370,9 +376,19 @@ class Conditions:
             self.vout_max_v is None or 0 < self.vout_max_v <= 1000,
             f"highest bus voltage {self.vout_max_v} V outside 0..1000 V",
         )
+        _need(
+            self.vout_min_v is None or 0 <= self.vout_min_v <= 1000,
+            f"lowest bus voltage {self.vout_min_v} V outside 0..1000 V",
+        )
 
     def vout_max(self, circuit: Circuit) -> float:
         """The highest allowed bus voltage [V]: the given one, else 1.3 x the bus voltage [P]."""
         if self.vout_max_v is not None:
             return self.vout_max_v
         return VOUT_MAX_FACTOR * circuit.bus_voltage_v
+
+    def vout_min(self, circuit: Circuit) -> float:
+        """The lowest allowed bus voltage [V]: the given one, else 0.9 x the bus voltage [P]."""
+        if self.vout_min_v is not None:
+            return self.vout_min_v
+        return VOUT_MIN_FACTOR * circuit.bus_voltage_v

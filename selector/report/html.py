@@ -12,11 +12,8 @@ and its JSON key in ``data-key``, and the whole JSON document is embedded in a
 ``<script type="application/json" id="dropper-result">`` element, so the page can be checked
 against (and machine-read like) the command's ``--json`` output.
 
-The report reads the JSON document generically: numeric leaves whose key ends in a unit suffix
-(``_a _v _w _f _ohm _s _j _hz _a2s``, ``_var _va`` for reactive and apparent power, and ``_c``
-for degrees Celsius) are shown in engineering notation; unit-less fractions (keys with a word
-such as ``tol``, ``tolerance``, ``loss``, ``fraction`` or ``margin``, see
-:data:`FRACTION_WORDS`) as percentages (``0.1`` -> ``10 %``); other leaves are shown as text.
+The report reads the JSON document generically: how one leaf is shown (units from the key's
+suffix, fractions as percentages) is :mod:`.cells`; the rows of its tables are :mod:`.tables`.
 """
 
 from __future__ import annotations
@@ -26,43 +23,33 @@ import datetime as _dt
 import json
 import math
 import os
-import re
 import tempfile
 from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
 import jinja2
-import markupsafe
 
 from .. import __version__
 from ..cautions import CAUTIONS
 from ..errors import BadValueError
-from ..units import format_percent, format_value
+from ..units import format_value
+from .cells import (
+    FRACTION_WORDS,
+    UNIT_SUFFIXES,
+    _breakable,
+    _Cell,
+    _flatten,
+    _is_number,
+    _quantity_name,
+)
 from .plots import Trace, waveform_svg
 from .schematic import TOPOLOGIES, schematic_svg
+from .tables import _ROLE_UNITS, PART_COLUMNS, _figure_rows, _ok_of, _table
 
 __all__ = ["FRACTION_WORDS", "REPORT_KINDS", "UNIT_SUFFIXES", "render_report", "write_report"]
 
 REPORT_KINDS = ("check", "design", "audit")
-
-#: JSON key suffix -> unit passed to ``format_value`` (longest suffixes first)
-UNIT_SUFFIXES: tuple[tuple[str, str], ...] = (
-    ("_a2s", "A2s"),
-    ("_ohm", "ohm"),
-    ("_var", "var"),
-    ("_va", "VA"),
-    ("_v_per_s", "V/s"),
-    ("_hz", "Hz"),
-    ("_mm2", "mm²"),
-    ("_a", "A"),
-    ("_v", "V"),
-    ("_w", "W"),
-    ("_f", "F"),
-    ("_s", "s"),
-    ("_j", "J"),
-    ("_c", "°C"),
-)
 
 _TITLES = {
     "check": "Worst-case check of a capacitive-dropper supply",
@@ -99,195 +86,6 @@ _CHECK_KEYS = ("findings", "checks")
 _SKIP_KEYS = frozenset({"cautions", "waveforms", *_PART_KEYS, *_CHECK_KEYS})
 
 
-def _unit_of(key: str) -> str | None:
-    for suffix, unit in UNIT_SUFFIXES:
-        if key.endswith(suffix):
-            return unit
-    return None
-
-
-def _quantity_name(key: str) -> str:
-    for suffix, _ in UNIT_SUFFIXES:
-        if key.endswith(suffix):
-            key = key[: -len(suffix)]
-            break
-    return key.replace("_", " ")
-
-
-#: words of a unit-less key that make its value a fraction shown as a percentage
-#: (``mains_tolerance``, ``cap_tol``, ``cap_loss``, ``zener_power_fraction``, ``load_margin``)
-FRACTION_WORDS = frozenset({"tol", "tolerance", "loss", "fraction", "margin"})
-
-
-def _is_fraction_key(key: str) -> bool:
-    """Whether a JSON key names a fraction (0.1 = 10 %): no unit suffix, and one of its
-    ``_``-separated words is in :data:`FRACTION_WORDS`."""
-    return _unit_of(key) is None and not FRACTION_WORDS.isdisjoint(key.lower().split("_"))
-
-
-def _is_number(x: Any) -> bool:
-    return isinstance(x, (int, float)) and not isinstance(x, bool)
-
-
-def _show(key: str, value: Any) -> str:
-    """Human text of one JSON leaf."""
-    if value is None:
-        return "–"
-    if isinstance(value, bool):
-        return "yes" if value else "no"
-    if _is_number(value):
-        unit = _unit_of(key)
-        if not math.isfinite(float(value)):
-            return str(value)
-        if key == "margin":  # a computed margin: signed, one decimal, so the column aligns
-            return f"{float(value) * 100:+.1f} %"
-        if unit is None and _is_fraction_key(key):
-            return format_percent(float(value))
-        if unit is None:
-            return f"{value:.4g}" if isinstance(value, float) else str(value)
-        if unit == "°C":
-            return f"{value:.4g} °C"
-        if unit in ("V/s", "mm²"):
-            return f"{format_value(float(value), '', 3)}{unit}".replace(" ", "")
-        return format_value(float(value), unit, 4)
-    if isinstance(value, (list, tuple)):
-        return ", ".join(_show(key, v) for v in value)
-    if isinstance(value, Mapping):
-        return "; ".join(f"{k}: {_show(str(k), v)}" for k, v in value.items())
-    return str(value)
-
-
-@dataclasses.dataclass(frozen=True)
-class _Cell:
-    """One shown value: text for people, ``key``/``si`` for checking against the JSON."""
-
-    text: str
-    key: str = ""
-    si: str = ""
-
-    @property
-    def css(self) -> str:
-        """``num`` (right-aligned, one line), ``text long`` (a word too long for a narrow
-        column, e.g. a stock code, may break anywhere), ``text prose`` (a sentence: on a
-        narrow page it may break anywhere too) or ``text`` (wraps between words and at the
-        ``.`` and ``_`` joints of names, see :func:`_breakable`)."""
-        if self.si:
-            return "num"
-        # a text cell wraps at spaces and where :func:`_breakable` puts a joint, nowhere else
-        pieces = re.split(r"\s+|<wbr>", _JOINED_WORD.sub(_wrap_word_joints, self.text))
-        if any(len(w) > 16 for w in pieces):
-            return "text long"
-        return "text prose" if len(self.text) > 30 else "text"
-
-    @classmethod
-    def of(cls, key: str, value: Any, path: str) -> _Cell:
-        """``key`` picks the unit (its suffix), ``path`` locates the value in the JSON."""
-        si = repr(float(value)) if _is_number(value) and math.isfinite(float(value)) else ""
-        return cls(_show(key, value), path, si)
-
-
-def _flatten(prefix: str, obj: Any, rows: list[tuple[str, Any]]) -> None:
-    if isinstance(obj, Mapping):
-        for k, v in obj.items():
-            _flatten(f"{prefix}.{k}" if prefix else str(k), v, rows)
-    else:
-        rows.append((prefix, obj))
-
-
-_CORNER_NAMES = {"mains_v": "mains", "freq_hz": "", "cap_f": "C", "r_ohm": "R", "vz_v": "Vz",
-                 "load_a": "load", "bleeder_ohm": "bleeder"}  # fmt: skip
-
-
-def _corner_text(corner: Any) -> str:
-    """A corner for people: ``mains 253 V, 60 Hz, C 363 nF, R 423 Ω, Vz 12.6 V, load 0 A``."""
-    if corner is None:
-        return ""
-    if isinstance(corner, Mapping):
-        bits = []
-        for k, v in corner.items():
-            name = _CORNER_NAMES.get(str(k), _quantity_name(str(k)))
-            bits.append(f"{name} {_show(str(k), v)}".strip())
-        return ", ".join(bits)
-    return str(corner)
-
-
-def _corner_for(key: str, data: Mapping[str, Any], corners: Mapping[str, Any]) -> Any:
-    """The corner of figure ``key``: ``corners[key]``, a sibling ``<key>_corner`` or
-    ``<key without unit suffix>_corner`` (``max_zener_power_w`` -> ``max_zener_power_corner``),
-    a sibling corner named by a word of the key (``rectifier_corner`` for
-    ``max_rectifier_peak_current_a``), else the section's own ``corner``."""
-    if key in corners:
-        return corners[key]
-    base = key
-    for suffix, _ in UNIT_SUFFIXES:
-        if key.endswith(suffix):
-            base = key[: -len(suffix)]
-            break
-    for cand in (f"{key}_corner", f"{base}_corner"):
-        if cand in data:
-            return data[cand]
-    words = base.split("_")
-    for ck in data:
-        if ck.endswith("_corner") and ck[: -len("_corner")] in words:
-            return data[ck]
-    return data.get("corner")
-
-
-def _figure_rows(section: str, data: Mapping[str, Any]) -> list[dict[str, Any]]:
-    """Rows (quantity, value cell, corner) of one section of computed figures.
-
-    A corner is found as ``corners[name]`` / ``corner_of[name]``, a sibling ``<name>_corner``
-    or, for a nested ``{"value": ..., "corner": ...}``, inside the value."""
-    corners: Mapping[str, Any] = {}
-    for ck in ("corners", "corner_of"):
-        if isinstance(data.get(ck), Mapping):
-            corners = data[ck]
-    rows = []
-    for k, v in data.items():
-        if k in ("corners", "corner_of", "corner") or k.endswith("_corner"):
-            continue
-        path = f"{section}.{k}"
-        corner = _corner_for(k, data, corners)
-        if isinstance(v, Mapping) and "corner" in v and any(_is_number(x) for x in v.values()):
-            corner = v.get("corner")
-            for vk, vv in v.items():
-                if vk != "corner" and (_is_number(vv) or vv is None):
-                    rows.append(
-                        {
-                            "quantity": f"{_quantity_name(k)} ({_quantity_name(vk)})"
-                            if vk not in ("value",)
-                            else _quantity_name(k),
-                            "cell": _Cell.of(vk if vk != "value" else k, vv, f"{path}.{vk}"),
-                            "corner": _corner_text(corner),
-                        }
-                    )
-            continue
-        if isinstance(v, Mapping):
-            sub = []
-            _flatten(path, v, sub)
-            for p, leaf in sub:
-                if isinstance(leaf, (list, tuple)) and len(leaf) > 8:
-                    continue
-                rows.append(
-                    {
-                        "quantity": _quantity_name(p.split(".", 1)[1].replace(".", " / ")),
-                        "cell": _Cell.of(p.rsplit(".", 1)[1], leaf, p),
-                        "corner": "",
-                    }
-                )
-            continue
-        if isinstance(v, (list, tuple)) and len(v) > 8:
-            continue  # arrays (waveforms) are plotted, not tabled
-        rows.append(
-            {
-                "quantity": _quantity_name(k),
-                "cell": _Cell.of(k, v, path),
-                "corner": _corner_text(corner),
-            }
-        )
-    return rows
-
-
 def _input_rows(result: Mapping[str, Any]) -> list[dict[str, Any]]:
     rows = []
     for section in _INPUT_KEYS:
@@ -310,114 +108,6 @@ def _input_rows(result: Mapping[str, Any]) -> list[dict[str, Any]]:
                 }
             )
     return rows
-
-
-#: columns of a findings/parts row whose unit is named by the row's own ``unit`` field
-_UNIT_FIELD_COLUMNS = frozenset({"stress", "rating", "limit", "value"})
-_UNIT_FIELD_NAMES = {
-    "V": "_v",
-    "A": "_a",
-    "W": "_w",
-    "J": "_j",
-    "s": "_s",
-    "F": "_f",
-    "ohm": "_ohm",
-    "Hz": "_hz",
-    "A2s": "_a2s",
-    "C": "_c",
-    "V/s": "_v_per_s",
-}
-
-
-#: unit of a part's ``value`` by its kind or role (as in the catalogue's VALUE_UNITS)
-_ROLE_UNITS = {
-    "x_capacitor": "F",
-    "film_capacitor": "F",
-    "electrolytic": "F",
-    "reservoir": "F",
-    "resistor": "ohm",
-    "series_resistor": "ohm",
-    "bleeder": "ohm",
-    "zener": "V",
-    "fuse": "A",
-    "diode": "A",
-    "bridge": "A",
-    "rectifier": "A",
-}
-
-
-def _ok_of(item: Mapping[str, Any]) -> bool | None:
-    """Pass/fail of a row: its ``ok`` field, else ``severity`` (fail = not ok)."""
-    if isinstance(item.get("ok"), bool):
-        return item["ok"]
-    severity = item.get("severity")
-    if isinstance(severity, str):
-        return severity.lower() != "fail"
-    return None
-
-
-def _row_cell(item: Mapping[str, Any], column: str, path: str) -> _Cell:
-    """One cell of a parts/findings row; the row's ``unit`` field gives the unit of its
-    stress/rating/limit/value, else a part's ``value_unit``, kind or role gives its value's."""
-    suffix = _UNIT_FIELD_NAMES.get(str(item.get("unit")), "")
-    role_unit = item.get("value_unit") if item.get("value_unit") in _UNIT_FIELD_NAMES else None
-    role_unit = role_unit or _ROLE_UNITS.get(str(item.get("kind") or item.get("role") or ""))
-    unit_key = column + suffix if column in _UNIT_FIELD_COLUMNS else column
-    if column == "value" and not suffix and role_unit:
-        unit_key = "value" + _UNIT_FIELD_NAMES[role_unit]
-    return _Cell.of(unit_key, item.get(column), f"{path}.{column}")
-
-
-#: columns of the parts table; every other field of a part (family, package, area and the
-#: ratings of its kind: ``rated_voltage_ac_v`` of a capacitor, ``vrrm_v`` of a rectifier, ...)
-#: is a line of the row's details cell, so a table of mixed parts fits the page width
-PART_COLUMNS = ("ref", "role", "code", "mpn", "description", "text", "value", "qty",
-                "arrangement", "unit_price", "line_price")  # fmt: skip
-
-
-def _table(
-    items: Sequence[Any], prefix: str, columns_kept: Sequence[str] | None = None
-) -> dict[str, Any]:
-    """Column headers and cells of a list of flat dicts (parts, findings). A row's ``unit``
-    field (``"V"``, ``"W"``, ...) gives the unit of its stress/rating/limit/value columns.
-
-    ``columns_kept``: when given, only these fields are columns; the others are lines of one
-    details cell per row (see :data:`PART_COLUMNS`)."""
-    columns: list[str] = []
-    for item in items:
-        if isinstance(item, Mapping):
-            for k, v in item.items():
-                if k not in columns and not isinstance(v, (Mapping,)):
-                    columns.append(k)
-    # a column empty in every row says nothing; the unit column is folded into the numbers
-    columns = [
-        c
-        for c in columns
-        if c not in ("unit", "value_unit")
-        and any(isinstance(it, Mapping) and it.get(c) not in (None, "", [], ()) for it in items)
-    ]
-    folded: list[str] = []
-    if columns_kept is not None:
-        folded = [c for c in columns if c not in columns_kept]
-        columns = [c for c in columns if c in columns_kept]
-    body = []
-    for i, item in enumerate(items):
-        item = item if isinstance(item, Mapping) else {"item": item}
-        path = f"{prefix}[{i}]"
-        details = [
-            {"name": _quantity_name(c), "cell": _row_cell(item, c, path)}
-            for c in folded
-            if item.get(c) not in (None, "", [], ())
-        ]
-        body.append(
-            {
-                "ok": _ok_of(item),
-                "severity": item.get("severity"),
-                "cells": [_row_cell(item, c, path) for c in columns],
-                "details": details,
-            }
-        )
-    return {"columns": [_quantity_name(c) for c in columns], "rows": body, "folded": bool(folded)}
 
 
 def _first_list(result: Mapping[str, Any], keys: Sequence[str]) -> tuple[str, list[Any]]:
@@ -453,34 +143,6 @@ def _plots(waveforms: Mapping[str, Any] | None) -> list[dict[str, str]]:
         if trs:
             out.append({"title": str(title), "svg": waveform_svg(str(title), unit, trs)})
     return out
-
-
-#: a word made of letter/digit runs joined by ``.`` or ``_`` (a name, a part code, a number)
-_JOINED_WORD = re.compile(r"[A-Za-z0-9]+(?:[._][A-Za-z0-9]+)+")
-
-
-def _wrap_word_joints(match: re.Match[str]) -> str:
-    """The word of ``match`` (see :data:`_JOINED_WORD`) with ``<wbr>`` after each joint, except
-    after a one-letter head (``x_capacitor``) and inside a number: a run of digits before the
-    joint and a digit after it (``4.84``, ``1.2MV``, ``0805.100k``)."""
-    pieces = re.split(r"([._])", match.group(0))
-    out = [pieces[0]]
-    for i in range(1, len(pieces), 2):
-        head, joint, tail = pieces[i - 1], pieces[i], pieces[i + 1]
-        number = head.isdigit() and tail[0].isdigit()
-        one_letter_head = i == 1 and len(head) < 2
-        out.append(joint + ("" if number or one_letter_head else "<wbr>") + tail)
-    return "".join(out)
-
-
-def _breakable(text: Any) -> markupsafe.Markup:
-    """Escaped text with a line-break opportunity (``<wbr>``) after each ``.`` and ``_`` that
-    joins two parts of a name or a part code (``series_r.surge_voltage``,
-    ``res.fusible.0w5.8R2.5pct``), so it wraps at its joints in a narrow column instead of
-    anywhere; not in numbers (``4.84``) and not after a one-letter head (``x_capacitor``).
-    :attr:`_Cell.css` counts on these joints when it judges whether a word fits a column."""
-    escaped = str(markupsafe.escape(text))
-    return markupsafe.Markup(_JOINED_WORD.sub(_wrap_word_joints, escaped))
 
 
 def _environment() -> jinja2.Environment:

@@ -22,6 +22,21 @@ def switch_on_i2t_vs_melting_i2t(
     return stresses["inrush_i2t_a2s"], part.i2t_a2s * policy.fuse_i2t_fraction
 
 
+def surge_i2t_vs_melting_i2t(
+    stresses: Mapping[str, Any], part: Any, policy: Policy
+) -> tuple[Any, Any]:
+    """The surge's line-current I^2t [A^2 s] (``surge_fuse_i2t_a2s``) against the fuse's melting
+    I^2t x ``fuse_i2t_fraction`` [A^2 s] (the same pulse derating as switch-on, [P]; the test
+    sequence applies five pulses of each polarity [M]).
+
+    Example: 0.0126 A^2 s against a 0.02 A^2 s fuse at 0.5: limit 0.01 A^2 s, fails.
+    """
+    return (
+        stresses["surge_fuse_i2t_a2s"],
+        np.asarray(part.i2t_a2s, dtype=float) * policy.fuse_i2t_fraction,
+    )
+
+
 def rated_current_vs_fault_current(
     stresses: Mapping[str, Any], part: Any, policy: Policy
 ) -> tuple[Any, Any]:

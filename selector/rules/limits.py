@@ -19,6 +19,13 @@ from ..errors import OutOfRangeError
 RESISTOR_GENERIC_DERATING_C: Final[tuple[float, float]] = (70.0, 155.0)
 #: Zener power derating when the row has none: full power at 25 C, zero at Tj max 150 C [S]
 ZENER_GENERIC_DERATING_C: Final[tuple[float, float]] = (25.0, 150.0)
+#: Zener non-repetitive pulse rating when the part has none: (peak power per watt of steady
+#: power class [W/W], rectangular pulse width [s]): 40 W per W at 100 us, junction at 25 C
+#: before the pulse. [M] from memory, not checked: generic small-signal Zener datasheets give
+#: some 30 W (0.5 W glass), 40 W (0.3 W SOT-23) and 60 W (1.3 W DO-41) at 100 us, i.e. 45-130
+#: W per W; 40 W per W sits below all of them. A datasheet figure (``zener_pulse_power_w``)
+#: replaces it.
+ZENER_GENERIC_PULSE: Final[tuple[float, float]] = (40.0, 100e-6)
 
 
 def margin(stress: Any, limit: Any) -> Any:

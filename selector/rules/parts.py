@@ -71,6 +71,10 @@ class RatedPart:
     temp_max_c: float | None = None
     i2t_a2s: float | None = None
     fusible: bool | None = None
+    #: Zener non-repetitive pulse power [W] at ``zener_pulse_width_s`` [s] (optional: read
+    #: when a catalogue row or BOM has it; else the generic figure ``ZENER_GENERIC_PULSE``)
+    zener_pulse_power_w: float | None = None
+    zener_pulse_width_s: float | None = None
 
     def __post_init__(self) -> None:
         if self.role not in ROLES:

@@ -114,3 +114,20 @@ def bleeder_voltage_vs_limiting_voltage(
     limiting voltage x ``limiting_voltage_fraction``."""
     stress = stresses["max_bleeder_voltage_v"] * part.voltage_share
     return stress, part.limiting_voltage_v * policy.limiting_voltage_fraction
+
+
+def bleeder_surge_voltage_vs_pulse_limit(
+    stresses: Mapping[str, Any], part: Any, policy: Policy
+) -> tuple[Any, Any]:
+    """Peak voltage on one bleeder element during the surge [V] against the limiting element
+    voltage x pulse factor x ``limiting_voltage_fraction`` [V].
+
+    The bleeder sits across the X capacitor, so it sees the capacitor's total surge peak (charge
+    plus step, ``surge_x_cap_peak_total_v``), split among elements in series
+    (``part.voltage_share``); the limit is that of ``surge_voltage_vs_pulse_limit`` (pulse
+    factor from IEC 60115-1 short-time overload [M]). Example: 1740 V over three 1206 elements
+    in series (580 V each) against 200 V x 2 x 0.8 = 320 V: fails.
+    """
+    stress = np.asarray(stresses["surge_x_cap_peak_total_v"], dtype=float) * part.voltage_share
+    limit = part.limiting_voltage_v * policy.pulse_voltage_factor * policy.limiting_voltage_fraction
+    return stress, limit

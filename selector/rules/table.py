@@ -18,6 +18,7 @@ from ..policy import Policy
 from .fuse import (
     rated_current_vs_fault_current,
     rated_power_vs_fault_power,
+    surge_i2t_vs_melting_i2t,
     switch_on_i2t_vs_melting_i2t,
 )
 from .limits import margin
@@ -30,6 +31,7 @@ from .reservoir import (
 )
 from .resistors import (
     bleeder_power_vs_derated_rating,
+    bleeder_surge_voltage_vs_pulse_limit,
     bleeder_voltage_vs_limiting_voltage,
     discharge_time_vs_profile,
     series_r_power_vs_derated_rating,
@@ -42,11 +44,14 @@ from .resistors import (
 from .semiconductors import (
     average_current_vs_if_av,
     mains_crest_vs_vrrm,
+    rectifier_surge_i2t_vs_ifsm_i2t,
     switch_on_peak_current_vs_ifsm,
     zener_power_vs_derated_rating,
+    zener_surge_power_vs_pulse_rating,
 )
 from .whole import (
     burst_droop_vs_bus_fraction,
+    highest_output_vs_vout_max,
     load_vs_min_dc_current,
     no_load_power_vs_standby_limit,
 )
@@ -55,6 +60,7 @@ from .x_capacitor import (
     safety_class_is_x_subclass,
     surge_dvdt_vs_rating,
     surge_level_vs_class_impulse,
+    surge_total_vs_class_impulse,
     switch_on_dvdt_vs_rating,
 )
 
@@ -101,6 +107,11 @@ def surge_given(stresses: Mapping[str, Any], part: Any) -> bool:
     return level is not None and not (isinstance(level, float) and math.isnan(level)) and level > 0
 
 
+def real_fuse_and_surge(stresses: Mapping[str, Any], part: Any) -> bool:
+    """A real fuse (not a fusible resistor) and a surge level is set."""
+    return not_fusible_resistor(stresses, part) and surge_given(stresses, part)
+
+
 def burst_given(stresses: Mapping[str, Any], part: Any) -> bool:
     """The load has a burst (current and duration both set)."""
     return bool(stresses.get("burst_current_a")) and bool(stresses.get("burst_duration_s"))
@@ -109,6 +120,7 @@ def burst_given(stresses: Mapping[str, Any], part: Any) -> bool:
 _PULSE_FACTOR_SOURCE: Final[str] = (
     SOURCE_P + "; pulse factor from IEC 60115-1 short-time overload [M]"
 )
+_SURGE_SOURCE: Final[str] = "surge per IEC 61000-4-5, through the whole circuit"
 _RESISTOR_DERATING_SOURCE: Final[str] = (
     SOURCE_P + "; derating 70 C -> 155 C from generic datasheets [S]"
 )
@@ -144,6 +156,13 @@ RULES: Final[tuple[Rule, ...]] = (
          SOURCE_P + "; surge per IEC 61000-4-5",
          "V/s", surge_dvdt_vs_rating,
          ratings=("dvdt_v_per_s",), stress_keys=("surge_x_cap_dvdt_v_per_s",),
+         applies=surge_given),
+    Rule("x_cap.surge_total", "x_capacitor",
+         "highest voltage during the surge (charge at the phase + step) <= the class's peak "
+         "impulse in service (X3 1.2 kV, X2 2.5 kV, X1 4 kV)",
+         "IEC 60384-14, peak impulse voltage in service [S]; " + _SURGE_SOURCE,
+         "V", surge_total_vs_class_impulse,
+         ratings=("safety_class",), stress_keys=("surge_x_cap_peak_total_v",),
          applies=surge_given),
     # --- series resistor (resistors.py) -----------------------------------------------------
     Rule("series_r.power", "series_resistor",
@@ -200,6 +219,13 @@ RULES: Final[tuple[Rule, ...]] = (
          "V", bleeder_voltage_vs_limiting_voltage,
          ratings=("limiting_voltage_v",), stress_keys=("max_bleeder_voltage_v",),
          corner_key="max_bleeder_voltage_v"),
+    Rule("bleeder.surge_voltage", "bleeder",
+         "surge peak voltage per element (the X capacitor's total surge peak, split among "
+         "elements in series) <= limiting voltage x pulse factor x policy fraction",
+         _PULSE_FACTOR_SOURCE + "; " + _SURGE_SOURCE,
+         "V", bleeder_surge_voltage_vs_pulse_limit,
+         ratings=("limiting_voltage_v",), stress_keys=("surge_x_cap_peak_total_v",),
+         applies=surge_given),
     # --- rectifier and Zener (semiconductors.py) --------------------------------------------
     Rule("rectifier.vrrm", "rectifier",
          "VRRM >= highest mains crest",
@@ -218,6 +244,13 @@ RULES: Final[tuple[Rule, ...]] = (
          "A", average_current_vs_if_av,
          ratings=("if_av_a",), stress_keys=("max_rectifier_avg_current_a",),
          corner_key="max_rectifier_avg_current_a"),
+    Rule("rectifier.surge_i2t", "rectifier",
+         "surge I^2t per diode <= I^2t of the IFSM half sine (IFSM^2 x 8.3 ms / 2) x policy "
+         "fraction",
+         SOURCE_P + "; I^2t of a half sine = I^2 t / 2 [S]; " + _SURGE_SOURCE,
+         "A2s", rectifier_surge_i2t_vs_ifsm_i2t,
+         ratings=("ifsm_a",), stress_keys=("surge_rectifier_i2t_a2s",),
+         applies=surge_given),
     Rule("zener.power", "zener",
          "worst-case dissipation per element (zero load, high line, high frequency) <= power "
          "derated to the ambient x policy fraction",
@@ -225,6 +258,16 @@ RULES: Final[tuple[Rule, ...]] = (
          "W", zener_power_vs_derated_rating,
          ratings=("power_w",), stress_keys=("max_zener_power_w", "ambient_c"),
          corner_key="max_zener_power_w"),
+    Rule("zener.surge_power", "zener",
+         "surge peak power per element <= non-repetitive pulse rating scaled to the surge's "
+         "width (sqrt law) x policy fraction; without a pulse rating 40 W per W of steady "
+         "power at 100 us [M]",
+         SOURCE_P + "; generic pulse rating 40 W/W at 100 us [M] from memory; "
+         + _SURGE_SOURCE,
+         "W", zener_surge_power_vs_pulse_rating,
+         ratings=("power_w",),
+         stress_keys=("surge_zener_peak_power_w", "surge_zener_pulse_energy_j"),
+         applies=surge_given),
     # --- reservoir (reservoir.py) -----------------------------------------------------------
     Rule("reservoir.voltage", "reservoir",
          "highest bus voltage <= rated voltage x policy fraction (rated >= Vz_max / 0.8)",
@@ -256,6 +299,12 @@ RULES: Final[tuple[Rule, ...]] = (
          "A2s", switch_on_i2t_vs_melting_i2t,
          ratings=("i2t_a2s",), stress_keys=("inrush_i2t_a2s",),
          applies=not_fusible_resistor),
+    Rule("fuse.surge_i2t", "fuse",
+         "the fuse does not open on the surge: surge I^2t <= melting I^2t x policy fraction",
+         SOURCE_P + "; " + _SURGE_SOURCE,
+         "A2s", surge_i2t_vs_melting_i2t,
+         ratings=("i2t_a2s",), stress_keys=("surge_fuse_i2t_a2s",),
+         applies=real_fuse_and_surge),
     Rule("fuse.opens_on_short", "fuse",
          "the fuse opens if the X capacitor shorts: low-line fault current through the series "
          "resistance >= rated current x policy factor",
@@ -291,6 +340,13 @@ RULES: Final[tuple[Rule, ...]] = (
          stress_keys=("burst_current_a", "burst_duration_s", "reservoir_min_f",
                       "zener_voltage_v"),
          corner_key="min_dc_current_a", applies=burst_given),
+    Rule("whole.output_window_max", "whole",
+         "output window, top: highest bus voltage (no load, high corner) <= highest voltage "
+         "the load tolerates (default 1.3 x bus)",
+         SOURCE_P,
+         "V", highest_output_vs_vout_max,
+         stress_keys=("max_output_voltage_v", "zener_voltage_v"),
+         corner_key="max_output_voltage_v"),
 )
 # fmt: on
 

@@ -1,4 +1,5 @@
-"""Stress and limit of each whole-circuit rule: minimum current, standby power, burst hold-up.
+"""Stress and limit of each whole-circuit rule: minimum current, standby power, burst hold-up,
+the bus peak during the surge and the output window.
 
 Every function maps ``(stresses, part, policy)`` to ``(stress, limit)`` (see
 ``selector.rules.x_capacitor``); ``part`` is None, these rules look at the circuit only.
@@ -6,11 +7,13 @@ Every function maps ``(stresses, part, policy)`` to ``(stress, limit)`` (see
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from typing import Any
 
 import numpy as np
 
+from ..engine.circuit import VOUT_MAX_FACTOR, VOUT_MIN_FACTOR
 from ..policy import Policy
 
 
@@ -40,3 +43,68 @@ def burst_droop_vs_bus_fraction(
     reservoir_min_f = stresses["reservoir_min_f"]
     droop_v = deficit_a * stresses["burst_duration_s"] / np.maximum(reservoir_min_f, 1e-12)
     return droop_v, stresses["zener_voltage_v"] * policy.burst_droop_fraction
+
+
+def _given(value: Any) -> bool:
+    return value is not None and not (isinstance(value, float) and math.isnan(value))
+
+
+def vout_max_of(stresses: Mapping[str, Any]) -> Any:
+    """The highest bus voltage the load tolerates [V]: ``vout_max_v`` (the analysis's
+    ``Conditions.vout_max``, ``--vout-max``), else the surge section's ``surge_vout_max_v``,
+    else 1.3 x ``zener_voltage_v`` [P] (a bare stress mapping)."""
+    for key in ("vout_max_v", "surge_vout_max_v"):
+        if _given(stresses.get(key)):
+            return stresses[key]
+    return VOUT_MAX_FACTOR * np.asarray(stresses["zener_voltage_v"], dtype=float)
+
+
+def vout_min_of(stresses: Mapping[str, Any]) -> Any:
+    """The lowest bus voltage the load tolerates [V]: ``vout_min_v`` (the analysis's
+    ``Conditions.vout_min``: default 0.9 x the bus voltage, vout - 10 % [P]), else 0.9 x
+    ``zener_voltage_v`` (a bare stress mapping)."""
+    if _given(stresses.get("vout_min_v")):
+        return stresses["vout_min_v"]
+    return VOUT_MIN_FACTOR * np.asarray(stresses["zener_voltage_v"], dtype=float)
+
+
+def bus_surge_peak_vs_vout_max(
+    stresses: Mapping[str, Any], part: Any, policy: Policy
+) -> tuple[Any, Any]:
+    """The bus voltage's peak during the surge [V] (``surge_bus_peak_v``) against the highest
+    voltage the load tolerates (:func:`vout_max_of`; default 1.3 x the bus voltage [P]).
+
+    Example: 14.4 V against 6.63 V (5.1 V bus): fails; 6.39 V passes.
+
+    Not registered in ``RULES`` yet: the design screen has no bound for it, so at 1 kV every
+    low-resistance candidate fails it in the exact check and the solver hits its verification
+    cap before it reaches the series resistance (some hundreds of ohm) it needs.
+    """
+    return stresses["surge_bus_peak_v"], vout_max_of(stresses)
+
+
+def highest_output_vs_vout_max(
+    stresses: Mapping[str, Any], part: Any, policy: Policy
+) -> tuple[Any, Any]:
+    """Upper edge of the output window: the highest steady bus voltage [V] (no load, high
+    corner, ripple crest: ``max_output_voltage_v``) against :func:`vout_max_of` [V].
+
+    Example: 5.89 V against 1.3 x 5.1 V = 6.63 V: passes.
+    """
+    return stresses["max_output_voltage_v"], vout_max_of(stresses)
+
+
+def vout_min_vs_lowest_output(
+    stresses: Mapping[str, Any], part: Any, policy: Policy
+) -> tuple[Any, Any]:
+    """Lower edge of the output window, a requirement: the lowest voltage the load tolerates
+    (:func:`vout_min_of`, default 0.9 x the bus voltage [P]) [V] against the lowest steady bus
+    voltage (full load, low corner, ripple trough: ``min_output_voltage_v``) [V].
+
+    Example: 0.9 x 5.1 V = 4.59 V against a trough of 4.62 V: passes; 4.5 V fails.
+
+    Not registered in ``RULES`` yet: with the default Zener tolerance (5 %) and the output ripple
+    the rules allow (10 % of Vz peak to peak) the default window leaves almost nothing, and the
+    design screen has no bound for it (the solver hits its verification cap).
+    """
+    return vout_min_of(stresses), stresses["min_output_voltage_v"]

@@ -54,3 +54,15 @@ def switch_on_dvdt_vs_rating(
 def surge_dvdt_vs_rating(stresses: Mapping[str, Any], part: Any, policy: Policy) -> tuple[Any, Any]:
     """dV/dt on the X capacitor during the mains surge [V/s] against rated dV/dt x fraction."""
     return stresses["surge_x_cap_dvdt_v_per_s"], part.dvdt_v_per_s * policy.dvdt_fraction
+
+
+def surge_total_vs_class_impulse(
+    stresses: Mapping[str, Any], part: Any, policy: Policy
+) -> tuple[Any, Any]:
+    """The X capacitor's highest voltage during the surge [V] (its charge at the surge's phase
+    plus the step, ``surge_x_cap_peak_total_v``) against the peak impulse voltage in service of
+    its class [V] (IEC 60384-14 [S]: X1 4 kV, X2 2.5 kV, X3 1.2 kV; ``X_CLASS_IMPULSE_V``).
+
+    Example: 1614 V on an X2 (2500 V) passes; on an X3 (1200 V) it fails.
+    """
+    return stresses["surge_x_cap_peak_total_v"], part.class_impulse_v

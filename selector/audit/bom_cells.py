@@ -1,0 +1,170 @@
+"""Bytes of a BOM file to rows of cell texts: decoding, CSV/TSV sniffing and XLSX cells.
+
+Steps 1 and 2 of :mod:`.bom`: a byte-order mark is honoured, other text must be UTF-8 or of the
+named encoding (never guessed); CSV and TSV rows keep the file's own line numbers; an XLSX
+sheet is read through openpyxl, which also reports merged cells.
+"""
+
+from __future__ import annotations
+
+import codecs
+import csv
+import io
+from pathlib import Path
+
+from ..errors import BadRowError, BadValueError
+from .bom_headers import _find_header, map_headers
+
+
+def _decode(path: Path, raw: bytes, encoding: str | None) -> tuple[str, str, list[str]]:
+    """(text, encoding used, notes). Refuses to guess."""
+    notes: list[str] = []
+    if encoding is not None:
+        try:
+            codecs.lookup(encoding)
+        except LookupError:
+            raise BadValueError(
+                f"unknown encoding {encoding!r}; e.g. utf-8, latin-1, cp1252, utf-16"
+            ) from None
+        try:
+            text = raw.decode(encoding)
+        except UnicodeDecodeError as exc:
+            _raise_decode(path, raw, exc, encoding)
+        return text.removeprefix("\ufeff"), encoding, notes
+    if raw.startswith(codecs.BOM_UTF8):
+        notes.append("file is UTF-8 with a byte-order mark (read as such)")
+        enc = "utf-8-sig"
+    elif raw.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
+        notes.append("file is UTF-16 with a byte-order mark (read as such)")
+        enc = "utf-16"
+    elif b"\x00" in raw:
+        line = raw[: raw.index(b"\x00")].count(b"\n") + 1
+        raise BadRowError(
+            str(path),
+            line,
+            None,
+            "holds NUL bytes: UTF-16 text without a byte-order mark? "
+            "pass --encoding utf-16-le (or utf-16-be), or re-save it as UTF-8",
+        )
+    else:
+        enc = "utf-8"
+    try:
+        text = raw.decode(enc)
+    except UnicodeDecodeError as exc:
+        _raise_decode(path, raw, exc, enc)
+    return text.removeprefix("\ufeff"), enc, notes
+
+
+def _raise_decode(path: Path, raw: bytes, exc: UnicodeDecodeError, enc: str) -> None:
+    start = exc.start
+    line_start = raw.rfind(b"\n", 0, start) + 1
+    row = raw.count(b"\n", 0, start) + 1
+    column = None
+    try:  # which column: find the header in the text read leniently, count cells before the byte
+        text = raw.decode(enc, errors="replace").removeprefix("\ufeff")
+        delim = "\t" if path.suffix.lower() == ".tsv" else _sniff(text[:65536])
+        rows = [
+            (i, next(csv.reader([ln], delimiter=delim), []))
+            for i, ln in enumerate(text.splitlines(), 1)
+        ]
+        _, _, mapping = _find_header(rows, None, "")
+        header = next(cells for i, cells in rows if cells and map_headers(cells) == mapping)
+        before = raw[line_start:start].decode(enc, errors="replace")
+        index = len(next(csv.reader([before], delimiter=delim), [""])) - 1
+        if 0 <= index < len(header):
+            column = header[index].strip() or None
+    except (csv.Error, StopIteration, BadRowError, BadValueError):
+        pass
+    byte = raw[start : start + 1].hex()
+    raise BadRowError(
+        str(path),
+        row,
+        column,
+        f"byte 0x{byte} is not {enc} text (Latin-1 or Windows-1252?); "
+        "re-save the file as UTF-8 or pass --encoding latin-1 (or cp1252)",
+    )
+
+
+def _sniff(sample: str) -> str:
+    """The delimiter among , TAB ; | that splits the sample's lines most consistently: the most
+    common non-zero count of it per line, times the share of lines that have that count."""
+    from collections import Counter
+
+    lines = [ln for ln in sample.splitlines() if ln.strip()][:30]
+    best, best_score = ",", 0.0
+    for delim in (",", "\t", ";", "|"):
+        counts = Counter(ln.count(delim) for ln in lines)
+        counts.pop(0, None)
+        if not counts:
+            continue
+        n, hits = counts.most_common(1)[0]
+        score = n * hits / len(lines)
+        if score > best_score:
+            best, best_score = delim, score
+    return best
+
+
+def _read_text_rows(path: Path, text: str) -> list[tuple[int, list[str]]]:
+    """(line number, cells) for each record of a CSV/TSV text."""
+    delim = "\t" if path.suffix.lower() == ".tsv" else _sniff(text[:65536])
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delim)
+    rows: list[tuple[int, list[str]]] = []
+    start = 1
+    try:
+        for cells in reader:
+            rows.append((start, [c.strip() for c in cells]))
+            start = reader.line_num + 1
+    except csv.Error as exc:
+        raise BadRowError(str(path), reader.line_num, None, f"cannot read as CSV: {exc}") from None
+    return rows
+
+
+def _cell_text(value: object) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return str(value)
+    if isinstance(value, float):
+        if value == int(value) and abs(value) < 1e15:
+            return str(int(value))
+        return f"{value:.12g}"
+    return str(value).strip()
+
+
+def _read_xlsx_rows(path: Path, sheet: str | None) -> tuple[str, list[tuple[int, list[str]]], list]:
+    import zipfile
+
+    from openpyxl import load_workbook
+
+    try:
+        book = load_workbook(path, data_only=True)
+    except (zipfile.BadZipFile, KeyError, OSError, ValueError) as exc:
+        raise BadRowError(
+            str(path), None, None, f"cannot read as an XLSX workbook: {exc}"
+        ) from None
+    names = book.sheetnames
+    if sheet is None:
+        if len(names) != 1:
+            raise BadRowError(
+                str(path),
+                None,
+                None,
+                f"the workbook has {len(names)} sheets ({', '.join(names)}); "
+                "say which one holds the BOM with --sheet NAME",
+            )
+        sheet = names[0]
+    elif sheet not in names:
+        from rapidfuzz import process
+
+        match = process.extractOne(sheet, names)
+        hint = f"; did you mean '{match[0]}'?" if match else ""
+        raise BadRowError(
+            str(path), None, None, f"no sheet '{sheet}' (sheets: {', '.join(names)}){hint}"
+        )
+    ws = book[sheet]
+    rows = [
+        (i, [_cell_text(v) for v in values])
+        for i, values in enumerate(ws.iter_rows(values_only=True), start=1)
+    ]
+    merged = [(str(r), r.min_row, r.max_row) for r in ws.merged_cells.ranges]
+    return sheet, rows, merged
