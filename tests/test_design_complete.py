@@ -56,7 +56,8 @@ def test_readme_request_uses_two_different_series_resistors_and_audits_clean(fra
     assert any("fusible" in p.family for p in series)
     assert not any(p.role == "fuse" for p in d.parts)  # the fusible resistor is the fuse
     assert d.search["exhaustive"] and d.search["best_possible_key"] == d.search["best_found_key"]
-    assert _audit_clean(d, tmp_path, "12m")["summary"] == {"fail": 0, "warn": 0, "pass": 31}
+    summary = _audit_clean(d, tmp_path, "12m")["summary"]
+    assert summary["fail"] == 0 and summary["warn"] == 0 and summary["pass"] >= 31
 
 
 def test_request_refused_before_now_gets_an_audit_clean_design(frame, tmp_path):
