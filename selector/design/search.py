@@ -27,13 +27,24 @@ from .pairs import add_series_pairs, add_x_pairs
 from .requirement import KEY_BITS, PRICE_SCALE, Design, Requirement
 from .result import to_design
 from .screen import screen_x_chunk
-from .setup import prepare
-from .verify import engine_api, verify_candidate
+from .setup import memoised, prepare
+from .verify import SURGE_BATCH, engine_api, prefetch_surge_bounds, verify_candidate
 
 #: a candidate whose exact minimum current misses the load by more than this fraction also
 #: rules out the same X capacitance with any larger series resistance (the current falls with
 #: R; the completion's diode drop and Zener impedance move it by well under 0.5 %)
 CUT_TOLERANCE: Final[float] = 0.005
+
+#: a candidate whose quick surge bound exceeds the limit of an X-capacitor surge rule by more
+#: than this fraction also rules out the same X option with any lower series resistance (less
+#: resistance, more pulse current, a larger dV/dt and voltage step); one that exceeds a
+#: series-R surge rule's limit so rules out the same series option with any larger X
+#: capacitance (the capacitor charges less during the pulse and passes more current). The
+#: completion parts move these figures by a few per cent at most (the bus is clamped near the
+#: Zener voltage, far below the surge's); measured in tests/test_design_bounds.py
+SURGE_CUT_TOLERANCE: Final[float] = 0.03
+X_SURGE_CUT_RULES: Final[tuple[str, ...]] = ("x_cap.dvdt_surge", "x_cap.surge_total")
+R_SURGE_CUT_RULES: Final[tuple[str, ...]] = ("series_r.surge_voltage", "series_r.surge_energy")
 
 
 @dataclass
@@ -46,6 +57,8 @@ class _Pending:
     completions: np.ndarray
     group: ZenerGroup
     pos: int = 0
+    #: points before this one have their quick surge bounds computed (batched)
+    prefetched: int = 0
 
     def head_key(self) -> int | None:
         return int(self.keys[self.pos]) if self.pos < len(self.keys) else None
@@ -62,6 +75,11 @@ class _Search:
     pending: list[_Pending] = field(default_factory=list)
     found: list[tuple[tuple[int, float], Any]] = field(default_factory=list)
     cuts: dict[tuple[int, int], float] = field(default_factory=dict)
+    #: (group, X option) -> the highest low-corner series R that failed an X surge rule
+    x_surge_cuts: dict[tuple[int, int], float] = field(default_factory=dict)
+    #: (group, series option) -> the lowest high-corner X capacitance that failed a series-R
+    #: surge rule
+    r_surge_cuts: dict[tuple[int, int], float] = field(default_factory=dict)
     seconds: dict[str, float] = field(default_factory=lambda: dict.fromkeys(STAGES, 0.0))
     stopped_by: str | None = None
 
@@ -134,10 +152,11 @@ def design(
     pol = policy or Policy()
     setup = prepare(frame, req, pol)
     api = engine_api()
-    setup.analyse = analyse or api.analyse
+    setup.analyse = analyse or memoised(api.analyse)
     # the quick exact rejection needs the engine's own analysis (not a stand-in)
-    setup.min_current = api.min_dc_current if analyse is None else None
-    setup.surge_bounds = api.surge_lower_bounds if analyse is None else None
+    setup.min_current = memoised(api.min_dc_current) if analyse is None else None
+    setup.surge_bounds = memoised(api.surge_lower_bounds) if analyse is None else None
+    setup.surge_bounds_many = api.surge_lower_bounds_many if analyse is None else None
     if setup.analyse is None:
         raise RuntimeError("selector.engine.analyse is not available")
     try:
@@ -254,15 +273,45 @@ def _verify_pending(run: _Search, next_unscreened: int) -> None:
         if cut_key in run.cuts and r_corner >= run.cuts[cut_key]:
             stats["cut"] = stats.get("cut", 0) + 1
             continue
+        r_low = float(setup.ro.attrs["total_ohm"][series_option]) * (
+            1 - float(np.nan_to_num(setup.ro.attrs["tolerance"][series_option], nan=0.05))
+        )
+        c_high = x_corner_high(setup, x_option)
+        if r_low <= run.x_surge_cuts.get(cut_key, -math.inf) or c_high >= run.r_surge_cuts.get(
+            (id(group), series_option), math.inf
+        ):
+            stats["surge_cut"] = stats.get("surge_cut", 0) + 1
+            continue
         stats["verified"] += 1
         setup.last_exact = None
+        setup.last_excess = {}
         t = time.monotonic()
+        if i >= head.prefetched:
+            # the quick surge bounds of this point and the next ones, in one simulation
+            stop = min(i + SURGE_BATCH, len(head.keys))
+            points = [
+                (int(head.x_options[j]), int(head.series_options[j]), tuple(head.completions[j]))
+                for j in range(i, stop)
+                if int(head.keys[j]) < run.bound()
+            ]
+            prefetch_surge_bounds(setup, group.topology, group.vz, points)
+            head.prefetched = stop
         res = verify_candidate(setup, group.topology, group.vz, x_option, series_option, guess)
         run.seconds["verify"] += time.monotonic() - t
         if res is not None:
             # equal keys: the lower no-load (standby) power first (tie-break policy)
             no_load = getattr(getattr(res[2], "worst_case", None), "no_load_real_power_w", None)
             run.found.append(((res[0], float(no_load or 0.0)), res))
+        elif setup.last_exact is not None and setup.last_excess:
+            # cuts on the surge rules of the X capacitor and the series resistance (see
+            # SURGE_CUT_TOLERANCE): this X with any lower series resistance, and this series
+            # option with any larger X capacitance, fail the same rule
+            excess = setup.last_excess
+            if any(excess.get(rid, 0.0) > 1 + SURGE_CUT_TOLERANCE for rid in X_SURGE_CUT_RULES):
+                run.x_surge_cuts[cut_key] = max(run.x_surge_cuts.get(cut_key, -math.inf), r_low)
+            if any(excess.get(rid, 0.0) > 1 + SURGE_CUT_TOLERANCE for rid in R_SURGE_CUT_RULES):
+                key_r = (id(group), series_option)
+                run.r_surge_cuts[key_r] = min(run.r_surge_cuts.get(key_r, math.inf), c_high)
         elif setup.last_exact is not None and "whole.min_current" in setup.last_exact[0]:
             s_ex = setup.last_exact[1]
             # cut: with this X in this group, a larger series resistance only lowers the
@@ -271,6 +320,13 @@ def _verify_pending(run: _Search, next_unscreened: int) -> None:
                 1 + setup.policy.load_margin
             ):
                 run.cuts[cut_key] = min(run.cuts.get(cut_key, math.inf), r_corner)
+
+
+def x_corner_high(setup, x_option: int) -> float:
+    """The X option's capacitance at its upper tolerance [F] (the surge's high corner)."""
+    attrs = setup.xo.attrs
+    tol = float(np.nan_to_num(attrs["tolerance"][x_option], nan=0.2))
+    return float(attrs["value"][x_option]) * (1 + tol)
 
 
 def _key_price(key: int, minimize: str) -> float | None:

@@ -53,8 +53,39 @@ class SearchSetup:
     min_current: Callable[..., float] | None = None
     #: engine.analysis.surge_lower_bounds likewise
     surge_bounds: Callable[..., dict[str, float]] | None = None
+    #: engine.analysis.surge_lower_bounds_many: the same for a batch (verify.prefetch_surge_bounds)
+    surge_bounds_many: Callable[..., list[dict[str, float]]] | None = None
     stats: dict[str, Any] | None = None
     last_exact: Any = None
+    #: stress / limit of each surge rule that failed the last quick precheck (verify)
+    last_excess: dict[str, float] = field(default_factory=dict)
+
+
+def memoised(fn: Callable[..., Any]) -> Callable[..., Any]:
+    """``fn`` with its results kept per argument tuple, for the engine's pure functions.
+
+    Many grid points build the same circuit: parts of equal value, tolerance and model (an X2
+    and an X3 capacitor of one value, two series options of one total) differ only in their
+    ratings, which the engine never reads. The engine's functions depend on their arguments
+    alone (frozen dataclasses, compared field by field), so a repeated call returns the very
+    same result; unhashable arguments are passed through uncached.
+    """
+    cache: dict[Any, Any] = {}
+
+    def call(*args: Any) -> Any:
+        try:
+            hit = cache.get(args, _MISSING)
+        except TypeError:
+            return fn(*args)
+        if hit is _MISSING:
+            hit = cache[args] = fn(*args)
+        return hit
+
+    call.cache = cache  # type: ignore[attr-defined]
+    return call
+
+
+_MISSING = object()
 
 
 def filter_frame(df: pd.DataFrame, req: Requirement) -> pd.DataFrame:

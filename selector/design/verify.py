@@ -63,9 +63,15 @@ def engine_api():
     from ..engine import circuit as C
 
     ns = SimpleNamespace(**{k: getattr(C, k) for k in C.__all__})
-    from ..engine.analysis import analyse, min_dc_current, surge_lower_bounds
+    from ..engine.analysis import (
+        analyse,
+        min_dc_current,
+        surge_lower_bounds,
+        surge_lower_bounds_many,
+    )
 
     ns.analyse = analyse
+    ns.surge_lower_bounds_many = surge_lower_bounds_many
     ns.min_dc_current = min_dc_current
     ns.surge_lower_bounds = surge_lower_bounds
     return ns
@@ -129,6 +135,14 @@ def circuit_for(setup, topology, vz, xi, ri, zi, di, ci, bi):
     return circ, tol
 
 
+def rule_role(rule_id: str) -> str:
+    """The role of a rule id, or of a role wildcard such as ``zener.*``."""
+    try:
+        return rule_by_id(rule_id).role
+    except KeyError:
+        return "whole" if rule_id.startswith("whole.") else rule_id.split(".")[0]
+
+
 def number_or(v: Any, default: float) -> float:
     try:
         f = float(v)
@@ -155,12 +169,50 @@ def rule_context(setup, circ, vz, ci, r_tol=0.0):
     return ctx
 
 
-#: rules checked on ``surge_lower_bounds`` before the full analysis (their parts are known)
-SURGE_PRECHECK_RULES: Final[tuple[str, ...]] = (
-    "series_r.surge_voltage",
-    "series_r.surge_energy",
-    "x_cap.dvdt_surge",
-)
+def surge_precheck_rules() -> tuple[R.Rule, ...]:
+    """The rules checked on ``surge_lower_bounds`` before the full analysis: every rule of a
+    part known before it (not the fuse, chosen after it) that reads surge figures only. Each
+    compares a stress that can only grow from the quick bound to the full analysis with a
+    limit of the part alone, so a failure on the bound is a failure of the analysis."""
+    return tuple(
+        r
+        for r in R.RULES
+        if r.role not in ("fuse", "whole")
+        and r.stress_keys
+        and all(k.startswith("surge_") and k != "surge_level_v" for k in r.stress_keys)
+    )
+
+
+#: roles whose parts the completion re-choice does not change: a precheck failure of one of
+#: their rules ends the candidate; any other sends the completion round again
+FIXED_ROLES: Final[frozenset[str]] = frozenset({"x_capacitor", "series_resistor", "whole"})
+
+
+#: how many pending points share one batched surge simulation (verify.prefetch_surge_bounds)
+SURGE_BATCH: Final[int] = 48
+
+
+def prefetch_surge_bounds(setup, topology, vz, points) -> None:
+    """Fill the quick surge bounds of ``points`` ((X option, series option, completion) each)
+    into ``setup.surge_bounds``'s cache with one batched simulation, so that their
+    verification finds them there (``engine.analysis.surge_lower_bounds_many``: the same
+    figures as one call per circuit). Points whose bound is already known are skipped."""
+    cache = getattr(setup.surge_bounds, "cache", None)
+    many = setup.surge_bounds_many
+    req = setup.req
+    if cache is None or many is None or not req.conditions.surge_v > 0:
+        return
+    todo: dict[tuple, tuple] = {}
+    for xi, ri, completion in points:
+        zi, di, ci, bi = completion
+        circ, tol = circuit_for(setup, topology, vz, xi, ri, zi, di, ci, bi)
+        key = (circ, req.mains, tol, req.conditions.surge_v)
+        if key not in cache:
+            todo.setdefault(key, (circ, req.mains, tol))
+    if len(todo) < 2:
+        return  # one circuit: its own call costs the same
+    for key, bounds in zip(todo, many(list(todo.values()), req.conditions.surge_v), strict=True):
+        cache[key] = bounds
 
 
 def verify_candidate(setup, topology, vz, xi, ri, scr):
@@ -185,17 +237,37 @@ def verify_candidate(setup, topology, vz, xi, ri, scr):
         if res is not None and (best is None or res[0] < best[0]):
             best = res
         if "max_zener_power_w" not in s:
-            # rejected on the minimum current or the X / series-R surge rules alone: neither
-            # depends on the completion (beyond the diode drop and the Zener's tolerance)
-            break
-        proposal = (
-            cheapest_passing(setup, zo, "zener", s),
-            cheapest_passing(setup, rect, "rectifier", s),
-            cheapest_passing(
-                setup, co, "reservoir", {**s, "reservoir_min_f": 0.0}, c_now=circ.reservoir_f
-            ),
-            cheapest_passing(setup, bo, "bleeder", s, rb_now=circ.bleeder_resistance_ohm),
-        )
+            # rejected before the full analysis: on the minimum current or the X / series-R
+            # surge rules the candidate ends (neither depends on the completion beyond the
+            # diode drop and the Zener's tolerance); on a completion part's surge rule the
+            # completion is re-chosen against the surge figures it has
+            failed = setup.last_exact[0] if setup.last_exact else []
+            if not failed or any(rule_role(rid) in FIXED_ROLES for rid in failed):
+                break
+            # only the parts whose surge rules failed change: with the steady-state stresses
+            # unknown, the others' rules could not be checked; a new bleeder keeps at most
+            # the resistance of the screen's (whose discharge bound it met; the discharge
+            # time grows with R)
+            redo = {rule_role(rid) for rid in failed}
+            proposal = (
+                cheapest_passing(setup, zo, "zener", s) if "zener" in redo else current[0],
+                cheapest_passing(setup, rect, "rectifier", s)
+                if "rectifier" in redo
+                else current[1],
+                current[2],
+                cheapest_passing(setup, bo, "bleeder", s, rb_max=circ.bleeder_resistance_ohm)
+                if "bleeder" in redo
+                else current[3],
+            )
+        else:
+            proposal = (
+                cheapest_passing(setup, zo, "zener", s),
+                cheapest_passing(setup, rect, "rectifier", s),
+                cheapest_passing(
+                    setup, co, "reservoir", {**s, "reservoir_min_f": 0.0}, c_now=circ.reservoir_f
+                ),
+                cheapest_passing(setup, bo, "bleeder", s, rb_now=circ.bleeder_resistance_ohm),
+            )
         if any(v < 0 for v in proposal):
             if best is None:
                 for name, v in zip(
@@ -246,15 +318,24 @@ def _evaluate_completion(setup, topology, vz, xi, ri, completion):
         # the surge rules of the X capacitor and the series resistance on a quick lower bound
         # of the engine's surge figures (engine.analysis.surge_lower_bounds)
         sb = {**ctx, **setup.surge_bounds(circ, req.mains, tol, req.conditions.surge_v)}
-        for rid in SURGE_PRECHECK_RULES:
-            rule = rule_by_id(rid)
+        sb["surge_level_v"] = req.conditions.surge_v
+        bad, excess = [], {}
+        for rule in surge_precheck_rules():
             role_parts = parts[rule.role]
             for part in role_parts if isinstance(role_parts, list) else [role_parts]:
+                if rule.applies is not None and not rule.applies(sb, part):
+                    continue
                 st, lim, _ = rule.check(sb, part, pol)
                 if not st <= lim:
-                    fails[rid] = fails.get(rid, 0) + 1
-                    setup.last_exact = ([rid], sb, circ)
-                    return None, sb, circ
+                    bad.append(rule.id)
+                    excess[rule.id] = float(st / lim) if lim > 0 else math.inf
+                    break
+        setup.last_excess = excess
+        if bad:
+            for rid in bad:
+                fails[rid] = fails.get(rid, 0) + 1
+            setup.last_exact = (bad, sb, circ)
+            return None, sb, circ
     an = setup.analyse(circ, req.mains, tol, req.conditions)
     s, _ = R.stresses_from_analysis(an, ctx)
     fsel = None
@@ -295,17 +376,21 @@ def cheapest_passing(
     s: dict[str, Any],
     rb_now: float | None = None,
     c_now: float | None = None,
+    rb_max: float | None = None,
 ) -> int:
     """Cheapest option of ``opts`` that passes every rule of ``role`` under stresses ``s``.
 
     For the bleeder the stresses that depend on its own resistance are rescaled per candidate:
     discharge time (and time constant) in proportion to R, power in inverse proportion (RC
     discharge, P = V^2 / R [S]), and the no-load power changes by the bleeder's difference.
+    ``rb_max`` keeps only bleeders of at most that total resistance.
     """
     if len(opts) == 0:
         return -1
     ns = opts.ns()
     ok = np.ones(len(opts), dtype=bool)
+    if rb_max is not None and "total_ohm" in opts.attrs:
+        ok &= opts.attrs["total_ohm"] <= rb_max * (1 + 1e-12)
     standby_ok = None
     if role == "reservoir" and c_now and not is_missing(s.get("max_output_ripple_v")):
         # ripple between charging pulses scales as 1 / C (C dV = I dt [S]) for each candidate

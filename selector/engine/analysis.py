@@ -323,27 +323,39 @@ def min_dc_current(circuit: Circuit, mains: Mains, tolerances: Tolerances | None
 def surge_lower_bounds(
     circuit: Circuit, mains: Mains, tolerances: Tolerances | None, level_v: float
 ) -> dict[str, float]:
-    """Lower bounds of ``analyse(...).surge``'s series-R and X-capacitor figures, cheaply [SI].
+    """Lower bounds of every figure of ``analyse(...).surge``, cheaply [SI].
 
     ``analyse`` reports each surge stress as its maximum over every corner of the grid, every
     phase and both polarities (``surge_through_circuit``); this is the same maximum over the
-    corners of the high line and the lowest series resistance only (where the pulse current is
-    largest), so each figure is at most the full analysis' one. Keys as in the rules' stresses:
-    ``surge_series_r_energy_j``, ``surge_series_r_peak_voltage_v``, ``surge_x_cap_dvdt_v_per_s``.
+    corners of the high line, the lowest series resistance and the highest Zener voltage only
+    (where the pulse current is largest), so each figure is at most the full analysis' one.
+    Keys as in the rules' stresses: ``surge_`` + each name of
+    :data:`.surge_circuit.SURGE_STRESSES` (``surge_series_r_energy_j``,
+    ``surge_x_cap_dvdt_v_per_s``, ``surge_zener_peak_power_w``, ...).
     """
-    from .surge_circuit import worst_surge
+    return surge_lower_bounds_many([(circuit, mains, tolerances)], level_v)[0]
 
-    tol = tolerances or Tolerances()
-    grid = corners(circuit, mains, tol)
-    r_min = min(k.r_ohm for k in grid)
-    vz_max = max(k.vz_v for k in grid)
-    sub = [k for k in grid if k.mains_v == mains.high_v and k.r_ohm == r_min and k.vz_v == vz_max]
-    vals, _ = worst_surge(circuit, list(dict.fromkeys(sub)), level_v)
-    return {
-        "surge_series_r_energy_j": float(vals["series_r_energy_j"]),
-        "surge_series_r_peak_voltage_v": float(vals["series_r_peak_voltage_v"]),
-        "surge_x_cap_dvdt_v_per_s": float(vals["x_cap_dvdt_v_per_s"]),
-    }
+
+def surge_lower_bounds_many(
+    items: list[tuple[Circuit, Mains, Tolerances | None]], level_v: float
+) -> list[dict[str, float]]:
+    """:func:`surge_lower_bounds` of each (circuit, mains, tolerances), in one batched
+    simulation (:func:`.surge_circuit.worst_surge_many`)."""
+    from .surge_circuit import SURGE_STRESSES, worst_surge_many
+
+    jobs = []
+    for circuit, mains, tolerances in items:
+        grid = corners(circuit, mains, tolerances or Tolerances())
+        r_min = min(k.r_ohm for k in grid)
+        vz_max = max(k.vz_v for k in grid)
+        sub = [
+            k for k in grid if k.mains_v == mains.high_v and k.r_ohm == r_min and k.vz_v == vz_max
+        ]
+        jobs.append((circuit, list(dict.fromkeys(sub))))
+    return [
+        {"surge_" + name: float(vals[name]) for name in SURGE_STRESSES}
+        for vals, _ in worst_surge_many(jobs, level_v)
+    ]
 
 
 def analyse(

@@ -56,6 +56,7 @@ __all__ = [
     "surge_case",
     "voltage_wave_times",
     "worst_surge",
+    "worst_surge_many",
     "zener_surge_slope",
 ]
 
@@ -248,18 +249,39 @@ def worst_surge(circuit, grid, level_v: float, phases_deg=SURGE_PHASES_DEG):
     monotonicity is assumed. Returns (values dict, corner records dict) with each record the
     corner's keys plus ``phase_deg`` and ``polarity``.
     """
-    cases = [surge_case(circuit, k, phases_deg) for k in grid]
-    run = simulate(cases, level_v)
-    values, where = {}, {}
-    for name in SURGE_STRESSES:
-        arr = getattr(run, name)
-        j = int(np.argmax(arr))
-        k = grid[int(run.case[j])]
-        values[name] = float(arr[j])
-        where[name] = {
-            **k.record(circuit),
-            "load_a": 0.0,
-            "phase_deg": float(run.phase_deg[j]),
-            "polarity": int(run.polarity[j]),
-        }
-    return values, where
+    return worst_surge_many([(circuit, grid)], level_v, phases_deg)[0]
+
+
+def worst_surge_many(jobs, level_v: float, phases_deg=SURGE_PHASES_DEG):
+    """:func:`worst_surge` of each (circuit, grid) of ``jobs``, simulated in one batch per
+    topology (the simulation is vectorised over its cases, so many small circuits cost far
+    less together than one by one). Returns the (values, corner records) of each job, in
+    order."""
+    out: list = [None] * len(jobs)
+    by_topology: dict[str, list[int]] = {}
+    for j, (circuit, _) in enumerate(jobs):
+        by_topology.setdefault(circuit.topology, []).append(j)
+    for members in by_topology.values():
+        cases, owner = [], []
+        for j in members:
+            circuit, grid = jobs[j]
+            cases += [surge_case(circuit, k, phases_deg) for k in grid]
+            owner += [(j, k) for k in grid]
+        run = simulate(cases, level_v)
+        job_of_run = np.array([owner[c][0] for c in run.case])
+        for j in members:
+            circuit = jobs[j][0]
+            rows = np.flatnonzero(job_of_run == j)
+            values, where = {}, {}
+            for name in SURGE_STRESSES:
+                arr = getattr(run, name)[rows]
+                r = int(rows[int(np.argmax(arr))])
+                values[name] = float(getattr(run, name)[r])
+                where[name] = {
+                    **owner[int(run.case[r])][1].record(circuit),
+                    "load_a": 0.0,
+                    "phase_deg": float(run.phase_deg[r]),
+                    "polarity": int(run.polarity[r]),
+                }
+            out[j] = (values, where)
+    return out
