@@ -120,3 +120,51 @@ def test_screen_bounds_stay_below_the_engine(case):
             c * (1 - tol.cap_tol) * (1 - tol.cap_loss),
         )
         assert float(need) <= circ.reservoir_f * (1 + 1e-9)
+
+
+#: the stresses the search's surge cuts read (search.X_SURGE_CUT_RULES, R_SURGE_CUT_RULES)
+_X_CUT_STRESSES = ("surge_x_cap_dvdt_v_per_s", "surge_x_cap_peak_total_v")
+_R_CUT_STRESSES = ("surge_series_r_peak_voltage_v",)
+
+
+@pytest.mark.parametrize("case", CIRCUITS[:12], ids=lambda c: c[0])
+def test_surge_cuts_hold(case):
+    """The search's surge cuts (search.SURGE_CUT_TOLERANCE): the X figures do not grow with the
+    series resistance, the series-R peak voltage does not fall with the X capacitance, and the
+    completion parts move both by less than the cut's tolerance. Reference: the engine's own
+    surge simulation (agreement with ngspice in tests/test_ngspice_surge*.py)."""
+    import dataclasses
+    import itertools
+
+    from selector.design.search import SURGE_CUT_TOLERANCE
+
+    top, circ, tol, mains, level = case
+    base = surge_lower_bounds(circ, mains, tol, level)
+    more_r = dataclasses.replace(circ, series_resistance_ohm=circ.series_resistance_ohm * 1.1)
+    more_c = dataclasses.replace(circ, x_capacitors_f=(circ.x_capacitors_f[0] * 1.1,))
+    up_r = surge_lower_bounds(more_r, mains, tol, level)
+    up_c = surge_lower_bounds(more_c, mains, tol, level)
+    for k in _X_CUT_STRESSES:
+        assert up_r[k] <= base[k] * (1 + 1e-9), k
+    for k in _R_CUT_STRESSES:
+        assert up_c[k] >= base[k] * (1 - 1e-9), k
+    variants = [
+        surge_lower_bounds(
+            dataclasses.replace(
+                circ,
+                zener_impedance_ohm=zz,
+                reservoir_f=c_res,
+                bleeder_resistance_ohm=rb,
+                diode_drop_v=vf,
+            ),
+            mains,
+            tol,
+            level,
+        )
+        for zz, c_res, rb, vf in itertools.product(
+            (1.0, 16.0), (10e-6, 470e-6), (0.47e6, 4.7e6), (0.75, 1.0)
+        )
+    ]
+    for k in _X_CUT_STRESSES + _R_CUT_STRESSES:
+        lo, hi = min(v[k] for v in variants), max(v[k] for v in variants)
+        assert hi <= lo * (1 + SURGE_CUT_TOLERANCE), (k, hi / lo)

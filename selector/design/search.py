@@ -37,14 +37,16 @@ CUT_TOLERANCE: Final[float] = 0.005
 
 #: a candidate whose quick surge bound exceeds the limit of an X-capacitor surge rule by more
 #: than this fraction also rules out the same X option with any lower series resistance (less
-#: resistance, more pulse current, a larger dV/dt and voltage step); one that exceeds a
-#: series-R surge rule's limit so rules out the same series option with any larger X
-#: capacitance (the capacitor charges less during the pulse and passes more current). The
-#: completion parts move these figures by a few per cent at most (the bus is clamped near the
-#: Zener voltage, far below the surge's); measured in tests/test_design_bounds.py
-SURGE_CUT_TOLERANCE: Final[float] = 0.03
+#: resistance, more pulse current, a larger dV/dt and voltage step); one that exceeds the
+#: series-R peak-voltage rule's limit so rules out the same series option with any larger X
+#: capacitance (the capacitor charges less during the pulse and passes more current). Both
+#: directions, and that the completion parts (Zener slope, reservoir, bleeder, diode drop) move
+#: these figures by less than this fraction (measured: under 9 % from 3.3 ohm, under 3 % from
+#: 10 ohm), are checked in tests/test_design_bounds.py. The pulse energy moves by up to 22 %
+#: with the completion and cuts nothing.
+SURGE_CUT_TOLERANCE: Final[float] = 0.10
 X_SURGE_CUT_RULES: Final[tuple[str, ...]] = ("x_cap.dvdt_surge", "x_cap.surge_total")
-R_SURGE_CUT_RULES: Final[tuple[str, ...]] = ("series_r.surge_voltage", "series_r.surge_energy")
+R_SURGE_CUT_RULES: Final[tuple[str, ...]] = ("series_r.surge_voltage",)
 
 
 @dataclass
