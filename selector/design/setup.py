@@ -48,6 +48,9 @@ class SearchSetup:
     series_elements: SeriesElements | None = None
     #: catalogue rows as dicts, filled on first use by ``verify.catalogue_row``
     row_cache: dict[int, dict[str, Any]] = field(default_factory=dict)
+    #: rated parts of the options used so far (``verify.rated_option`` and the X / series
+    #: ones), by role and catalogue rows (and arrangement): a part never changes in a search
+    part_cache: dict[tuple, Any] = field(default_factory=dict)
     analyse: Callable[..., Any] | None = None
     #: engine.analysis.min_dc_current when ``analyse`` is the engine's (quick rejection)
     min_current: Callable[..., float] | None = None

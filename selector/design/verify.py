@@ -33,6 +33,16 @@ def catalogue_row(setup: SearchSetup, i: int) -> dict[str, Any]:
 
 
 def rated_option(setup: SearchSetup, opts: OptionTable, i: int, role: str) -> R.RatedPart:
+    """Option ``i`` of ``opts`` as the rules' rated part (kept per option: a part never
+    changes during a search)."""
+    key = (role, tuple(opts.rows[i]), opts.arrangement[i])
+    part = setup.part_cache.get(key)
+    if part is None:
+        part = setup.part_cache[key] = _rated_option(setup, opts, i, role)
+    return part
+
+
+def _rated_option(setup: SearchSetup, opts: OptionTable, i: int, role: str) -> R.RatedPart:
     rows = opts.rows[i]
     arr = opts.arrangement[i]
     if arr == "bridge":
@@ -43,6 +53,15 @@ def rated_option(setup: SearchSetup, opts: OptionTable, i: int, role: str) -> R.
 
 
 def rated_x_parts(setup: SearchSetup, i: int) -> list[R.RatedPart]:
+    """X option ``i`` as rated parts (one, two equal in parallel, or two different)."""
+    key = ("x_capacitor", tuple(setup.xo.rows[i]))
+    parts = setup.part_cache.get(key)
+    if parts is None:
+        parts = setup.part_cache[key] = _rated_x_parts(setup, i)
+    return list(parts)
+
+
+def _rated_x_parts(setup: SearchSetup, i: int) -> list[R.RatedPart]:
     rows = setup.xo.rows[i]
     if len(rows) == 1:
         return [R.rated_part_from_row(catalogue_row(setup, rows[0]), "x_capacitor")]
@@ -469,6 +488,14 @@ def cheapest_fuse(setup, s, parts) -> int | None:
 def rated_series_parts(setup: SearchSetup, i: int) -> list[R.RatedPart]:
     """The series option ``i`` as the rules see it: one part, two equal parts in series, or
     two different parts each carrying its share R_i / R_total of power and voltage."""
+    key = ("series_resistor", tuple(setup.ro.rows[i]))
+    parts = setup.part_cache.get(key)
+    if parts is None:
+        parts = setup.part_cache[key] = _rated_series_parts(setup, i)
+    return list(parts)
+
+
+def _rated_series_parts(setup: SearchSetup, i: int) -> list[R.RatedPart]:
     rows = setup.ro.rows[i]
     if len(rows) == 1 or rows[0] == rows[1]:
         arr = "single" if len(rows) == 1 else "series"

@@ -36,7 +36,9 @@ TOPOLOGIES = ("bridge", "half-wave")
 def requests(quick: bool) -> list[tuple[float, float, float, tuple[float, ...], str]]:
     grid = list(itertools.product(LOADS_A, VOUTS_V, MAINS, TOPOLOGIES))
     out = [(i, v, m[0], m[1], t) for i, v, m, t in grid]
-    return out[::6] if quick else out
+    # quick: every sixth request, stepping through the mains x topology cycle so that each
+    # mains and both topologies are sampled
+    return [out[6 * k + k % 6] for k in range(len(out) // 6)] if quick else out
 
 
 def run(quick: bool) -> list[dict]:
