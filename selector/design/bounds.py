@@ -17,6 +17,7 @@ from typing import Any, Final
 import numpy as np
 
 from .candidates import OptionTable
+from .lookups import distinct_pairs
 from .requirement import DISCHARGE_EXEMPT_F, PROFILE_LIMITS, SQRT2, Requirement
 
 #: relative widening of the closed-form screen (their error against the exact periodic solution
@@ -155,11 +156,9 @@ def surge_bounds(vs: float, r: Any, c: Any, lb: float, rd: float = 0.0) -> dict[
     shape = np.broadcast(r, c).shape
     if vs > 0 and len(shape) == 1 and shape[0] > 64:
         # many points share (R, C): solve each distinct loop once
-        rc = np.column_stack(np.broadcast_arrays(r, c))
-        uniq, inv = np.unique(rc, axis=0, return_inverse=True)
-        if len(uniq) < 0.8 * len(rc):
-            out = surge_bounds(vs, uniq[:, 0].copy(), uniq[:, 1].copy(), lb, rd)
-            inv = np.asarray(inv).ravel()
+        r_u, c_u, inv = distinct_pairs(*np.broadcast_arrays(r, c))
+        if len(r_u) < 0.8 * shape[0]:
+            out = surge_bounds(vs, r_u, c_u, lb, rd)
             return {k: v[inv] for k, v in out.items()}
     if vs <= 0:
         z = np.zeros(shape)

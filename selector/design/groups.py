@@ -25,7 +25,7 @@ from .bounds import (
     surge_bounds,
 )
 from .candidates import OptionTable, rule_by_id, tally
-from .lookups import RangeMinimum
+from .lookups import RangeMinimum, distinct_pairs
 from .requirement import SQRT2, bus_demand, context_scalars
 from .setup import SearchSetup
 
@@ -234,12 +234,8 @@ def series_necessary(setup, topology, vz, vf_lo, vf_hi, ztol_min, xkeep, r_tot, 
     cmin = xo.attrs["value"][xkeep] * (1 - np.nan_to_num(xo.attrs["tolerance"][xkeep], nan=0.2))
     c_best, c_least = float(np.max(cmin)), float(np.min(cmin))
     # the bounds depend on (R, tolerance) only: evaluate each distinct pair once
-    rt = np.column_stack([r_tot, rtol])
-    uniq, inv = np.unique(rt, axis=0, return_inverse=True)
-    inv = np.asarray(inv).ravel()
-    if len(uniq) < 0.8 * n:
-        r_u, t_u = uniq[:, 0].copy(), uniq[:, 1].copy()
-    else:
+    r_u, t_u, inv = distinct_pairs(r_tot, rtol)
+    if len(r_u) >= 0.8 * n:
         r_u, t_u, inv = r_tot, rtol, np.arange(n)
     m = len(r_u)
     b = screen_bounds(

@@ -8,6 +8,7 @@ corner that produced it.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import math
 from collections.abc import Mapping
 from typing import Any, Final
@@ -99,24 +100,35 @@ def _corner_text(corner: Any) -> str:
     if isinstance(corner, str):
         return corner
     if isinstance(corner, Mapping):
-        from ..units import format_value
-
-        parts = []
-        for key, label, unit in _CORNER_FIELDS:
-            value = corner.get(key)
-            if isinstance(value, (int, float)) and math.isfinite(value):
-                parts.append(label + format_value(float(value), unit, digits=3))
-        if "loaded" in corner:
-            parts.append("loaded" if corner["loaded"] else "no load")
-        load = corner.get("load_a")
-        if isinstance(load, (int, float)) and "loaded" not in corner:
-            parts.append(f"load {format_value(float(load), 'A')}" if load > 0 else "no load")
-        rest = [
-            f"{key}={value}"
-            for key, value in corner.items()
-            if key not in {f[0] for f in _CORNER_FIELDS} and key not in {"loaded", "load_a"}
-        ]
-        return " ".join(parts + rest)
+        # a search evaluates many analyses whose corners repeat: format each distinct one once
+        try:
+            return _mapping_corner_text(tuple(corner.items()))
+        except TypeError:  # an unhashable field value
+            return _mapping_corner_text.__wrapped__(tuple(corner.items()))
     if dataclasses.is_dataclass(corner):
         return ", ".join(f"{f.name}={getattr(corner, f.name)}" for f in dataclasses.fields(corner))
     return str(corner)
+
+
+@functools.lru_cache(maxsize=4096)
+def _mapping_corner_text(items: tuple[tuple[str, Any], ...]) -> str:
+    """``_corner_text`` of a mapping, given as its items (hashable, so that it is cached)."""
+    corner = dict(items)
+    from ..units import format_value
+
+    parts = []
+    for key, label, unit in _CORNER_FIELDS:
+        value = corner.get(key)
+        if isinstance(value, (int, float)) and math.isfinite(value):
+            parts.append(label + format_value(float(value), unit, digits=3))
+    if "loaded" in corner:
+        parts.append("loaded" if corner["loaded"] else "no load")
+    load = corner.get("load_a")
+    if isinstance(load, (int, float)) and "loaded" not in corner:
+        parts.append(f"load {format_value(float(load), 'A')}" if load > 0 else "no load")
+    rest = [
+        f"{key}={value}"
+        for key, value in corner.items()
+        if key not in {f[0] for f in _CORNER_FIELDS} and key not in {"loaded", "load_a"}
+    ]
+    return " ".join(parts + rest)
