@@ -7,9 +7,8 @@ from typing import Annotated, Any
 
 import typer
 
-from ..engine.circuit import TOPOLOGIES
 from ..errors import EXIT_FINDINGS, EXIT_OK, BadValueError
-from ..units import format_value, parse_value
+from ..units import format_value
 from ._app import app, echo_cautions, print_json
 from ._circuit import (
     AmbientOpt,
@@ -35,6 +34,8 @@ from ._circuit import (
     describe_mains,
     load_from_options,
     mains_from_options,
+    option_value,
+    parse_topology,
     tolerances_from_options,
 )
 
@@ -237,21 +238,15 @@ def audit_options(
         r_tol if r_tol is not None else "5",
         zener_tol if zener_tol is not None else "5",
     )
-    top = topology.strip().lower()
-    if top in ("halfwave", "half_wave", "half"):
-        top = "half-wave"
-    if top not in ("auto", *TOPOLOGIES):
-        raise BadValueError(
-            f"--topology: unknown {topology!r}; one of auto, {', '.join(TOPOLOGIES)}"
-        )
+    top = parse_topology(topology, extra=("auto",))
     reg = None
     if regulator:
         from ..engine import Regulator
 
         reg = Regulator(
-            output_v=_value(regulator, "V", "--regulator"),
-            dropout_v=_value(dropout, "V", "--dropout"),
-            quiescent_a=_value(quiescent, "A", "--quiescent"),
+            output_v=option_value(regulator, "V", "--regulator"),
+            dropout_v=option_value(dropout, "V", "--dropout"),
+            quiescent_a=option_value(quiescent, "A", "--quiescent"),
         )
     return dict(
         mains=mains_from_options(mains, mains_tol, freq, harmonics),
@@ -269,7 +264,7 @@ def audit_options(
         roles_file=roles,
         catalogue=_catalogue(db),
         circuit_defaults={
-            key: _value(text, unit, name)
+            key: option_value(text, unit, name)
             for key, text, unit, name in (
                 ("diode_drop_v", diode_drop, "V", "--diode-drop"),
                 ("diode_resistance_ohm", diode_r, "ohm", "--diode-r"),
@@ -352,13 +347,6 @@ def audit(
     if not json and supply.harmonics:
         typer.echo(describe_mains(doc["mains"]))
     _finish(doc, json)
-
-
-def _value(text: str, quantity: str, what: str) -> float:
-    try:
-        return parse_value(text, quantity)
-    except BadValueError as exc:
-        raise BadValueError(f"{what}: {exc}") from None
 
 
 def _catalogue(db: str | None):
