@@ -26,14 +26,19 @@ __all__ = ["RANGES", "Range", "check_count", "check_range"]
 class Range:
     """Inclusive bounds of a quantity: zero, or a magnitude from ``low`` to ``high``.
 
-    ``negative``: whether a value below zero is physical (temperatures are; farads are not).
+    ``lowest``: the most negative value allowed (None: no negative value is physical, as
+    for farads; temperatures go down to absolute zero).
     """
 
     low: float
     high: float
     unit: str
     reason: str
-    negative: bool = False
+    lowest: float | None = None
+
+    @property
+    def negative(self) -> bool:
+        return self.lowest is not None
 
 
 #: quantity -> its range; the keys are the canonical units of ``selector.units`` plus a few
@@ -98,13 +103,32 @@ RANGES: Final[dict[str | None, Range]] = {
         "A2s",
         "fuse and diode I^2t ratings are 1e-3 .. 1e3 A^2 s; 1e6 leaves room above [P]",
     ),
+    "V/s": Range(
+        1.0,
+        1e13,
+        "V/s",
+        "film capacitors are rated 1 .. 10,000 V/us (1e6 .. 1e10 V/s); a switch-on edge "
+        "through a few ohms stays below 1e13 V/s [P]",
+    ),
+    "mm2": Range(
+        1e-3,
+        1e6,
+        "mm2",
+        "a 01005 chip is 0.08 mm2, a whole board under 1 m2 (1e6 mm2) [P]",
+    ),
+    "mm": Range(
+        1e-2,
+        1e4,
+        "mm",
+        "lead pitches and bodies from 0.01 mm to 10 m cover every part [P]",
+    ),
     None: Range(
         1e-15,
         1e15,
         "",
         "engineering notation as dropper reads and prints it spans pico (1e-12) to tera (1e12); "
         "a thousand times either way is the widest any quantity here reaches",
-        negative=True,
+        lowest=-1e15,
     ),
     "tolerance": Range(
         0.0,
@@ -115,11 +139,11 @@ RANGES: Final[dict[str | None, Range]] = {
     ),
     "temperature_c": Range(
         0.0,
-        250.0,
+        400.0,
         "C",
-        "ambient and ratings from -250 C to 250 C: IEC 60068 cold tests reach -65 C, no "
-        "board part is rated above 250 C (solder melts) [P]",
-        negative=True,
+        "from absolute zero (-273.15 C) to 400 C: wirewound and cement resistors derate to zero "
+        "at 275-350 C (generic datasheets), no board part is rated above that [P]",
+        lowest=-273.15,
     ),
     "count": Range(
         0.0,
@@ -154,8 +178,13 @@ def check_range(value: float, quantity: str | None, what: str = "value") -> floa
     unit = f" {bounds.unit}" if bounds.unit else ""
     if not math.isfinite(x):
         raise BadValueError(f"{what} {value!r} is not a finite number")
-    if x < 0 and not bounds.negative:
+    if x < 0 and bounds.lowest is None:
         raise BadValueError(f"{what} {_fmt(x)}{unit} must not be negative")
+    if bounds.lowest is not None and x < bounds.lowest:
+        raise BadValueError(
+            f"{what} {_fmt(x)}{unit} is below {_fmt(bounds.lowest)}{unit}, out of range "
+            f"({bounds.reason})"
+        )
     magnitude = abs(x)
     if magnitude > bounds.high:
         raise BadValueError(

@@ -46,6 +46,7 @@ def test_burst_reads_the_same_in_both_forms():
         ("--load", "1e999", "--load"),
         ("--ambient", "nan", "--ambient"),
         ("--ambient", "900", "--ambient"),
+        ("--ambient", "-300", "--ambient"),
         ("--surge", "inf", "--surge"),
         ("--freq", "1e-320", "--freq"),
         ("--burst", "30m/5ms", "--burst"),

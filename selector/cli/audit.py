@@ -9,7 +9,7 @@ import typer
 
 from ..errors import EXIT_FINDINGS, EXIT_OK, BadValueError
 from ..units import format_value
-from ._app import app, echo_cautions, print_json
+from ._app import app, echo_cautions, print_json, warn_skipped_parts
 from ._circuit import (
     AmbientOpt,
     BurstOpt,
@@ -353,7 +353,9 @@ def _catalogue(db: str | None):
     """The catalogue as a DataFrame (the audit fills missing ratings from its families)."""
     from ..catalogue import catalogue_frame, resolve_url
 
-    return catalogue_frame(resolve_url(db))
+    frame = catalogue_frame(resolve_url(db))
+    warn_skipped_parts(frame)
+    return frame
 
 
 def _columns(options: list[str] | None) -> dict[str, str]:

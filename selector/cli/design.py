@@ -10,7 +10,7 @@ import typer
 from ..cautions import CAUTIONS
 from ..errors import BadValueError
 from ..units import format_value
-from ._app import app, echo_cautions, print_json, to_jsonable
+from ._app import app, echo_cautions, print_json, to_jsonable, warn_skipped_parts
 from ._circuit import (
     AmbientOpt,
     BurstOpt,
@@ -151,6 +151,7 @@ def design(
         if not limit_s > 0:
             raise BadValueError(f"--time-limit must be > 0 s, got {time_limit!r}")
     frame = catalogue_frame(resolve_url(db), stock_only=stock_only)
+    warn_skipped_parts(frame)
     # a progress bar (stderr) for searches over large catalogues
     bar = None if json or len(frame) < 1000 else _Bar("searching part sets")
     try:
