@@ -31,6 +31,7 @@ import re
 from typing import Final
 
 from .errors import BadValueError
+from .ranges import check_range
 
 __all__ = [
     "PREFIXES",
@@ -166,10 +167,7 @@ def parse_value(text: str | float | int, quantity: str | None = None) -> float:
     if isinstance(text, bool):
         raise BadValueError(f"cannot read {text!r} as a value")
     if isinstance(text, (int, float)):
-        value = float(text)
-        if not math.isfinite(value):
-            raise BadValueError(f"cannot read {text!r}: not a finite number")
-        return value
+        return _in_range(float(text), text, quantity)
     if quantity is not None and quantity not in UNITS:
         raise BadValueError(f"unknown quantity {quantity!r}; one of {', '.join(UNITS)}")
     raw = text
@@ -203,13 +201,23 @@ def parse_value(text: str | float | int, quantity: str | None = None) -> float:
         mantissa = float(f"{m.group('int') or '0'}.{m.group('frac')}")
         value = mantissa * _multiplier(letter, quantity, unit)
     # round away binary noise from the multiplication (4.7 * 1e-9 -> 4.7e-09)
-    return float(f"{value:.12g}")
+    return _in_range(float(f"{value:.12g}"), raw, quantity)
+
+
+def _in_range(value: float, raw: object, quantity: str | None) -> float:
+    """``value`` if finite and inside the physical range of ``quantity`` (selector.ranges)."""
+    try:
+        return check_range(value, quantity)
+    except BadValueError as exc:
+        shown = raw if not isinstance(raw, str) or len(raw) <= 40 else raw[:40] + "..."
+        raise BadValueError(f"cannot use {shown!r}: {exc}") from None
 
 
 def parse_tolerance(text: str | float) -> float:
     """Read a tolerance as a fraction: an IEC 60062 letter (``J`` -> 0.05) or a percentage.
 
-    A bare number is read as percent (``5`` -> 0.05).
+    A bare number is read as percent (``5`` -> 0.05). NaN, infinity, negatives and 100 % or
+    more are refused (the ``tolerance`` range of :mod:`selector.ranges`).
 
     >>> parse_tolerance("K")
     0.1
@@ -217,17 +225,27 @@ def parse_tolerance(text: str | float) -> float:
     0.05
     """
     if isinstance(text, (int, float)) and not isinstance(text, bool):
-        return float(text) / 100.0
+        return _tolerance_in_range(float(text), text)
     s = str(text).strip().replace(" ", "").lstrip("±").removeprefix("+/-")
     if s.upper() in TOLERANCE_LETTERS and len(s) == 1:
         return TOLERANCE_LETTERS[s.upper()]
-    try:
-        return float(s.removesuffix("%")) / 100.0
-    except ValueError:
+    number = s.removesuffix("%")
+    if not re.fullmatch(_NUMBER, number):
+        shown = text if len(str(text)) <= 40 else str(text)[:40] + "..."
         raise BadValueError(
-            f"cannot read {text!r} as a tolerance; write a letter "
+            f"cannot read {shown!r} as a tolerance; write a letter "
             f"({' '.join(TOLERANCE_LETTERS)}) or a percentage like '5%'"
-        ) from None
+        )
+    return _tolerance_in_range(float(number), text)
+
+
+def _tolerance_in_range(percent: float, raw: object) -> float:
+    if not math.isfinite(percent) or not 0 <= percent < 100:
+        raise BadValueError(
+            f"cannot use {raw!r} as a tolerance: it must be a finite percentage from 0 to "
+            "below 100 % (at 100 % the part may be absent)"
+        )
+    return check_range(percent / 100.0, "tolerance", "a tolerance")
 
 
 _ENG_PREFIX = {-12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T"}

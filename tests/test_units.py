@@ -9,10 +9,11 @@ from __future__ import annotations
 import math
 
 import pytest
-from hypothesis import given
+from hypothesis import assume, given
 from hypothesis import strategies as st
 
 from selector.errors import BadValueError
+from selector.ranges import RANGES, check_count, check_range
 from selector.units import (
     format_percent,
     format_value,
@@ -160,7 +161,10 @@ _SI_VALUES = st.floats(min_value=1e-12, max_value=1e9, allow_nan=False, allow_in
 
 @given(_SI_VALUES, st.sampled_from(["F", "ohm", "V", "A", "W", "s", "J", "Hz"]))
 def test_parse_of_format_round_trips(value, unit):
-    # printing keeps 6 significant digits, so the round trip holds to that precision
+    # printing keeps 6 significant digits, so the round trip holds to that precision; values
+    # outside the quantity's physical range are refused instead (selector.ranges)
+    bounds = RANGES[unit]
+    assume(bounds.low <= value <= bounds.high * 0.99)
     text = format_value(value, unit, digits=6)
     assert math.isclose(parse_value(text, unit), value, rel_tol=1e-5)
 
@@ -170,6 +174,7 @@ def test_parse_of_format_round_trips(value, unit):
     st.sampled_from(["F", "ohm"]),
 )
 def test_iec60062_code_round_trips(value, unit):
+    assume(value <= RANGES[unit].high * 0.99)  # above it parse_value refuses (selector.ranges)
     code = iec60062_code(value, unit)
     assert math.isclose(parse_value(code, unit), float(f"{value:.3g}"), rel_tol=1e-9)
 
@@ -192,3 +197,58 @@ def test_format_percent_signs_and_digits():
     assert format_percent(12.345) == "1230 %"  # three significant digits, no exponent
     assert format_percent(0.07999999999999989) == "8 %"  # binary noise rounded away
     assert format_percent(float("nan")) == "nan"
+
+
+# --- the physical ranges (selector/ranges.py; issue 14) ---------------------------------------
+
+
+@pytest.mark.parametrize(
+    "text, quantity",
+    [
+        ("1e999", "A"),  # overflows to infinity
+        ("1e999", None),
+        ("-1e999", "V"),
+        ("1e9F", "F"),  # a gigafarad
+        ("1e-320", "F"),  # a denormal
+        ("1e30", None),
+        ("-5", "ohm"),  # a negative resistance is no part
+        ("2e5", "V"),
+    ],
+)
+def test_parse_value_refuses_non_finite_and_out_of_range(text, quantity):
+    with pytest.raises(BadValueError, match="not a finite number|out of range|negative") as exc:
+        parse_value(text, quantity)
+    assert "\n" not in str(exc.value)
+
+
+@pytest.mark.parametrize("value", [float("nan"), float("inf"), -float("inf")])
+def test_parse_value_refuses_non_finite_floats(value):
+    with pytest.raises(BadValueError, match="not a finite number"):
+        parse_value(value, "F")
+
+
+@pytest.mark.parametrize(
+    "text", ["nan", "inf", "-inf", "-5", "-5%", "100", "100%", "200 %", "1e999"]
+)
+def test_parse_tolerance_refuses_nan_inf_negative_and_100_percent(text):
+    with pytest.raises(BadValueError, match="tolerance"):
+        parse_tolerance(text)
+
+
+def test_parse_tolerance_keeps_the_iec60062_letters_and_percentages():
+    # IEC 60062:2016 tolerance letters [S]
+    assert parse_tolerance("M") == 0.2 and parse_tolerance("99.9%") == pytest.approx(0.999)
+    assert parse_tolerance("0") == 0.0
+
+
+def test_every_range_has_a_reason_and_ordered_bounds():
+    for quantity, bounds in RANGES.items():
+        assert bounds.reason and 0 <= bounds.low < bounds.high, quantity
+    assert check_range(0.0, "F") == 0.0  # zero is allowed: callers needing > 0 say so
+
+
+def test_check_count_refuses_huge_and_fractional_counts():
+    assert check_count(12) == 12 and check_count(3.0) == 3
+    for bad in (10**5000, 1e30, float("nan"), 2.5, -1):
+        with pytest.raises(BadValueError):
+            check_count(bad, "Qty")

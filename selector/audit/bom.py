@@ -36,6 +36,7 @@ from pathlib import Path
 from typing import Final
 
 from ..errors import BadRowError, BadValueError
+from ..ranges import check_count
 from .bom_cells import _decode, _read_text_rows, _read_xlsx_rows
 from .bom_headers import FIELDS, HEADER_SPELLINGS, _find_header, map_headers
 from .bom_refs import expand_refs
@@ -199,14 +200,17 @@ def read_bom(
             continue
         qty_text = cell(cells, "qty")
         if qty_text:
+            shown = qty_text if len(qty_text) <= 40 else qty_text[:40] + "..."
             try:
-                qty_f = float(qty_text.replace(",", "."))
-            except ValueError:
-                qty_f = -1.0
-            if qty_f != int(qty_f) or qty_f < 0:
+                qty_n = check_count(float(qty_text.replace(",", ".")), "quantity")
+            except (ValueError, OverflowError):  # BadValueError is a ValueError
                 raise BadRowError(
-                    name, line, column_map["qty"], f"quantity {qty_text!r} is not a whole number"
-                )
+                    name,
+                    line,
+                    column_map["qty"],
+                    f"quantity {shown!r} is not a whole number from 0 to 1e9",
+                ) from None
+            qty_f = float(qty_n)
             if int(qty_f) == 0:
                 skipped.extend(refs)
                 continue

@@ -11,6 +11,7 @@ import codecs
 import csv
 import io
 from pathlib import Path
+from typing import Any
 
 from ..errors import BadRowError, BadValueError
 from .bom_headers import _find_header, map_headers
@@ -162,9 +163,30 @@ def _read_xlsx_rows(path: Path, sheet: str | None) -> tuple[str, list[tuple[int,
             str(path), None, None, f"no sheet '{sheet}' (sheets: {', '.join(names)}){hint}"
         )
     ws = book[sheet]
-    rows = [
-        (i, [_cell_text(v) for v in values])
-        for i, values in enumerate(ws.iter_rows(values_only=True), start=1)
-    ]
+    rows = _used_rows(ws)
     merged = [(str(r), r.min_row, r.max_row) for r in ws.merged_cells.ranges]
     return sheet, rows, merged
+
+
+def _used_rows(ws: Any) -> list[tuple[int, list[str]]]:
+    """(row number, cell texts) of the rows that hold a value, bounded by the cells present,
+    never by the sheet's declared dimension (a 5.6 kB file with one cell at XFD1048576 must
+    not make 17 thousand million cells). Each row runs to its last non-empty cell; a run of
+    blank rows between rows with values is kept as one empty row (a section break, as in a
+    CSV)."""
+    present: dict[int, dict[int, str]] = {}
+    # openpyxl keeps only the cells the file holds in ``_cells`` ((row, column) -> Cell)
+    for (row, column), cell in ws._cells.items():
+        text = _cell_text(cell.value)
+        if text:
+            present.setdefault(row, {})[column] = text
+    rows: list[tuple[int, list[str]]] = []
+    previous = 0
+    for number in sorted(present):
+        if number > previous + 1 and rows:
+            rows.append((previous + 1, []))
+        cells = present[number]
+        width = max(cells)
+        rows.append((number, [cells.get(c, "") for c in range(1, width + 1)]))
+        previous = number
+    return rows

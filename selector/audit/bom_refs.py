@@ -44,6 +44,10 @@ def expand_refs(text: str) -> list[str]:
             p1, p2 = m.group("p1"), m.group("p2") or m.group("p1")
             if p1.upper() != p2.upper():
                 raise BadValueError(f"range {token!r} mixes prefixes {p1} and {p2}")
+            if max(len(m.group("a")), len(m.group("b"))) > 9:
+                raise BadValueError(
+                    f"range {_shown(token)!r} has a designator number longer than 9 digits"
+                )
             a, b = int(m.group("a")), int(m.group("b"))
             if b < a:
                 raise BadValueError(f"range {token!r} runs backwards; write {p1}{b}-{p1}{a}")
@@ -55,5 +59,12 @@ def expand_refs(text: str) -> list[str]:
         elif _REF_RE.match(token):
             out.append(token)
         else:
-            raise BadValueError(f"{token!r} is not a reference designator (e.g. R1, C12, D3)")
+            raise BadValueError(
+                f"{_shown(token)!r} is not a reference designator (e.g. R1, C12, D3)"
+            )
     return out
+
+
+def _shown(token: str) -> str:
+    """A token short enough for a one-line error (the first 40 characters)."""
+    return token if len(token) <= 40 else token[:40] + "..."

@@ -55,7 +55,7 @@ if TYPE_CHECKING:
 __all__ = ["CACHE_SUFFIX", "FRAME_VERSION", "FrameRead", "cache_path", "catalogue_frame"]
 
 #: version of the cached frame's layout; bump it when ``query.parts_frame`` changes its output
-FRAME_VERSION: Final[str] = "1"
+FRAME_VERSION: Final[str] = "2"  # 2: rows as stored (stock as float), checked on read
 #: the cache file is the database file's name plus this suffix
 CACHE_SUFFIX: Final[str] = ".frame.pkl"
 _MAGIC: Final[bytes] = b"dropper parts frame\n"
@@ -192,12 +192,14 @@ def read_catalogue_frame(
     progress: Callable[[int, int], None] | None = None,
 ) -> FrameRead:
     """:func:`catalogue_frame`, telling whether the frame came from the cache."""
+    from .row_ranges import drop_unusable_rows
+
     url = resolve_url(url)
     db_file = sqlite_file(url)
     if db_file is not None:
         frame = _cached(db_file)
         if frame is not None:
-            return FrameRead(_select(frame, stock_only), from_cache=True)
+            return FrameRead(drop_unusable_rows(_select(frame, stock_only)), from_cache=True)
     from .db import open_catalogue
     from .query import parts_frame
 
@@ -206,12 +208,14 @@ def read_catalogue_frame(
         if db_file is None:
             return FrameRead(parts_frame(engine, stock_only=stock_only), from_cache=False)
         before = _db_state(db_file)
-        frame = parts_frame(engine)
+        # the cache holds the rows as stored; the range check runs on every read, so a
+        # change of selector.ranges never meets a stale cache
+        frame = parts_frame(engine, checked=False)
         if before is not None and _db_state(db_file) == before:
             _store(cache_path(db_file), _key(before), frame)
     finally:
         engine.dispose()
-    return FrameRead(_select(frame, stock_only), from_cache=False)
+    return FrameRead(drop_unusable_rows(_select(frame, stock_only)), from_cache=False)
 
 
 def catalogue_frame(

@@ -41,6 +41,8 @@ from sqlalchemy import (
 )
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
 
+from .row_ranges import VALUE_UNITS as VALUE_UNITS  # re-exported: parts.value unit per kind
+
 __all__ = [
     "KINDS",
     "VALUE_UNITS",
@@ -62,18 +64,6 @@ KINDS: Final[tuple[str, ...]] = (
     "electrolytic",
     "fuse",
 )
-
-#: canonical unit (selector.units) of ``parts.value`` per kind
-VALUE_UNITS: Final[dict[str, str]] = {
-    "x_capacitor": "F",
-    "film_capacitor": "F",
-    "resistor": "ohm",
-    "diode": "A",
-    "bridge": "A",
-    "zener": "V",
-    "electrolytic": "F",
-    "fuse": "A",
-}
 
 
 def _utcnow() -> datetime:

@@ -28,6 +28,7 @@ from ..errors import BadValueError
 from ..units import parse_tolerance, parse_value
 from .db import current_revision, read_meta
 from .models import KINDS, VALUE_UNITS, Part
+from .row_ranges import TEXT_COLUMNS, drop_unusable_rows, escape_controls
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -142,6 +143,9 @@ def _row_dict(row: Any) -> dict[str, Any]:
     if d.get("created_at") is not None and hasattr(d["created_at"], "isoformat"):
         d["created_at"] = d["created_at"].isoformat()
     d["value_unit"] = VALUE_UNITS.get(d["kind"])
+    for column in TEXT_COLUMNS:
+        if isinstance(d.get(column), str):
+            d[column] = escape_controls(d[column])
     return d
 
 
@@ -330,13 +334,19 @@ def catalogue_stats(engine: Engine) -> dict[str, Any]:
 
 
 def parts_frame(
-    engine: Engine, kinds: str | list[str] | tuple[str, ...] | None = None, stock_only: bool = False
+    engine: Engine,
+    kinds: str | list[str] | tuple[str, ...] | None = None,
+    stock_only: bool = False,
+    *,
+    checked: bool = True,
 ) -> pd.DataFrame:
     """All parts (or those of ``kinds``) as a pandas DataFrame with every ``parts`` column.
 
     Columns: :data:`PART_COLUMNS`, in table order; numeric columns are float64 with NaN for
     missing, ``fusible`` is bool, ``stock`` is a nullable Int64. ``stock_only`` keeps rows with
-    stock > 0 (imported stock lists). Rows are ordered by kind, value, code.
+    stock > 0 (imported stock lists). Rows are ordered by kind, value, code. With ``checked``
+    (the default) rows with numbers out of their physical range are left out and named in
+    ``frame.attrs["skipped_parts"]`` (:func:`drop_unusable_rows`).
     """
     import pandas as pd
 
@@ -360,6 +370,7 @@ def parts_frame(
             frame[name] = pd.to_numeric(frame[name], errors="coerce").astype("float64")
         elif py is bool:
             frame[name] = frame[name].fillna(False).astype(bool)
-        elif py is int:
-            frame[name] = frame[name].astype("Int64")
-    return frame[list(PART_COLUMNS)]
+        elif py is int:  # checked as float first: a stored 1e30 cannot become an Int64
+            frame[name] = pd.to_numeric(frame[name], errors="coerce").astype("float64")
+    frame = frame[list(PART_COLUMNS)]
+    return drop_unusable_rows(frame) if checked else frame

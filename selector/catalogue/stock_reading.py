@@ -161,6 +161,9 @@ def _read_xlsx(file: Path, sheet: str | None) -> list[tuple[int, list[Any]]]:
             worksheet = workbook[sheet]
         else:
             worksheet = workbook.worksheets[0]
+        # bounded by the cells the file holds, not by its declared dimension (a tiny file can
+        # declare A1:XFD1048576 and have every row padded to 16,384 cells)
+        worksheet.reset_dimensions()
         rows = []
         for number, cells in enumerate(worksheet.iter_rows(values_only=True), start=1):
             values = ["" if cell is None else cell for cell in cells]

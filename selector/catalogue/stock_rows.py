@@ -20,9 +20,11 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from ..errors import BadRowError, BadValueError, CatalogueError
+from ..ranges import check_count, check_range
 from ..units import parse_tolerance, parse_value
 from .build import resistor_working_voltage
 from .models import VALUE_UNITS, Part
+from .row_ranges import escape_controls, has_controls, out_of_range_columns
 from .stock_families import FamilyInfo, recognise_family
 from .stock_reading import cell_text, normalise_text
 
@@ -121,7 +123,7 @@ def _parse_breaks(cell: Any) -> list[tuple[int, float]]:
         chunk = chunk.strip()
         if not chunk:
             continue
-        found = re.match(r"^(\d+)\s*\+?\s*[:=@ ]\s*(.+)$", chunk)
+        found = re.match(r"^(\d{1,10})\s*\+?\s*[:=@ ]\s*(.+)$", chunk)
         if not found:
             raise BadValueError(
                 f"cannot read price break {chunk!r}; write them like '1:0.12; 10:0.10'"
@@ -288,9 +290,10 @@ def _row_stock(row: _RowCells) -> int | None:
         stock = _number(row.cell("stock"), "a stock count")
     except BadValueError as exc:
         raise row.fail("stock", str(exc)) from None
-    if not float(stock).is_integer():
-        raise row.fail("stock", f"a stock count is a whole number, got {row.text('stock')!r}")
-    return int(stock)
+    try:
+        return check_count(stock, "a stock count")
+    except BadValueError as exc:
+        raise row.fail("stock", str(exc)) from None
 
 
 def _row_price_breaks(
@@ -357,6 +360,13 @@ def validate_row(
     code_text = row.text("supplier_code")
     if not code_text:
         raise row.fail("supplier_code", "no supplier part code")
+    for field_name in ("supplier_code", "package", "safety_class"):
+        if has_controls(row.text(field_name)):
+            raise row.fail(
+                field_name,
+                f"control characters in {escape_controls(row.text(field_name))!r}; "
+                "a code or name holds printable text only",
+            )
     family = _row_family(row, lookup)
     unit = VALUE_UNITS[family.kind]
     try:
@@ -418,7 +428,29 @@ def validate_row(
     values["unit_price"] = _price_at(breaks, qty)
     shown_currency = row.text("currency") or currency
     values["price_note"] = f"{supplier} stock list, {shown_currency} per piece at {qty} pcs"
+    for column, problem in out_of_range_columns(values):
+        raise row.fail(_FIELD_OF_COLUMN.get(column), problem)
+    for min_qty, price in breaks:
+        try:
+            check_count(min_qty, "a price break quantity")
+            check_range(price, "price", "a price")
+        except BadValueError as exc:
+            raise row.fail("price_breaks", str(exc)) from None
     return StockRow(number, values, breaks)
+
+
+#: the stock-list field a parts column comes from (for naming the file's column in errors)
+_FIELD_OF_COLUMN: Final[dict[str, str]] = {
+    "value": "value",
+    "tolerance": "tolerance",
+    "rated_voltage_v": "voltage",
+    "rated_voltage_ac_v": "voltage",
+    "power_w": "power",
+    "stock": "stock",
+    "temp_max_c": "temp_max",
+    "ripple_a": "ripple",
+    "unit_price": "unit_price",
+}
 
 
 def set_working_voltages(rows: Sequence[StockRow]) -> None:

@@ -21,7 +21,15 @@ from ..errors import EXIT_BAD_INPUT, DropperError
 #: exit code for a bug in dropper itself (outside the 0 / 1 / 2 contract, so scripts notice)
 EXIT_INTERNAL = 3
 
-__all__ = ["app", "echo_cautions", "fail", "print_json", "to_jsonable"]
+__all__ = [
+    "app",
+    "echo_cautions",
+    "fail",
+    "print_json",
+    "printable",
+    "to_jsonable",
+    "warn_skipped_parts",
+]
 
 
 class _Group(typer.core.TyperGroup):
@@ -64,7 +72,7 @@ class _Group(typer.core.TyperGroup):
 
 
 def _error(message: str, code: int) -> None:
-    typer.echo(f"Error: {message}".replace("\n", " "), err=True)
+    typer.echo(printable(f"Error: {message}".replace("\n", " ")), err=True)
     sys.exit(code)
 
 
@@ -112,6 +120,27 @@ def echo_cautions() -> None:
 
     typer.echo("")
     typer.echo(cautions_block())
+
+
+def printable(text: object) -> str:
+    """``text`` safe for a terminal: control characters (ESC, BEL, CR, ...) shown escaped as
+    ``\x1b`` (:func:`selector.catalogue.row_ranges.escape_controls`), so that text from a file
+    cannot retitle or rewrite the user's screen."""
+    from ..catalogue.row_ranges import escape_controls
+
+    return escape_controls(text)
+
+
+def warn_skipped_parts(frame: Any) -> None:
+    """One stderr line per catalogue row left out for a number out of range (at most five,
+    then a count), so that the user knows which stored rows to fix or remove."""
+    skipped = frame.attrs.get("skipped_parts") or []
+    for text in skipped[:5]:
+        typer.echo(
+            f"Warning: catalogue row skipped, number out of range: {printable(text)}", err=True
+        )
+    if len(skipped) > 5:
+        typer.echo(f"Warning: {len(skipped) - 5} more catalogue rows skipped", err=True)
 
 
 def fail(message: str, code: int = EXIT_BAD_INPUT) -> None:

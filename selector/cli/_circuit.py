@@ -26,6 +26,7 @@ from ..engine.circuit import (
     Harmonic,
 )
 from ..errors import BadValueError, OutOfRangeError
+from ..ranges import check_range
 from ..units import format_value, parse_tolerance, parse_value
 
 __all__ = [
@@ -67,6 +68,12 @@ __all__ = [
     "load_from_options",
     "mains_from_options",
     "describe_mains",
+    "option_percent",
+    "option_temperature",
+    "option_value",
+    "parse_burst",
+    "parse_cap_loss",
+    "parse_topology",
     "parse_frequencies",
     "parse_harmonics",
     "tolerances_from_options",
@@ -148,18 +155,80 @@ JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON document."
 DbOpt = Annotated[str | None, typer.Option("--db", help="Catalogue database URL or file.")]
 
 
-def _num(text: str, quantity: str | None, what: str) -> float:
+def option_value(text: str, quantity: str | None, what: str) -> float:
+    """The one reader of a numeric option: ``parse_value`` (finite, inside the quantity's
+    physical range, selector.ranges); an error names the option ``what``."""
     try:
         return parse_value(text, quantity)
     except BadValueError as exc:
         raise BadValueError(f"{what}: {exc}") from None
 
 
-def _pct(text: str, what: str) -> float:
+def option_percent(text: str, what: str) -> float:
+    """The one reader of a tolerance or percentage option (letter or %, 0 to below 100 %)."""
     try:
         return parse_tolerance(text)
     except BadValueError as exc:
         raise BadValueError(f"{what}: {exc}") from None
+
+
+def option_temperature(text: str, what: str) -> float:
+    """A temperature option [C], inside the ``temperature_c`` range of selector.ranges."""
+    cleaned = text.strip().removesuffix("C").removesuffix("°").strip() if text else text
+    value = option_value(cleaned, None, what)
+    try:
+        return check_range(value, "temperature_c", "a temperature")
+    except BadValueError as exc:
+        raise BadValueError(f"{what}: {exc}") from None
+
+
+def parse_cap_loss(text: str) -> float:
+    """``--cap-loss``: the X capacitor's end-of-life loss as a fraction (10 -> 0.1)."""
+    return option_percent(text, "--cap-loss")
+
+
+def parse_topology(text: str, extra: tuple[str, ...] = ()) -> str:
+    """``--topology``: bridge or half-wave (and ``extra`` names such as 'any' or 'auto')."""
+    top = text.strip().lower()
+    if top in ("halfwave", "half_wave", "half"):
+        top = "half-wave"
+    if top not in (*extra, *TOPOLOGIES):
+        raise BadValueError(
+            f"--topology: unknown topology {text!r}; one of {', '.join((*extra, *TOPOLOGIES))}"
+        )
+    return top
+
+
+def parse_burst(
+    burst: str | None, burst_time: str | None = None, burst_period: str | None = None
+) -> tuple[float, float, float]:
+    """(current [A], duration [s], period [s]) of the load burst, the one reader for every
+    command: ``--burst 30m/5ms/1s``, or ``--burst 30m --burst-time 5m --burst-period 1``.
+    No burst gives zeros; a burst needs 0 < duration < period."""
+    if not burst:
+        if burst_time or burst_period:
+            raise BadValueError("--burst-time and --burst-period need --burst (e.g. --burst 30m)")
+        return 0.0, 0.0, 0.0
+    if "/" in burst:
+        pieces = burst.split("/")
+        if len(pieces) != 3 or burst_time or burst_period:
+            raise BadValueError(
+                f"--burst: cannot read {burst!r}; write current/duration/period, e.g. 30m/5ms/1s "
+                "(or give --burst-time and --burst-period, not both forms)"
+            )
+        current_text, time_text, period_text = pieces
+    else:
+        current_text, time_text, period_text = burst, burst_time, burst_period
+        if not time_text or not period_text:
+            raise BadValueError("--burst needs a duration and a period: --burst 30m/5ms/1s")
+    current = option_value(current_text, "A", "--burst")
+    duration = option_value(time_text, "s", "--burst duration")
+    period = option_value(period_text, "s", "--burst period")
+    if current > 0 and not 0 < duration < period:
+        raise BadValueError(
+            "--burst needs a duration > 0 and a longer period (e.g. --burst 30m/5ms/1s)"
+        )
+    return current, duration, period
 
 
 def parse_frequencies(text: str) -> tuple[float, ...]:
@@ -169,7 +238,7 @@ def parse_frequencies(text: str) -> tuple[float, ...]:
         raise BadValueError(f"--freq: cannot read {text!r}; write 50 or 50,60")
     out: list[float] = []
     for p in parts:
-        f = _num(p.strip(), "Hz", "--freq")
+        f = option_value(p.strip(), "Hz", "--freq")
         if f not in out:
             out.append(f)
     return tuple(out)
@@ -237,8 +306,8 @@ def mains_from_options(
     """Mains from the option texts (``harmonics``: see :func:`parse_harmonics`)."""
     hs, source = parse_harmonics(harmonics)
     return Mains(
-        nominal_v=_num(mains, "V", "--mains"),
-        tolerance=_pct(mains_tol, "--mains-tol"),
+        nominal_v=option_value(mains, "V", "--mains"),
+        tolerance=option_percent(mains_tol, "--mains-tol"),
         frequencies_hz=parse_frequencies(freq),
         harmonics=hs,
         harmonics_source=source,
@@ -278,10 +347,10 @@ def tolerances_from_options(
 ) -> Tolerances:
     """Tolerances from the option texts (percent or IEC 60062 letters)."""
     return Tolerances(
-        cap_tol=_pct(cap_tol, "--cap-tol"),
-        cap_loss=_pct(cap_loss, "--cap-loss"),
-        r_tol=_pct(r_tol, "--r-tol"),
-        zener_tol=_pct(zener_tol, "--zener-tol"),
+        cap_tol=option_percent(cap_tol, "--cap-tol"),
+        cap_loss=parse_cap_loss(cap_loss),
+        r_tol=option_percent(r_tol, "--r-tol"),
+        zener_tol=option_percent(zener_tol, "--zener-tol"),
     )
 
 
@@ -295,10 +364,10 @@ def conditions_from_options(
             f"--profile: unknown {profile!r}; one of {', '.join(DISCHARGE_PROFILES)}"
         )
     return Conditions(
-        ambient_c=_num(ambient, None, "--ambient"),
+        ambient_c=option_temperature(ambient, "--ambient"),
         profile=prof,
-        surge_v=_num(surge, "V", "--surge"),
-        vout_max_v=_num(vout_max, "V", "--vout-max") if vout_max else None,
+        surge_v=option_value(surge, "V", "--surge"),
+        vout_max_v=option_value(vout_max, "V", "--vout-max") if vout_max else None,
     )
 
 
@@ -310,13 +379,9 @@ def load_from_options(
     burst_period: str | None = None,
 ) -> Load:
     """The load: a current, or a resistor, plus an optional burst profile."""
-    burst_a = _num(burst, "A", "--burst") if burst else 0.0
-    bt = _num(burst_time, "s", "--burst-time") if burst_time else 0.0
-    bp = _num(burst_period, "s", "--burst-period") if burst_period else 0.0
-    if burst_a > 0 and not (0 < bt < bp):
-        raise BadValueError("--burst needs --burst-time and a longer --burst-period (e.g. 50m, 2)")
-    current = _num(load, "A", "--load")
-    r = _num(load_r, "ohm", "--load-r") if load_r else None
+    burst_a, bt, bp = parse_burst(burst, burst_time, burst_period)
+    current = option_value(load, "A", "--load")
+    r = option_value(load_r, "ohm", "--load-r") if load_r else None
     return Load(
         current_a=current,
         resistance_ohm=r,
@@ -345,37 +410,33 @@ def circuit_from_options(
     """The circuit from the option texts. ``cap`` must hold at least one value."""
     if not cap:
         raise BadValueError("give the X capacitor with --cap (e.g. --cap 330n; repeat for more)")
-    top = topology.strip().lower()
-    if top in ("halfwave", "half_wave", "half"):
-        top = "half-wave"
-    if top not in TOPOLOGIES:
-        raise BadValueError(f"--topology: unknown {topology!r}; one of {', '.join(TOPOLOGIES)}")
-    caps = tuple(_num(c, "F", "--cap") for c in cap)
+    top = parse_topology(topology)
+    caps = tuple(option_value(c, "F", "--cap") for c in cap)
     if bleeder.strip().lower() in ("none", "no", "inf", "0"):
         rb = math.inf
     else:
-        rb = _num(bleeder, "ohm", "--bleeder")
+        rb = option_value(bleeder, "ohm", "--bleeder")
     reg = None
     if regulator:
         reg = Regulator(
-            output_v=_num(regulator, "V", "--regulator"),
-            dropout_v=_num(dropout, "V", "--dropout"),
-            quiescent_a=_num(quiescent, "A", "--quiescent"),
+            output_v=option_value(regulator, "V", "--regulator"),
+            dropout_v=option_value(dropout, "V", "--dropout"),
+            quiescent_a=option_value(quiescent, "A", "--quiescent"),
         )
     return Circuit(
         topology=top,
         x_capacitors_f=caps,
-        series_resistance_ohm=_num(series_r, "ohm", "--series-r"),
+        series_resistance_ohm=option_value(series_r, "ohm", "--series-r"),
         bleeder_resistance_ohm=rb,
-        diode_drop_v=_num(diode_drop, "V", "--diode-drop"),
-        diode_resistance_ohm=_num(diode_r, "ohm", "--diode-r"),
-        zener_voltage_v=_num(zener, "V", "--zener"),
-        zener_impedance_ohm=_num(zener_z, "ohm", "--zener-z"),
-        reservoir_f=_num(reservoir, "F", "--reservoir"),
+        diode_drop_v=option_value(diode_drop, "V", "--diode-drop"),
+        diode_resistance_ohm=option_value(diode_r, "ohm", "--diode-r"),
+        zener_voltage_v=option_value(zener, "V", "--zener"),
+        zener_impedance_ohm=option_value(zener_z, "ohm", "--zener-z"),
+        reservoir_f=option_value(reservoir, "F", "--reservoir"),
         load=load or Load(),
         regulator=reg,
         reservoir_esr_ohm=(
-            _num(reservoir_esr, "ohm", "--reservoir-esr")
+            option_value(reservoir_esr, "ohm", "--reservoir-esr")
             if reservoir_esr
             else DEFAULT_RESERVOIR_ESR_OHM
         ),

@@ -7,10 +7,9 @@ from typing import Annotated, Any
 
 import typer
 
-from ..engine.circuit import TOPOLOGIES
 from ..errors import EXIT_FINDINGS, EXIT_OK, BadValueError
-from ..units import format_value, parse_value
-from ._app import app, echo_cautions, print_json
+from ..units import format_value
+from ._app import app, echo_cautions, print_json, warn_skipped_parts
 from ._circuit import (
     AmbientOpt,
     BurstOpt,
@@ -35,6 +34,8 @@ from ._circuit import (
     describe_mains,
     load_from_options,
     mains_from_options,
+    option_value,
+    parse_topology,
     tolerances_from_options,
 )
 
@@ -237,21 +238,15 @@ def audit_options(
         r_tol if r_tol is not None else "5",
         zener_tol if zener_tol is not None else "5",
     )
-    top = topology.strip().lower()
-    if top in ("halfwave", "half_wave", "half"):
-        top = "half-wave"
-    if top not in ("auto", *TOPOLOGIES):
-        raise BadValueError(
-            f"--topology: unknown {topology!r}; one of auto, {', '.join(TOPOLOGIES)}"
-        )
+    top = parse_topology(topology, extra=("auto",))
     reg = None
     if regulator:
         from ..engine import Regulator
 
         reg = Regulator(
-            output_v=_value(regulator, "V", "--regulator"),
-            dropout_v=_value(dropout, "V", "--dropout"),
-            quiescent_a=_value(quiescent, "A", "--quiescent"),
+            output_v=option_value(regulator, "V", "--regulator"),
+            dropout_v=option_value(dropout, "V", "--dropout"),
+            quiescent_a=option_value(quiescent, "A", "--quiescent"),
         )
     return dict(
         mains=mains_from_options(mains, mains_tol, freq, harmonics),
@@ -269,7 +264,7 @@ def audit_options(
         roles_file=roles,
         catalogue=_catalogue(db),
         circuit_defaults={
-            key: _value(text, unit, name)
+            key: option_value(text, unit, name)
             for key, text, unit, name in (
                 ("diode_drop_v", diode_drop, "V", "--diode-drop"),
                 ("diode_resistance_ohm", diode_r, "ohm", "--diode-r"),
@@ -354,18 +349,13 @@ def audit(
     _finish(doc, json)
 
 
-def _value(text: str, quantity: str, what: str) -> float:
-    try:
-        return parse_value(text, quantity)
-    except BadValueError as exc:
-        raise BadValueError(f"{what}: {exc}") from None
-
-
 def _catalogue(db: str | None):
     """The catalogue as a DataFrame (the audit fills missing ratings from its families)."""
     from ..catalogue import catalogue_frame, resolve_url
 
-    return catalogue_frame(resolve_url(db))
+    frame = catalogue_frame(resolve_url(db))
+    warn_skipped_parts(frame)
+    return frame
 
 
 def _columns(options: list[str] | None) -> dict[str, str]:

@@ -9,8 +9,8 @@ import typer
 
 from ..cautions import CAUTIONS
 from ..errors import BadValueError
-from ..units import format_value, parse_value
-from ._app import app, echo_cautions, print_json, to_jsonable
+from ..units import format_value
+from ._app import app, echo_cautions, print_json, to_jsonable, warn_skipped_parts
 from ._circuit import (
     AmbientOpt,
     BurstOpt,
@@ -33,6 +33,10 @@ from ._circuit import (
     conditions_from_options,
     describe_mains,
     mains_from_options,
+    option_value,
+    parse_burst,
+    parse_cap_loss,
+    parse_topology,
 )
 from .parts import _Bar
 
@@ -40,26 +44,6 @@ from .parts import _Bar
 DesignTopologyOpt = Annotated[
     str, typer.Option("--topology", help="bridge, half-wave, or any (the solver picks).")
 ]
-
-
-def _burst(burst: str | None, burst_time: str | None, burst_period: str | None):
-    """(current, duration, period) from --burst 30m/5ms/1s or --burst + --burst-time/-period."""
-    if not burst:
-        return 0.0, 0.0, 0.0
-    if "/" in burst:
-        parts = burst.split("/")
-        if len(parts) != 3:
-            raise BadValueError(
-                f"--burst: cannot read {burst!r}; write current/duration/period, e.g. 30m/5ms/1s"
-            )
-        return (
-            parse_value(parts[0], "A"),
-            parse_value(parts[1], "s"),
-            parse_value(parts[2], "s"),
-        )
-    if not burst_time or not burst_period:
-        raise BadValueError("--burst needs a duration and a period: --burst 30m/5ms/1s")
-    return parse_value(burst, "A"), parse_value(burst_time, "s"), parse_value(burst_period, "s")
 
 
 @app.command()
@@ -131,27 +115,27 @@ def design(
     from ..policy import load_policy
 
     pol = load_policy(policy)
-    reg_v = parse_value(regulator, "V") if regulator else None
+    reg_v = option_value(regulator, "V", "--regulator") if regulator else None
     if vout is None and reg_v is None:
         raise BadValueError("give the output voltage with --vout (e.g. --vout 5.1)")
-    vout_v = parse_value(vout, "V") if vout is not None else reg_v
+    vout_v = option_value(vout, "V", "--vout") if vout is not None else reg_v
     if reg_v is not None and vout is not None and abs(reg_v - vout_v) > 1e-9:
         raise BadValueError("--regulator and --vout disagree: the regulator's output is --vout")
-    b_i, b_t, b_p = _burst(burst, burst_time, burst_period)
-    top_name = topology.strip().lower()
-    if top_name in ("halfwave", "half_wave", "half"):
-        top_name = "half-wave"
+    b_i, b_t, b_p = parse_burst(burst, burst_time, burst_period)
+    top_name = parse_topology(topology, extra=("any",))
     req = D.Requirement(
-        load_a=parse_value(load, "A"),
+        load_a=option_value(load, "A", "--load"),
         vout_v=vout_v,
         mains=mains_from_options(mains, mains_tol, freq, harmonics),
         conditions=conditions_from_options(ambient, profile, surge),
-        cap_loss=parse_value(cap_loss.rstrip("%").strip(), None) / 100.0,
+        cap_loss=parse_cap_loss(cap_loss),
         topology=top_name,
-        zener_v=parse_value(zener, "V") if zener else None,
+        zener_v=option_value(zener, "V", "--zener") if zener else None,
         regulator=reg_v is not None,
-        regulator_dropout_v=parse_value(dropout, "V"),
-        regulator_quiescent_a=parse_value(quiescent, "A") if reg_v is not None else 0.0,
+        regulator_dropout_v=option_value(dropout, "V", "--dropout"),
+        regulator_quiescent_a=option_value(quiescent, "A", "--quiescent")
+        if reg_v is not None
+        else 0.0,
         burst_current_a=b_i,
         burst_duration_s=b_t,
         burst_period_s=b_p,
@@ -163,10 +147,11 @@ def design(
     )
     limit_s = None
     if time_limit is not None:
-        limit_s = parse_value(time_limit, "s")
+        limit_s = option_value(time_limit, "s", "--time-limit")
         if not limit_s > 0:
             raise BadValueError(f"--time-limit must be > 0 s, got {time_limit!r}")
     frame = catalogue_frame(resolve_url(db), stock_only=stock_only)
+    warn_skipped_parts(frame)
     # a progress bar (stderr) for searches over large catalogues
     bar = None if json or len(frame) < 1000 else _Bar("searching part sets")
     try:

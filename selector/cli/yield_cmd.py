@@ -14,7 +14,7 @@ import typer
 
 from ..cautions import CAUTIONS
 from ..errors import BadValueError
-from ..units import format_value, parse_tolerance
+from ..units import format_value
 from ._app import app, echo_cautions, print_json
 from ._circuit import (
     AmbientOpt,
@@ -44,6 +44,7 @@ from ._circuit import (
     conditions_from_options,
     load_from_options,
     mains_from_options,
+    option_percent,
     tolerances_from_options,
 )
 from .audit import (
@@ -150,7 +151,7 @@ def yield_cmd(
         raise BadValueError("give either --bom FILE or the values (--cap ...), not both")
     if bom is None and (role or roles or sheet or encoding or column):
         raise BadValueError("--role, --roles, --sheet, --encoding and --column need --bom FILE")
-    res_tol = None if reservoir_tol is None else _pct(reservoir_tol, "--reservoir-tol")
+    res_tol = None if reservoir_tol is None else option_percent(reservoir_tol, "--reservoir-tol")
     parts = context = pol = None
     notes: list[str] = []
     if bom is not None:
@@ -251,13 +252,6 @@ def yield_cmd(
         for text in render_yield(doc):
             typer.echo(text)
         echo_cautions()
-
-
-def _pct(text: str, what: str) -> float:
-    try:
-        return parse_tolerance(text)
-    except BadValueError as exc:
-        raise BadValueError(f"{what}: {exc}") from None
 
 
 def _percent(x: float) -> str:

@@ -36,7 +36,8 @@ def evaluate(
     designators); the 'whole' rules run once. ``analysis`` is an engine Analysis (or None when
     ``stresses`` is given); ``context`` carries what the analysis does not (see
     ``stresses_from_analysis``). Missing ratings give 'warn' findings; a stress the analysis
-    lacks gives a 'warn' finding "stress not computed".
+    lacks gives a 'warn' finding "stress not computed"; a stress or limit that comes out
+    infinite or NaN gives a 'fail' finding "cannot evaluate", never a pass.
     """
     policy = policy or Policy()
     if stresses is None:
@@ -101,6 +102,19 @@ def _finding(
         )
     stress, limit, margin = rule.check(stresses, part, policy)
     stress, limit, margin = float(stress), float(limit), float(margin)
+    if not (math.isfinite(stress) and math.isfinite(limit) and math.isfinite(margin)):
+        # an infinite rating or a stress the engine could not compute: never a pass
+        return Finding(
+            stress=stress if math.isfinite(stress) else None,
+            limit=limit if math.isfinite(limit) else None,
+            margin=None,
+            ok=False,
+            severity="fail",
+            note="cannot evaluate: "
+            + ("stress" if not math.isfinite(stress) else "limit")
+            + " is not a finite number",
+            **common,
+        )
     ok = bool(stress <= limit)
     note = ""
     if rule.id == "bleeder.discharge" and bool(stresses.get("discharge_exempt")):

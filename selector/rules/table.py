@@ -14,6 +14,8 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from typing import Any, Final
 
+import numpy as np
+
 from ..policy import Policy
 from .fuse import (
     rated_current_vs_fault_current,
@@ -86,9 +88,35 @@ class Rule:
     applies: Callable[[Mapping[str, Any], RatedPart], bool] | None = None
 
     def check(self, stresses: Mapping[str, Any], part: Any, policy: Policy) -> tuple[Any, Any, Any]:
-        """(stress, limit, margin); arrays in, arrays out."""
+        """(stress, limit, margin); arrays in, arrays out.
+
+        A stress or limit that is infinite cannot be evaluated (a rating of ``1e999`` V is no
+        rating): its limit comes back NaN, so that ``stress <= limit`` is False in every caller
+        and the rule fails, never passes. A NaN limit stays NaN; the margin of either is NaN.
+        """
         stress, limit = self.fn(stresses, part, policy)
-        return stress, limit, margin(stress, limit)
+        return stress, *_unevaluable_as_nan(stress, limit)
+
+
+def _unevaluable_as_nan(stress: Any, limit: Any) -> tuple[Any, Any]:
+    """(limit, margin) with NaN wherever the stress or the limit is infinite (or NaN)."""
+    if isinstance(stress, (int, float)) and isinstance(limit, (int, float)):
+        if math.isfinite(stress) and math.isfinite(limit):
+            return limit, margin(stress, limit)
+        return (math.nan if math.isinf(stress) or math.isinf(limit) else limit), math.nan
+    stress_a = np.asarray(stress, dtype=float)
+    limit_a = np.asarray(limit, dtype=float)
+    infinite = np.isinf(stress_a) | np.isinf(limit_a)
+    bad = infinite | np.isnan(stress_a) | np.isnan(limit_a)
+    if not np.any(bad):
+        return limit, margin(stress, limit)
+    limit_a = np.where(
+        infinite, np.nan, np.broadcast_to(limit_a, np.broadcast(stress_a, limit_a).shape)
+    )
+    margin_a = np.where(bad, np.nan, margin(stress_a, np.where(bad, 1.0, limit_a)))
+    return (limit_a.item() if limit_a.ndim == 0 else limit_a), (
+        margin_a.item() if np.ndim(margin_a) == 0 else margin_a
+    )
 
 
 def not_fusible_resistor(stresses: Mapping[str, Any], part: Any) -> bool:
