@@ -349,3 +349,19 @@ def test_other_role_skips_reading_the_line(catalogue, tmp_path):
     with pytest.raises(BadRowError, match="three-digit code"):
         run(p, catalogue)
     assert fails(run(p, catalogue, roles={"C3": "other"})) == set()
+
+
+def test_fuse_against_a_shorted_x2_capacitor_is_a_warning_only(catalogue):
+    # IEC 60335-1 19.11.2 does not apply a short circuit to a capacitor complying with
+    # IEC 60384-14 [M] from memory (DOMAIN.md section 10): a T250mA fuse behind 2 x 220 ohm
+    # cannot clear a shorted X capacitor (fault 207 V / 440 ohm = 0.47 A < 2 x 0.25 A), which
+    # for a sound X2 part is a warning citing the exemption, not a failure
+    r = run("audit_vent_fuse_x2.csv", catalogue)
+    assert fails(r) == set()
+    f = finding(r, "fuse.opens_on_short")
+    assert f.severity == "warn" and "IEC 60384-14" in f.note and "19.11.2" in f.note
+    assert f.rating == pytest.approx(207.0 / (440 * 1.05), rel=0.01)  # low line, R at +5 %
+    # the same BOM with a general-purpose film capacitor: the fuse rule stays a failure
+    r = run("audit_vent_fuse_film.csv", catalogue)
+    assert ("fuse.opens_on_short", "F1") in fails(r)
+    assert ("x_cap.safety_class", "C1") in fails(r)

@@ -170,17 +170,39 @@ def test_help_text():
         assert opt in r.stdout
 
 
-def test_standby_limit_blocks_a_12v_20ma_supply():
-    # EU Regulation 2023/826: off/standby <= 0.5 W [S]. At no load a 12 V dropper sized for
-    # 20 mA (+10 % margin, low corner) dumps about 12.6 V x 40 mA ~ 0.5 W in the Zener at the
-    # high corner, plus the series resistor and bleeder, so no set passes: the error must name
-    # the whole-supply rule, not a part.
+@pytest.mark.parametrize("limit", [["--standby-limit", "0.5"], ["--product-class", "standby"]])
+def test_standby_limit_blocks_a_12v_20ma_supply(limit):
+    # EU Regulation 2023/826: off/standby <= 0.5 W [S], for a product with a standby mode. At
+    # no load a 12 V dropper sized for 20 mA (+10 % margin, low corner) dumps about 12.6 V x
+    # 40 mA ~ 0.5 W in the Zener at the high corner, plus the series resistor and bleeder, so
+    # no set passes: the error must name the whole-supply rule, not a part.
     result = runner.invoke(
-        app, ["design", "--load", "20m", "--vout", "12", "--mains", "230", "--freq", "50"]
+        app, ["design", "--load", "20m", "--vout", "12", "--mains", "230", "--freq", "50", *limit]
     )
     assert result.exit_code == 1
     assert "blocked by rule whole.standby_power" in result.stderr
     assert "relax:" in result.stderr
+
+
+def test_without_a_standby_limit_the_same_supply_is_designed():
+    # the scope of the limit (DOMAIN.md section 10): with no product class the no-load power is
+    # computed and shown next to the common 0.5 W limit (EU 2023/826), not judged
+    result = runner.invoke(
+        app, ["design", "--load", "20m", "--vout", "12", "--mains", "230", "--freq", "50"]
+    )
+    assert result.exit_code == 0, result.stderr
+    line = next(x for x in result.stdout.splitlines() if "whole.standby_power" in x)
+    assert line.split()[0] == "pass" and "above the common 0.5 W limit" in line
+    doc = json.loads(
+        runner.invoke(
+            app,
+            ["design", "--load", "20m", "--vout", "12", "--mains", "120", "--freq", "60",
+             "--json"],
+        ).stdout
+    )  # fmt: skip
+    assert doc["designs"] and doc["policy"]["standby_limit_w"] is None
+    d = doc["designs"][0]
+    assert d["worst_case"]["no_load_real_power_w"] > 0.5
 
 
 def test_harmonics_reach_the_exact_verification(catalogue_url):

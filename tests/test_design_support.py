@@ -459,9 +459,8 @@ def brute_force(df: pd.DataFrame, req: Requirement, policy, analyse=standin_anal
                 an = analyse(circ, req.mains, tol, req.conditions)
                 sc = R.stresses_from_analysis(an, ctx)
                 # the 'whole' rules need no part: most combinations stop here
-                whole_ok = all(
-                    f.severity == "pass"
-                    for f in R.evaluate({}, None, policy, stresses=sc[0], corners=sc[1])
+                whole_ok = not R.blocking(
+                    R.evaluate({}, None, policy, stresses=sc[0], corners=sc[1])
                 )
                 cache[ek] = (sc, whole_ok)
             (s_an, c_an), whole_ok = cache[ek]
@@ -476,8 +475,14 @@ def brute_force(df: pd.DataFrame, req: Requirement, policy, analyse=standin_anal
                 "reservoir": _rp(cap, "reservoir", 1, "single"),
             }
             common = R.evaluate(parts, None, policy, stresses=s_an, corners=c_an)
-            if any(f.severity != "pass" for f in common):
+            if R.blocking(common):
                 continue
+            # the fuse rules see whether the X capacitor is of an IEC 60384-14 class (their
+            # waiver), as evaluate() sets it when the X capacitor is among the parts
+            s_fuse = {
+                **s_an,
+                R.X_CAP_IEC60384_14_KEY: all(R.is_iec60384_14_class(x["safety_class"]) for x in xo),
+            }
             fuse_choices = [(f, R.rated_part_from_row(f, "fuse")) for f in fuses]
             fusible = [p for p in _series_list(rs_) if p.fusible]
             if fusible:
@@ -485,8 +490,8 @@ def brute_force(df: pd.DataFrame, req: Requirement, policy, analyse=standin_anal
 
                 fuse_choices.append((None, dataclasses.replace(fusible[0], role="fuse")))
             for frow, fpart in fuse_choices:
-                ff = R.evaluate({"fuse": fpart}, None, policy, stresses=s_an, corners=c_an)
-                if any(f.severity != "pass" for f in ff):
+                ff = R.evaluate({"fuse": fpart}, None, policy, stresses=s_fuse, corners=c_an)
+                if R.blocking(ff):
                     continue
                 allp = base + ([frow] if frow is not None else [])
                 key = int(

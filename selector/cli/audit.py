@@ -26,15 +26,18 @@ from ._circuit import (
     LoadROpt,
     MainsOpt,
     MainsTolOpt,
+    ProductClassOpt,
     ProfileOpt,
     QuiescentOpt,
     RegulatorOpt,
+    StandbyLimitOpt,
     SurgeOpt,
     TopologyOpt,
     conditions_from_options,
     describe_mains,
     load_from_options,
     mains_from_options,
+    standby_policy,
     tolerances_from_options,
 )
 
@@ -116,6 +119,9 @@ def human_report(doc: dict[str, Any]) -> list[str]:
     warns = [f for f in doc["findings"] if f["severity"] == "warn"]
     for f in fails + warns:
         lines.append(finding_line(f))
+    for f in doc["findings"]:
+        if f["rule"] == "whole.standby_power" and f["severity"] == "pass":
+            lines.append(finding_line(f))  # the no-load power is always shown
     s = doc["summary"]
     lines.append(f"{s['pass']} checks pass, {s['warn']} warn, {s['fail']} fail.")
     return lines
@@ -218,6 +224,8 @@ def audit_options(
     surge: str = "1k",
     policy: Path | None = None,
     db: str | None = None,
+    standby_limit: str | None = None,
+    product_class: str | None = None,
 ) -> dict[str, Any]:
     """The keyword options of :func:`selector.audit.evaluate.audit_bom` from the option texts.
 
@@ -261,7 +269,7 @@ def audit_options(
         load=load_from_options(load, load_r, burst, burst_time, burst_period),
         regulator=reg,
         topology=None if top == "auto" else top,
-        policy=load_policy(policy),
+        policy=standby_policy(load_policy(policy), standby_limit, product_class)[0],
         sheet=sheet,
         encoding=encoding,
         columns=_columns(column),
@@ -312,6 +320,8 @@ def audit(
     profile: ProfileOpt = "iec60335",
     surge: SurgeOpt = "1k",
     policy: PolicyOpt = None,
+    standby_limit: StandbyLimitOpt = None,
+    product_class: ProductClassOpt = None,
     db: DbOpt = None,
     json: JsonOpt = False,
     report: Annotated[
@@ -334,6 +344,7 @@ def audit(
         load_r=load_r, burst=burst, burst_time=burst_time, burst_period=burst_period,
         regulator=regulator, dropout=dropout, quiescent=quiescent, diode_drop=diode_drop,
         diode_r=diode_r, ambient=ambient, profile=profile, surge=surge, policy=policy, db=db,
+        standby_limit=standby_limit, product_class=product_class,
     )  # fmt: skip
     result = audit_bom(bom, **opts)
     from ..engine.distortion import mains_record

@@ -32,6 +32,7 @@ from ._circuit import (
     LoadROpt,
     MainsOpt,
     MainsTolOpt,
+    ProductClassOpt,
     ProfileOpt,
     QuiescentOpt,
     RegulatorOpt,
@@ -39,6 +40,7 @@ from ._circuit import (
     ReservoirOpt,
     RTolOpt,
     SeriesROpt,
+    StandbyLimitOpt,
     SurgeOpt,
     TopologyOpt,
     VoutMaxOpt,
@@ -51,6 +53,7 @@ from ._circuit import (
     describe_mains,
     load_from_options,
     mains_from_options,
+    standby_policy,
     tolerances_from_options,
 )
 
@@ -90,6 +93,8 @@ def check(
     profile: ProfileOpt = "iec60335",
     surge: SurgeOpt = "1k",
     vout_max: VoutMaxOpt = None,
+    standby_limit: StandbyLimitOpt = None,
+    product_class: ProductClassOpt = None,
     json: JsonOpt = False,
     db: DbOpt = None,
     report: Annotated[
@@ -122,10 +127,17 @@ def check(
     tolerances = tolerances_from_options(cap_tol, cap_loss, r_tol, zener_tol)
     conditions = conditions_from_options(ambient, profile, surge, vout_max)
     result = analyse(circuit, supply, tolerances, conditions)
+    from ..policy import Policy
+    from ..rules import standby_record
+
+    pol, limit_source = standby_policy(Policy(), standby_limit, product_class)
+    standby = standby_record(result.worst_case.no_load_real_power_w, pol, limit_source)
+    ok = bool(result.ok and standby["ok"])
     doc = {
         "topology": result.topology,
         "ambient_c": result.ambient_c,
-        "ok": result.ok,
+        "ok": ok,
+        "standby": standby,
         "mains": mains_record(supply),
         # the highest bus voltage the load tolerates (--vout-max; default 1.3 x bus, [P])
         "vout_max_v": conditions.vout_max(circuit),
@@ -150,9 +162,15 @@ def check(
         print_json(doc)
     else:
         typer.echo(render_table(result, conditions.vout_max(circuit)))
+        typer.echo(
+            f"No-load power {format_value(standby['no_load_real_power_w'], 'W')}: "
+            + ("" if standby["ok"] else "NOT ACCEPTED, ")
+            + standby["note"]
+            + (f" ({standby['source']})" if standby["source"] else "")
+        )
         typer.echo(describe_mains(doc["mains"]))
         echo_cautions()
-    if not result.ok:
+    if not ok:
         raise typer.Exit(EXIT_FINDINGS)
 
 

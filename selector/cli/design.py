@@ -25,14 +25,17 @@ from ._circuit import (
     LoadOpt,
     MainsOpt,
     MainsTolOpt,
+    ProductClassOpt,
     ProfileOpt,
     QuiescentOpt,
     RegulatorOpt,
+    StandbyLimitOpt,
     SurgeOpt,
     ZenerOpt,
     conditions_from_options,
     describe_mains,
     mains_from_options,
+    standby_policy,
 )
 from .parts import _Bar
 
@@ -89,6 +92,8 @@ def design(
         Path | None,
         typer.Option("--policy", help="TOML file overriding derating limits (see docs)."),
     ] = None,
+    standby_limit: StandbyLimitOpt = None,
+    product_class: ProductClassOpt = None,
     minimize: Annotated[
         str, typer.Option("--minimize", help="price, area or count (ties broken by the others).")
     ] = "price",
@@ -130,7 +135,7 @@ def design(
     from ..engine.distortion import mains_record
     from ..policy import load_policy
 
-    pol = load_policy(policy)
+    pol, standby_source = standby_policy(load_policy(policy), standby_limit, product_class)
     reg_v = parse_value(regulator, "V") if regulator else None
     if vout is None and reg_v is None:
         raise BadValueError("give the output voltage with --vout (e.g. --vout 5.1)")
@@ -191,6 +196,7 @@ def design(
         },
         "mains": mains_record(req.mains),
         "policy": pol.to_dict(),
+        "standby_limit_source": standby_source,
         "designs": [D.design_to_dict(d) for d in designs],
         "bom": str(bom) if bom is not None else None,
         "cautions": list(CAUTIONS),
@@ -321,6 +327,10 @@ def _echo_design(d: Any, n: int, req: Any) -> None:
             )
     typer.echo(f"  checks (binding: {', '.join(d.binding)}):")
     for f in d.checks:
+        if f.stress is not None and f.limit is None:  # no limit set: the figure and a note
+            stress = _fmt(f.stress, f.unit)
+            typer.echo(f"    {f.severity:<4}  {f.rule:<28} {stress:>10}   {f.note}   {f.source}")
+            continue
         if f.stress is None or f.unit == "class":
             typer.echo(f"    {f.severity:<4}  {f.rule:<28} {f.note:<24}   {f.source}")
             continue

@@ -84,10 +84,16 @@ class Rule:
     corner_key: str | None = None
     #: only for parts of this kind (e.g. fusible resistors), or when this stress key is truthy
     applies: Callable[[Mapping[str, Any], RatedPart], bool] | None = None
+    #: when this returns a note, a failure of the rule is a 'warn' finding (waived) with it
+    waiver: Callable[[Mapping[str, Any]], str | None] | None = None
 
     def check(self, stresses: Mapping[str, Any], part: Any, policy: Policy) -> tuple[Any, Any, Any]:
-        """(stress, limit, margin); arrays in, arrays out."""
+        """(stress, limit, margin); arrays in, arrays out. A limit of None (no limit set, e.g.
+        ``whole.standby_power`` without a standby limit) gives an infinite limit and a margin
+        of 1 (nothing is bounded)."""
         stress, limit = self.fn(stresses, part, policy)
+        if limit is None:
+            return stress, math.inf, 1.0
         return stress, limit, margin(stress, limit)
 
 
@@ -99,6 +105,25 @@ def not_fusible_resistor(stresses: Mapping[str, Any], part: Any) -> bool:
 def fusible_resistor(stresses: Mapping[str, Any], part: Any) -> bool:
     """A fusible series resistor serving as the fuse."""
     return bool(part.fusible)
+
+
+#: the stress key that says every X capacitor is of an IEC 60384-14 class (set by evaluate)
+X_CAP_IEC60384_14_KEY: Final[str] = "x_cap_iec60384_14"
+
+SHORTED_X_CAP_EXEMPTION: Final[str] = (
+    "IEC 60335-1 19.11.2 does not apply a short circuit to capacitors complying with "
+    "IEC 60384-14 [M] from memory, not checked against the standard's text"
+)
+
+
+def shorted_x_cap_exempt(stresses: Mapping[str, Any]) -> str | None:
+    """The waiver of the 'fuse opens on a shorted X capacitor' rules: a note when every X
+    capacitor is of an IEC 60384-14 class (the fault is not applied to it), else None."""
+    if bool(stresses.get(X_CAP_IEC60384_14_KEY)):
+        return (
+            "warning only: the X capacitor is of an IEC 60384-14 class; " + SHORTED_X_CAP_EXEMPTION
+        )
+    return None
 
 
 def surge_given(stresses: Mapping[str, Any], part: Any) -> bool:
@@ -307,18 +332,19 @@ RULES: Final[tuple[Rule, ...]] = (
          applies=real_fuse_and_surge),
     Rule("fuse.opens_on_short", "fuse",
          "the fuse opens if the X capacitor shorts: low-line fault current through the series "
-         "resistance >= rated current x policy factor",
-         SOURCE_P,
+         "resistance >= rated current x policy factor (a warning only for an IEC 60384-14 X "
+         "capacitor)",
+         SOURCE_P + "; exemption: " + SHORTED_X_CAP_EXEMPTION,
          "A", rated_current_vs_fault_current,
          ratings=("value",), stress_keys=("mains_min_v", "series_resistance_ohm"),
-         applies=not_fusible_resistor),
+         applies=not_fusible_resistor, waiver=shorted_x_cap_exempt),
     Rule("fuse.fusible_opens_on_short", "fuse",
          "a fusible series resistor opens if the X capacitor shorts: fault power per element >= "
-         "rated power x policy factor",
-         SOURCE_P,
+         "rated power x policy factor (a warning only for an IEC 60384-14 X capacitor)",
+         SOURCE_P + "; exemption: " + SHORTED_X_CAP_EXEMPTION,
          "W", rated_power_vs_fault_power,
          ratings=("power_w",), stress_keys=("mains_min_v", "series_resistance_ohm"),
-         applies=fusible_resistor),
+         applies=fusible_resistor, waiver=shorted_x_cap_exempt),
     # --- whole circuit (whole.py) -----------------------------------------------------------
     Rule("whole.min_current", "whole",
          "worst-case minimum DC current >= load x (1 + policy margin)",
@@ -327,8 +353,10 @@ RULES: Final[tuple[Rule, ...]] = (
          stress_keys=("load_a", "min_dc_current_a"),
          corner_key="min_dc_current_a"),
     Rule("whole.standby_power", "whole",
-         "no-load real power <= standby limit",
-         "EU Regulation 2023/826, off/standby mode <= 0.5 W [S]",
+         "no-load real power <= standby limit (only when one is set: --standby-limit or "
+         "--product-class)",
+         "EU Regulation 2023/826, off/standby mode <= 0.5 W [S]; other classes in "
+         "selector.policy.PRODUCT_CLASSES",
          "W", no_load_power_vs_standby_limit,
          stress_keys=("no_load_real_power_w",),
          corner_key="no_load_real_power_w"),
