@@ -48,9 +48,52 @@ def small_catalogue() -> pd.DataFrame:
     x = dict(safety_class="X2", rated_voltage_ac_v=275.0, impulse_v=2500.0, tolerance=0.2)
     res = dict(derate_start_c=70.0, derate_end_c=155.0)
     rows = [
-        _part("X-100n", "x_capacitor", "x2", 100e-9, 0.05, 100, dvdt_v_per_s=400e6, **x),
-        _part("X-220n", "x_capacitor", "x2", 220e-9, 0.07, 150, dvdt_v_per_s=250e6, **x),
-        _part("X-470n", "x_capacitor", "x2", 470e-9, 0.11, 270, dvdt_v_per_s=150e6, **x),
+        # humidity grades (IEC 60384-14 Amd 1): grade I does not last a 10-year life in the
+        # end-of-life rule (Peck's model), grades II/III do
+        _part(
+            "X-100n",
+            "x_capacitor",
+            "x2",
+            100e-9,
+            0.05,
+            100,
+            dvdt_v_per_s=400e6,
+            humidity_grade="III",
+            **x,
+        ),
+        _part(
+            "X-220n",
+            "x_capacitor",
+            "x2",
+            220e-9,
+            0.07,
+            150,
+            dvdt_v_per_s=250e6,
+            humidity_grade="II",
+            **x,
+        ),
+        _part(
+            "X-220nI",
+            "x_capacitor",
+            "x2",
+            220e-9,
+            0.06,
+            150,
+            dvdt_v_per_s=250e6,
+            humidity_grade="I",
+            **x,
+        ),
+        _part(
+            "X-470n",
+            "x_capacitor",
+            "x2",
+            470e-9,
+            0.11,
+            270,
+            dvdt_v_per_s=150e6,
+            humidity_grade="III",
+            **x,
+        ),
         _part("F-470n", "film_capacitor", "pet", 470e-9, 0.03, 90, rated_voltage_ac_v=250.0),
         _part(
             "R-47",
@@ -159,7 +202,12 @@ def small_catalogue() -> pd.DataFrame:
                     zz_ohm=5.0,
                 )
             )
-    for c, v, price, area in ((100e-6, 16.0, 0.02, 40), (220e-6, 25.0, 0.03, 60)):
+    # rated lives: 2000 h at 105 C lasts at most 15 x 2000 = 30000 h (cap), short of 10 years
+    for c, v, price, area, life_h in (
+        (100e-6, 16.0, 0.02, 40, 2000.0),
+        (100e-6, 25.0, 0.028, 45, 10000.0),
+        (220e-6, 25.0, 0.03, 60, 10000.0),
+    ):
         rows.append(
             _part(
                 f"E-{c * 1e6:g}u-{v:g}",
@@ -172,6 +220,7 @@ def small_catalogue() -> pd.DataFrame:
                 rated_voltage_v=v,
                 ripple_a=0.2,
                 temp_max_c=105.0,
+                rated_life_h=life_h,
             )
         )
     for i_r, fam, k, price in (

@@ -403,8 +403,9 @@ def _expand_electrolytic(ctx: Context, fam: Family) -> list[dict]:
     e.check_keys(
         _COMMON_KEYS
         | {"series", "min", "max", "voltages", "tolerance", "temp_max_c", "ripple_a_per_sqrt_cv"}
-        | {"price_base", "price_per_cv", "body"}
+        | {"price_base", "price_per_cv", "body", "rated_life_h"}
     )
+    rated_life_h = e.number("rated_life_h")  # hours at temp_max_c
     _, tol = e.tolerance("tolerance")
     title, mount = e.text("title"), e.text("mount")
     code = _code_prefix(e, fam.kind)
@@ -444,6 +445,7 @@ def _expand_electrolytic(ctx: Context, fam: Family) -> list[dict]:
                     rated_voltage_v=float(v),
                     ripple_a=round(k_ripple * math.sqrt(cv), 4),
                     temp_max_c=e.number("temp_max_c"),
+                    rated_life_h=rated_life_h,
                 )
             )
     return rows

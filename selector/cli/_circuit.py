@@ -109,7 +109,12 @@ CapOpt = Annotated[
 ]
 CapTolOpt = Annotated[str, typer.Option("--cap-tol", help="X capacitor tolerance, % or K/M.")]
 CapLossOpt = Annotated[
-    str, typer.Option("--cap-loss", help="X capacitor end-of-life capacitance loss, %.")
+    str | None,
+    typer.Option(
+        "--cap-loss",
+        help="X capacitor end-of-life capacitance loss, %; default: from its humidity grade "
+        "at --life, --humidity and --ambient (Peck's model), and 10 % in the worst case.",
+    ),
 ]
 SeriesROpt = Annotated[str, typer.Option("--series-r", help="Series resistance, ohm (470).")]
 RTolOpt = Annotated[str, typer.Option("--r-tol", help="Resistor tolerance, % (series + bleeder).")]
@@ -323,12 +328,13 @@ def _ordinal(n: int) -> str:
 
 
 def tolerances_from_options(
-    cap_tol: str = "10", cap_loss: str = "10", r_tol: str = "5", zener_tol: str = "5"
+    cap_tol: str = "10", cap_loss: str | None = None, r_tol: str = "5", zener_tol: str = "5"
 ) -> Tolerances:
-    """Tolerances from the option texts (percent or IEC 60062 letters)."""
+    """Tolerances from the option texts (percent or IEC 60062 letters); ``cap_loss`` None is
+    the IEC 60384-14 endurance limit, 10 % [S], in the worst-case analysis."""
     return Tolerances(
         cap_tol=_pct(cap_tol, "--cap-tol"),
-        cap_loss=_pct(cap_loss, "--cap-loss"),
+        cap_loss=_pct(cap_loss, "--cap-loss") if cap_loss is not None else 0.10,
         r_tol=_pct(r_tol, "--r-tol"),
         zener_tol=_pct(zener_tol, "--zener-tol"),
     )
@@ -342,6 +348,7 @@ def conditions_from_options(
     life: str = "10y",
     humidity: str = "60",
     switch_ons: str = "30k",
+    cap_loss: str | None = None,
 ) -> Conditions:
     """Ambient, discharge profile, surge level, highest bus voltage and the life and duty
     (target life, humidity in use, switch-ons) from the option texts."""
@@ -358,6 +365,7 @@ def conditions_from_options(
         life_s=_read(parse_duration, life, "--life"),
         humidity=_read(parse_percent, humidity, "--humidity"),
         switch_ons=_read(parse_count, switch_ons, "--switch-ons"),
+        end_of_life_loss=_pct(cap_loss, "--cap-loss") if cap_loss is not None else None,
     )
 
 

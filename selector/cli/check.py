@@ -27,7 +27,9 @@ from ._circuit import (
     DropoutOpt,
     FreqOpt,
     HarmonicsOpt,
+    HumidityOpt,
     JsonOpt,
+    LifeOpt,
     LoadOpt,
     LoadROpt,
     MainsOpt,
@@ -42,6 +44,7 @@ from ._circuit import (
     SeriesROpt,
     StandbyLimitOpt,
     SurgeOpt,
+    SwitchOnsOpt,
     TopologyOpt,
     VoutMaxOpt,
     ZenerOpt,
@@ -50,6 +53,7 @@ from ._circuit import (
     circuit_from_options,
     conditions_from_options,
     describe_corner,
+    describe_life,
     describe_mains,
     load_from_options,
     mains_from_options,
@@ -70,7 +74,7 @@ def check(
     freq: FreqOpt = "50",
     harmonics: HarmonicsOpt = None,
     cap_tol: CapTolOpt = "10",
-    cap_loss: CapLossOpt = "10",
+    cap_loss: CapLossOpt = None,
     series_r: SeriesROpt = "470",
     r_tol: RTolOpt = "5",
     bleeder: BleederOpt = "1M",
@@ -90,6 +94,9 @@ def check(
     diode_drop: DiodeDropOpt = "0.8",
     diode_r: DiodeROpt = "0.1",
     ambient: AmbientOpt = "40",
+    life: LifeOpt = "10y",
+    humidity: HumidityOpt = "60",
+    switch_ons: SwitchOnsOpt = "30k",
     profile: ProfileOpt = "iec60335",
     surge: SurgeOpt = "1k",
     vout_max: VoutMaxOpt = None,
@@ -125,7 +132,9 @@ def check(
 
     supply = mains_from_options(mains, mains_tol, freq, harmonics)
     tolerances = tolerances_from_options(cap_tol, cap_loss, r_tol, zener_tol)
-    conditions = conditions_from_options(ambient, profile, surge, vout_max)
+    conditions = conditions_from_options(
+        ambient, profile, surge, vout_max, life, humidity, switch_ons, cap_loss
+    )
     result = analyse(circuit, supply, tolerances, conditions)
     from ..policy import Policy
     from ..rules import standby_record
@@ -133,11 +142,24 @@ def check(
     pol, limit_source = standby_policy(Policy(), standby_limit, product_class)
     standby = standby_record(result.worst_case.no_load_real_power_w, pol, limit_source)
     ok = bool(result.ok and standby["ok"])
+    from ..rules import stresses_from_analysis
+    from ..rules.life import life_context, life_record
+
+    life_stresses, _ = stresses_from_analysis(
+        result,
+        {
+            "ambient_c": conditions.ambient_c,
+            "mains_max_v": supply.high_v,
+            **life_context(conditions, tolerances.cap_loss),
+        },
+    )
+    life_doc = life_record(life_stresses)
     doc = {
         "topology": result.topology,
         "ambient_c": result.ambient_c,
         "ok": ok,
         "standby": standby,
+        "life": life_doc,
         "mains": mains_record(supply),
         # the highest bus voltage the load tolerates (--vout-max; default 1.3 x bus, [P])
         "vout_max_v": conditions.vout_max(circuit),
@@ -162,6 +184,10 @@ def check(
         print_json(doc)
     else:
         typer.echo(render_table(result, conditions.vout_max(circuit)))
+        from .design import life_text
+
+        typer.echo(describe_life(conditions))
+        typer.echo("Life figures: " + life_text(life_doc))
         typer.echo(
             f"No-load power {format_value(standby['no_load_real_power_w'], 'W')}: "
             + ("" if standby["ok"] else "NOT ACCEPTED, ")

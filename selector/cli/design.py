@@ -21,7 +21,9 @@ from ._circuit import (
     DropoutOpt,
     FreqOpt,
     HarmonicsOpt,
+    HumidityOpt,
     JsonOpt,
+    LifeOpt,
     LoadOpt,
     MainsOpt,
     MainsTolOpt,
@@ -31,11 +33,14 @@ from ._circuit import (
     RegulatorOpt,
     StandbyLimitOpt,
     SurgeOpt,
+    SwitchOnsOpt,
     ZenerOpt,
     conditions_from_options,
+    describe_life,
     describe_mains,
     mains_from_options,
     standby_policy,
+    tolerances_from_options,
 )
 from .parts import _Bar
 
@@ -77,8 +82,11 @@ def design(
     mains_tol: MainsTolOpt = "10",
     freq: FreqOpt = "50",
     harmonics: HarmonicsOpt = None,
-    cap_loss: CapLossOpt = "10",
+    cap_loss: CapLossOpt = None,
     ambient: AmbientOpt = "40",
+    life: LifeOpt = "10y",
+    humidity: HumidityOpt = "60",
+    switch_ons: SwitchOnsOpt = "30k",
     profile: ProfileOpt = "iec60335",
     surge: SurgeOpt = "1k",
     zener: ZenerOpt = None,  # type: ignore[assignment]
@@ -150,8 +158,10 @@ def design(
         load_a=parse_value(load, "A"),
         vout_v=vout_v,
         mains=mains_from_options(mains, mains_tol, freq, harmonics),
-        conditions=conditions_from_options(ambient, profile, surge),
-        cap_loss=parse_value(cap_loss.rstrip("%").strip(), None) / 100.0,
+        conditions=conditions_from_options(
+            ambient, profile, surge, None, life, humidity, switch_ons, cap_loss
+        ),
+        cap_loss=tolerances_from_options(cap_loss=cap_loss).cap_loss,
         topology=top_name,
         zener_v=parse_value(zener, "V") if zener else None,
         regulator=reg_v is not None,
@@ -193,6 +203,10 @@ def design(
             "surge_v": req.conditions.surge_v,
             "ambient_c": req.conditions.ambient_c,
             "profile": req.conditions.profile,
+            "target_life_h": req.conditions.life_h,
+            "humidity_fraction": req.conditions.humidity,
+            "switch_ons": req.conditions.switch_ons,
+            "cap_loss_override": req.conditions.end_of_life_loss,
         },
         "mains": mains_record(req.mains),
         "policy": pol.to_dict(),
@@ -210,6 +224,7 @@ def design(
     if json:
         print_json(doc)
         return
+    typer.echo(describe_life(req.conditions))
     if req.mains.harmonics:
         typer.echo(describe_mains(doc["mains"]))
     for d in designs:
@@ -314,6 +329,8 @@ def _echo_design(d: Any, n: int, req: Any) -> None:
             ("no-load real power", w.no_load_real_power_w, "W", w.no_load_real_power_corner),
         ):
             typer.echo(f"    {label:<20} {format_value(val, unit):>10}   {describe_corner(corner)}")
+    if d.life:
+        typer.echo("  life: " + life_text(d.life))
     if d.search:
         sr = d.search
         typer.echo(
@@ -345,7 +362,26 @@ def _echo_design(d: Any, n: int, req: Any) -> None:
     typer.echo("")
 
 
+def life_text(life: dict) -> str:
+    """The life section in one line (design and check text)."""
+    out = [f"target {life['target_life_h']:.0f} h"]
+    if life.get("reservoir_life_h") is not None:
+        out.append(
+            f"reservoir {life['reservoir_life_h']:.0f} h at a core of "
+            f"{life['reservoir_core_temp_c']:.1f} C"
+        )
+    if life.get("x_cap_loss_fraction") is not None:
+        out.append(f"X capacitor loss {life['x_cap_loss_fraction'] * 100:.1f} %")
+    if life.get("end_of_life_min_dc_current_a") is not None:
+        out.append("min DC current then " + format_value(life["end_of_life_min_dc_current_a"], "A"))
+    out.append(f"{life['switch_ons']:.0f} switch-ons")
+    notes = [n for n in life.get("notes", []) if n]
+    return ", ".join(out) + (f" ({'; '.join(notes)})" if notes else "")
+
+
 def _fmt(x: float, unit: str) -> str:
+    if unit == "h":
+        return f"{x:.0f} h"
     if unit in ("V/s",):
         return f"{x / 1e6:.3g} V/us"
     if unit == "C":

@@ -374,6 +374,9 @@ class Conditions:
     humidity: float = 0.6
     #: plug-ins / power-ups over the life (default 30 000) [P]
     switch_ons: float = 30_000.0
+    #: X capacitor loss at the end of the life, fraction (``--cap-loss``); None: from the
+    #: part's humidity grade by Peck's model (selector.engine.life)
+    end_of_life_loss: float | None = None
 
     def __post_init__(self) -> None:
         _need(

@@ -12,6 +12,7 @@ from collections.abc import Mapping, Sequence
 from typing import Any
 
 from ..policy import COMMON_STANDBY_LIMIT_W, Policy
+from .life import EOL_LOSS_KEY, EOL_NOTE_KEY, end_of_life_loss
 from .parts import Finding, RatedPart, is_iec60384_14_class
 from .stresses import stresses_from_analysis
 from .table import RULES, X_CAP_IEC60384_14_KEY, Rule
@@ -54,6 +55,10 @@ def evaluate(
         stress_values[X_CAP_IEC60384_14_KEY] = bool(group) and all(
             is_iec60384_14_class(p.safety_class) for p in group
         )
+        needed = ("target_life_h", "ambient_c", "humidity", "mains_max_v")
+        if group and EOL_LOSS_KEY not in stress_values and all(k in stress_values for k in needed):
+            loss, note = end_of_life_loss(group, stress_values)
+            stress_values[EOL_LOSS_KEY], stress_values[EOL_NOTE_KEY] = loss, note
     findings: list[Finding] = []
     for rule in RULES:
         if rule.role == "whole":
@@ -123,6 +128,8 @@ def _finding(
         note = "exempt under the profile"
     if rule.id == "x_cap.safety_class" and part is not None:
         note = f"class {part.safety_class}" + ("" if ok else " is not an X subclass")
+    if rule.id == "whole.end_of_life_current":
+        note = f"loss {float(stresses[EOL_LOSS_KEY]):.1%} ({stresses.get(EOL_NOTE_KEY, '')})"
     waiver = rule.waiver(stresses) if (not ok and rule.waiver is not None) else None
     if waiver:
         return Finding(

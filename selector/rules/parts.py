@@ -71,6 +71,10 @@ class RatedPart:
     temp_max_c: float | None = None
     i2t_a2s: float | None = None
     fusible: bool | None = None
+    #: electrolytic: rated life [h] at its rated temperature ``temp_max_c``
+    rated_life_h: float | None = None
+    #: X capacitor: humidity robustness grade of IEC 60384-14 Amd 1 (I, II, III)
+    humidity_grade: str | None = None
     #: Zener non-repetitive pulse power [W] at ``zener_pulse_width_s`` [s] (optional: read
     #: when a catalogue row or BOM has it; else the generic figure ``ZENER_GENERIC_PULSE``)
     zener_pulse_power_w: float | None = None
@@ -172,7 +176,7 @@ def rated_part_from_row(
             value = _clean(row[name])
             if name == "fusible" and value is not None:
                 value = bool(value)
-            elif name == "safety_class" and value is not None:
+            elif name in ("safety_class", "humidity_grade") and value is not None:
                 value = str(value)
             elif value is not None:
                 value = float(value)

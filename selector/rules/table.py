@@ -21,6 +21,11 @@ from .fuse import (
     surge_i2t_vs_melting_i2t,
     switch_on_i2t_vs_melting_i2t,
 )
+from .life import (
+    end_of_life_known,
+    load_vs_end_of_life_current,
+    reservoir_target_vs_estimated_life,
+)
 from .limits import margin
 from .parts import ROLES, RatedPart
 from .reservoir import (
@@ -312,6 +317,16 @@ RULES: Final[tuple[Rule, ...]] = (
          "V", output_ripple_vs_bus_fraction,
          ratings=("value",), stress_keys=("max_output_ripple_v", "zener_voltage_v"),
          corner_key="max_output_ripple_v"),
+    Rule("reservoir.life", "reservoir",
+         "target life <= estimated life at the core temperature (ambient + ripple "
+         "self-heating, 5 K at the rated ripple [M]) by the 10-degree rule, at most 15 x the "
+         "rated life [M]",
+         "[P] 10-degree rule (Arrhenius); extrapolation cap and rated-ripple rise [M] from "
+         "memory",
+         "h", reservoir_target_vs_estimated_life,
+         ratings=("rated_life_h", "temp_max_c", "ripple_a"),
+         stress_keys=("target_life_h", "ambient_c", "max_reservoir_ripple_current_a"),
+         corner_key="max_reservoir_ripple_current_a"),
     Rule("reservoir.temperature", "reservoir",
          "temperature class >= max ambient + policy margin",
          SOURCE_P,
@@ -352,6 +367,15 @@ RULES: Final[tuple[Rule, ...]] = (
          "A", load_vs_min_dc_current,
          stress_keys=("load_a", "min_dc_current_a"),
          corner_key="min_dc_current_a"),
+    Rule("whole.end_of_life_current", "whole",
+         "worst-case minimum DC current after the X capacitor's capacitance loss at the end "
+         "of the target life >= load x (1 + policy margin)",
+         "[P]; loss from the humidity grade's test (IEC 60384-14 Amd 1 [S]) by Peck's model "
+         "(IEEE IRPS 1986 [S]; n = 3, Ea = 0.8 eV [M]), or --cap-loss",
+         "A", load_vs_end_of_life_current,
+         stress_keys=("load_a", "min_dc_current_a", "x_cap_end_of_life_loss",
+                      "cap_loss_in_analysis"),
+         corner_key="min_dc_current_a", applies=end_of_life_known),
     Rule("whole.standby_power", "whole",
          "no-load real power <= standby limit (only when one is set: --standby-limit or "
          "--product-class)",
