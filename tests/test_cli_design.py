@@ -217,3 +217,31 @@ def test_harmonics_reach_the_exact_verification(catalogue_url):
     assert doc["mains"]["thd"] == pytest.approx(0.0927, abs=1e-4)
     w = doc["designs"][0]["worst_case"]
     assert w["max_line_current_rms_corner"]["thd"] == pytest.approx(doc["mains"]["thd"])
+
+
+def test_a_reservoir_that_cannot_last_the_life_is_refused_by_its_rule():
+    # 10-degree rule with the 15 x cap [M]: without the long-life family no electrolytic (85 C
+    # or 105 C at 2000 h, at most 30000 h) lasts 10 years at 40 C; the refusal names the rule
+    result = runner.invoke(
+        app, ["design", "--load", "10m", "--vout", "5.1", "--exclude", "alu-105c-long"]
+    )
+    assert result.exit_code == 1
+    assert "blocked by rule reservoir.life" in result.stderr
+    # a 25000 h life is within 15 x 2000 h: designed
+    result = runner.invoke(
+        app,
+        ["design", "--load", "10m", "--vout", "5.1", "--exclude", "alu-105c-long", "--life",
+         "25kh", "--json"],
+    )  # fmt: skip
+    assert result.exit_code == 0, result.stderr
+    d = json.loads(result.stdout)["designs"][0]
+    life = d["life"]
+    assert life["target_life_h"] == 25000.0 and life["switch_ons"] == 30000.0
+    assert life["reservoir_life_h"] >= 25000.0
+    assert life["end_of_life_min_dc_current_a"] >= 0.010 * 1.1
+    assert 0 <= life["x_cap_loss_fraction"] < 1
+    assert life["reservoir_core_temp_c"] >= 40.0
+    res = next(p for p in d["parts"] if p["role"] == "reservoir")
+    assert res["rated_life_h"] == 2000.0
+    x = next(p for p in d["parts"] if p["role"] == "x_capacitor")
+    assert x["humidity_grade"] in ("I", "II", "III")

@@ -18,6 +18,7 @@ import numpy as np
 import pandas as pd
 
 from selector import rules as R
+from selector.rules.life import life_context
 from selector.design import Requirement, objective_key
 
 SQ2 = math.sqrt(2.0)
@@ -439,6 +440,8 @@ def brute_force(df: pd.DataFrame, req: Requirement, policy, analyse=standin_anal
         "ambient_c": req.conditions.ambient_c,
         "surge_level_v": req.conditions.surge_v,
         "load_a": req.load_a,
+        # target life, humidity, switch-ons for the life rules (as the solver's context)
+        **life_context(req.conditions, req.cap_loss),
     }
     cache = {}
     for top in tops:
