@@ -18,8 +18,8 @@ import numpy as np
 import pandas as pd
 
 from selector import rules as R
-from selector.rules.life import life_context
 from selector.design import Requirement, objective_key
+from selector.rules.life import life_context
 
 SQ2 = math.sqrt(2.0)
 NOTE = "demo price model, invented"
