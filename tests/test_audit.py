@@ -268,7 +268,7 @@ def test_json_document_shape(catalogue):
 )
 def test_x_capacitor_class_from_text(catalogue, tmp_path, description, severity):
     text = (DATA / "audit_vent_sound.csv").read_text(encoding="utf-8")
-    old = '"Capacitor X2, metallized polypropylene, 305VAC, 10%"'
+    old = '"Capacitor X2, metallized polypropylene, 305VAC, 10%, humidity grade IIIB"'
     assert old in text
     p = tmp_path / "bom.csv"
     p.write_text(text.replace(old, f'"{description}"'), encoding="utf-8")

@@ -224,6 +224,8 @@ def _expand_film(ctx: Context, fam: Family) -> list[dict]:
                 if sub is not None:
                     row["safety_class"] = sub.name
                     row["humidity_grade"] = e.text("humidity_grade")
+                    # in the text too, so that a BOM made from it audits with its grade
+                    row["description"] += f", humidity grade {row['humidity_grade']}"
                     row["impulse_v"] = sub.service_impulse_max_v
                     if sub.impulse_test_v is not None:
                         row["impulse_test_v"] = round(
@@ -435,7 +437,10 @@ def _expand_electrolytic(ctx: Context, fam: Family) -> list[dict]:
                     code=_code(
                         e, code, unit_tag(float(v), "v"), iec60062_code(c, "F"), tolerance_tag(tol)
                     ),
-                    description=f"{title}, {format_value(c, 'F')} {v:g} V, {d:g}x{length:g} mm",
+                    description=(
+                        f"{title}, {format_value(c, 'F')} {v:g} V, {d:g}x{length:g} mm, "
+                        f"{rated_life_h:g}h"
+                    ),
                     value=c,
                     tolerance=tol,
                     package=f"radial {d:g}x{length:g}",
