@@ -22,6 +22,7 @@ from selector import rules as R
 from selector.engine.circuit import Conditions, Mains
 from selector.errors import BadValueError, InfeasibleError
 from selector.policy import Policy
+from selector.rules.life import life_context
 
 CAT = small_catalogue()
 
@@ -103,6 +104,8 @@ def _recheck(d: D.Design, req: D.Requirement) -> list[R.Finding]:
             "series_resistance_ohm": d.effective["series_resistance_ohm"] * 1.05,
             "zener_voltage_v": d.effective["zener_voltage_v"],
             "reservoir_min_f": d.effective["reservoir_f"] * 0.8,
+            # target life, humidity, switch-ons and the loss in the analysis (life rules)
+            **life_context(req.conditions, req.cap_loss),
         },
     )
 
