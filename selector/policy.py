@@ -23,7 +23,15 @@ from typing import Any, Final
 
 from .errors import BadValueError
 
-__all__ = ["POLICY_NOTES", "Policy", "load_policy"]
+__all__ = [
+    "COMMON_STANDBY_LIMIT_W",
+    "POLICY_NOTES",
+    "PRODUCT_CLASSES",
+    "Policy",
+    "load_policy",
+    "product_class_limit",
+    "standby_bound_w",
+]
 
 
 @dataclass(frozen=True)
@@ -69,15 +77,57 @@ class Policy:
     fusible_fault_factor: float = 10.0
     #: whole: worst-case minimum DC current >= load x (1 + this) [P]
     load_margin: float = 0.1
-    #: whole: no-load real power <= this [W]; EU Regulation 2023/826, off/standby 0.5 W [S]
-    standby_limit_w: float = 0.5
+    #: whole: no-load real power <= this [W], or None: no limit (the default; a product with a
+    #: standby mode in the scope of EU Regulation 2023/826 sets 0.5 W [S], see PRODUCT_CLASSES)
+    standby_limit_w: float | None = None
     #: whole: bus droop allowed during a load burst, fraction of the Zener voltage [P]
     burst_droop_fraction: float = 0.1
     #: reservoir: steady output ripple (peak to peak, worst corner) <= Zener voltage x this [P]
     output_ripple_fraction: float = 0.1
 
-    def to_dict(self) -> dict[str, float]:
+    def to_dict(self) -> dict[str, float | None]:
         return dataclasses.asdict(self)
+
+
+#: the common off/standby limit, EU Regulation 2023/826 (from 2025) [S]; shown next to the
+#: no-load power when no limit is set
+COMMON_STANDBY_LIMIT_W: Final[float] = 0.5
+
+#: product classes (``--product-class``): name -> (no-load power limit [W] or None, source).
+#: The regulation covers products with an off or standby mode; an always-on sensor or controller
+#: has none. DOMAIN.md section 10.
+PRODUCT_CLASSES: Final[dict[str, tuple[float | None, str]]] = {
+    "always-on": (None, "no off/standby mode: no standby limit applies [P]"),
+    "standby": (0.5, "EU Regulation 2023/826, off/standby mode 0.5 W (from 2025) [S]"),
+    "off-mode-2027": (0.3, "EU Regulation 2023/826, off mode 0.3 W (from 2027) [S]"),
+    "standby-display": (
+        0.8,
+        "EU Regulation 2023/826, standby with information or status display ~0.8 W "
+        "[M] from memory, not checked against the regulation's text",
+    ),
+    "network-standby": (
+        2.0,
+        "EU Regulation 2023/826, networked standby ~2 W [M] from memory, not checked "
+        "against the regulation's text",
+    ),
+}
+
+
+def product_class_limit(name: str) -> tuple[float | None, str]:
+    """(limit [W] or None, source) of a product class; an unknown name raises BadValueError
+    listing the valid ones. Example: 'standby' -> (0.5, 'EU Regulation 2023/826 ...')."""
+    key = name.strip().lower().replace("_", "-").replace(" ", "-")
+    if key not in PRODUCT_CLASSES:
+        raise BadValueError(
+            f"--product-class: unknown {name!r}; one of {', '.join(PRODUCT_CLASSES)}"
+        )
+    return PRODUCT_CLASSES[key]
+
+
+def standby_bound_w(policy: Policy) -> float:
+    """The no-load power limit as a bound for the screens [W]: +inf when none is set (so a
+    bound computed against it stays a lower bound: nothing is pruned for standby)."""
+    return math.inf if policy.standby_limit_w is None else float(policy.standby_limit_w)
 
 
 #: which keys are fractions that must lie in (0, 1] (the rest only need to be > 0 / >= 0)
@@ -104,7 +154,8 @@ _MAY_BE_ZERO: Final[frozenset[str]] = frozenset({"load_margin", "reservoir_temp_
 
 #: one line per key: where the default comes from (shown by `--policy` errors and the JSON)
 POLICY_NOTES: Final[dict[str, str]] = {
-    "standby_limit_w": "EU Regulation 2023/826, off/standby mode 0.5 W [S]",
+    "standby_limit_w": "none by default; EU Regulation 2023/826, off/standby mode 0.5 W [S] "
+    "for products with a standby mode (--standby-limit, --product-class)",
     "pulse_voltage_factor": "IEC 60115-1 short-time overload, 2 x limiting voltage [M]",
 }
 

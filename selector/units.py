@@ -39,7 +39,11 @@ __all__ = [
     "UNITS",
     "format_percent",
     "format_value",
+    "format_duration",
     "iec60062_code",
+    "parse_count",
+    "parse_duration",
+    "parse_percent",
     "parse_tolerance",
     "parse_value",
 ]
@@ -246,6 +250,92 @@ def _tolerance_in_range(percent: float, raw: object) -> float:
             "below 100 % (at 100 % the part may be absent)"
         )
     return check_range(percent / 100.0, "tolerance", "a tolerance")
+
+
+#: seconds per duration unit of ``parse_duration``; a year is 8760 h (365 days of continuous
+#: operation, so 10 y = 87600 h as product lives are usually stated) [P]
+DURATION_UNITS: Final[dict[str, float]] = {
+    "s": 1.0,
+    "min": 60.0,
+    "h": 3600.0,
+    "d": 86400.0,
+    "y": 8760.0 * 3600.0,
+}
+_DURATION_RE = re.compile(rf"^(?P<num>{_NUMBER})\s*(?P<prefix>k)?\s*(?P<unit>[a-z]*)$")
+_DURATION_SPELLINGS: Final[dict[str, str]] = {
+    "s": "s", "sec": "s", "min": "min", "h": "h", "hr": "h", "hrs": "h", "hour": "h",
+    "hours": "h", "d": "d", "day": "d", "days": "d", "y": "y", "yr": "y", "yrs": "y",
+    "year": "y", "years": "y", "a": "y",
+}  # fmt: skip
+
+
+def parse_duration(text: str | float, default_unit: str = "h") -> float:
+    """Read a duration (a product life) into seconds: a number with h, d, y (8760 h), min or
+    s, optionally with a k prefix; a bare number is in ``default_unit``.
+
+    >>> parse_duration("87600h") == parse_duration("10y") == 87600 * 3600.0
+    True
+    >>> parse_duration("50kh")
+    180000000.0
+    """
+    if isinstance(text, (int, float)) and not isinstance(text, bool):
+        value, unit, kilo = float(text), default_unit, False
+    else:
+        m = _DURATION_RE.match(str(text).strip().lower().replace(" ", ""))
+        if not m:
+            raise BadValueError(
+                f"cannot read {text!r} as a duration; write it like '87600h', '10y', '50kh'"
+            )
+        value, kilo = float(m["num"]), bool(m["prefix"])
+        unit = _DURATION_SPELLINGS.get(m["unit"] or default_unit, "")
+        if not unit:
+            raise BadValueError(
+                f"cannot read the unit of {text!r}; one of h, d, y (8760 h), min, s"
+            )
+    seconds = value * (1e3 if kilo else 1.0) * DURATION_UNITS[unit]
+    if not (math.isfinite(seconds) and seconds > 0):
+        raise BadValueError(f"a duration must be > 0, got {text!r}")
+    return seconds
+
+
+def format_duration(seconds: float) -> str:
+    """A life in hours and years: ``format_duration(87600 * 3600.0)`` -> '87600 h (10 y)'."""
+    hours = seconds / 3600.0
+    if math.isinf(hours):
+        return "unlimited"
+    return f"{hours:.0f} h ({hours / 8760.0:.3g} y)"
+
+
+def parse_count(text: str | float, what: str = "count") -> float:
+    """A count with an optional k or M (mega) prefix: '30k' -> 30000.0, '1e5' -> 100000.0;
+    it must be >= 0."""
+    if isinstance(text, (int, float)) and not isinstance(text, bool):
+        value = float(text)
+    else:
+        t = str(text).strip().replace(" ", "").replace("_", "")
+        mult = 1.0
+        if t[-1:] in ("k", "K"):
+            mult, t = 1e3, t[:-1]
+        elif t[-1:] == "M":
+            mult, t = 1e6, t[:-1]
+        try:
+            value = float(t) * mult
+        except ValueError:
+            raise BadValueError(f"cannot read {text!r} as a {what}; write it like '30k'") from None
+    if not (math.isfinite(value) and value >= 0):
+        raise BadValueError(f"a {what} must be >= 0, got {text!r}")
+    return value
+
+
+def parse_percent(text: str | float, what: str = "percentage") -> float:
+    """A percentage as a fraction in [0, 1]: '60' -> 0.6, '85 %' -> 0.85."""
+    try:
+        value = float(str(text).strip().replace(" ", "").removesuffix("%")) / 100.0
+    except ValueError:
+        raise BadValueError(f"cannot read {text!r} as a {what}; write it like '60'") from None
+    if not 0.0 <= value <= 1.0:
+        raise BadValueError(f"a {what} must lie in 0..100 %, got {text!r}")
+    return value
 
 
 _ENG_PREFIX = {-12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T"}

@@ -170,17 +170,39 @@ def test_help_text():
         assert opt in r.stdout
 
 
-def test_standby_limit_blocks_a_12v_20ma_supply():
-    # EU Regulation 2023/826: off/standby <= 0.5 W [S]. At no load a 12 V dropper sized for
-    # 20 mA (+10 % margin, low corner) dumps about 12.6 V x 40 mA ~ 0.5 W in the Zener at the
-    # high corner, plus the series resistor and bleeder, so no set passes: the error must name
-    # the whole-supply rule, not a part.
+@pytest.mark.parametrize("limit", [["--standby-limit", "0.5"], ["--product-class", "standby"]])
+def test_standby_limit_blocks_a_12v_20ma_supply(limit):
+    # EU Regulation 2023/826: off/standby <= 0.5 W [S], for a product with a standby mode. At
+    # no load a 12 V dropper sized for 20 mA (+10 % margin, low corner) dumps about 12.6 V x
+    # 40 mA ~ 0.5 W in the Zener at the high corner, plus the series resistor and bleeder, so
+    # no set passes: the error must name the whole-supply rule, not a part.
     result = runner.invoke(
-        app, ["design", "--load", "20m", "--vout", "12", "--mains", "230", "--freq", "50"]
+        app, ["design", "--load", "20m", "--vout", "12", "--mains", "230", "--freq", "50", *limit]
     )
     assert result.exit_code == 1
     assert "blocked by rule whole.standby_power" in result.stderr
     assert "relax:" in result.stderr
+
+
+def test_without_a_standby_limit_the_same_supply_is_designed():
+    # the scope of the limit (DOMAIN.md section 10): with no product class the no-load power is
+    # computed and shown next to the common 0.5 W limit (EU 2023/826), not judged
+    result = runner.invoke(
+        app, ["design", "--load", "20m", "--vout", "12", "--mains", "230", "--freq", "50"]
+    )
+    assert result.exit_code == 0, result.stderr
+    line = next(x for x in result.stdout.splitlines() if "whole.standby_power" in x)
+    assert line.split()[0] == "pass" and "above the common 0.5 W limit" in line
+    doc = json.loads(
+        runner.invoke(
+            app,
+            ["design", "--load", "20m", "--vout", "12", "--mains", "120", "--freq", "60",
+             "--json"],
+        ).stdout
+    )  # fmt: skip
+    assert doc["designs"] and doc["policy"]["standby_limit_w"] is None
+    d = doc["designs"][0]
+    assert d["worst_case"]["no_load_real_power_w"] > 0.5
 
 
 def test_harmonics_reach_the_exact_verification(catalogue_url):
@@ -195,3 +217,31 @@ def test_harmonics_reach_the_exact_verification(catalogue_url):
     assert doc["mains"]["thd"] == pytest.approx(0.0927, abs=1e-4)
     w = doc["designs"][0]["worst_case"]
     assert w["max_line_current_rms_corner"]["thd"] == pytest.approx(doc["mains"]["thd"])
+
+
+def test_a_reservoir_that_cannot_last_the_life_is_refused_by_its_rule():
+    # 10-degree rule with the 15 x cap [M]: without the long-life family no electrolytic (85 C
+    # or 105 C at 2000 h, at most 30000 h) lasts 10 years at 40 C; the refusal names the rule
+    result = runner.invoke(
+        app, ["design", "--load", "10m", "--vout", "5.1", "--exclude", "alu-105c-long"]
+    )
+    assert result.exit_code == 1
+    assert "blocked by rule reservoir.life" in result.stderr
+    # a 25000 h life is within 15 x 2000 h: designed
+    result = runner.invoke(
+        app,
+        ["design", "--load", "10m", "--vout", "5.1", "--exclude", "alu-105c-long", "--life",
+         "25kh", "--json"],
+    )  # fmt: skip
+    assert result.exit_code == 0, result.stderr
+    d = json.loads(result.stdout)["designs"][0]
+    life = d["life"]
+    assert life["target_life_h"] == 25000.0 and life["switch_ons"] == 30000.0
+    assert life["reservoir_life_h"] >= 25000.0
+    assert life["end_of_life_min_dc_current_a"] >= 0.010 * 1.1
+    assert 0 <= life["x_cap_loss_fraction"] < 1
+    assert life["reservoir_core_temp_c"] >= 40.0
+    res = next(p for p in d["parts"] if p["role"] == "reservoir")
+    assert res["rated_life_h"] == 2000.0
+    x = next(p for p in d["parts"] if p["role"] == "x_capacitor")
+    assert x["humidity_grade"] in ("I", "II", "III")

@@ -22,6 +22,7 @@ from selector import rules as R
 from selector.engine.circuit import Conditions, Mains
 from selector.errors import BadValueError, InfeasibleError
 from selector.policy import Policy
+from selector.rules.life import life_context
 
 CAT = small_catalogue()
 
@@ -103,6 +104,8 @@ def _recheck(d: D.Design, req: D.Requirement) -> list[R.Finding]:
             "series_resistance_ohm": d.effective["series_resistance_ohm"] * 1.05,
             "zener_voltage_v": d.effective["zener_voltage_v"],
             "reservoir_min_f": d.effective["reservoir_f"] * 0.8,
+            # target life, humidity, switch-ons and the loss in the analysis (life rules)
+            **life_context(req.conditions, req.cap_loss),
         },
     )
 
@@ -133,7 +136,10 @@ def test_every_design_passes_every_rule(load, vout, freqs, surge, top, n):
     keys = [design_key(d) for d in designs]
     assert keys == sorted(keys) and len(designs) <= n
     for d in designs:
-        assert d.checks and all(f.severity == "pass" for f in d.checks)
+        # every rule passes; a warning only where a rule's waiver applies (the fuse against a
+        # shorted IEC 60384-14 X capacitor)
+        assert d.checks and not R.blocking(d.checks)
+        assert all(f.severity == "pass" or f.waived for f in d.checks)
         assert {f.part for f in d.checks} >= {
             "x_capacitor",
             "series_resistor",
@@ -145,7 +151,7 @@ def test_every_design_passes_every_rule(load, vout, freqs, surge, top, n):
             "whole",
         }
         again = _recheck(d, req)
-        assert all(f.severity == "pass" for f in again), [f for f in again if not f.ok]
+        assert not R.blocking(again), [f for f in again if not f.ok]
 
 
 def test_top_three_are_distinct_and_ranked():

@@ -19,6 +19,7 @@ import pandas as pd
 
 from selector import rules as R
 from selector.design import Requirement, objective_key
+from selector.rules.life import life_context
 
 SQ2 = math.sqrt(2.0)
 NOTE = "demo price model, invented"
@@ -48,9 +49,52 @@ def small_catalogue() -> pd.DataFrame:
     x = dict(safety_class="X2", rated_voltage_ac_v=275.0, impulse_v=2500.0, tolerance=0.2)
     res = dict(derate_start_c=70.0, derate_end_c=155.0)
     rows = [
-        _part("X-100n", "x_capacitor", "x2", 100e-9, 0.05, 100, dvdt_v_per_s=400e6, **x),
-        _part("X-220n", "x_capacitor", "x2", 220e-9, 0.07, 150, dvdt_v_per_s=250e6, **x),
-        _part("X-470n", "x_capacitor", "x2", 470e-9, 0.11, 270, dvdt_v_per_s=150e6, **x),
+        # humidity grades (IEC 60384-14 Amd 1): grade I does not last a 10-year life in the
+        # end-of-life rule (Peck's model), grades II/III do
+        _part(
+            "X-100n",
+            "x_capacitor",
+            "x2",
+            100e-9,
+            0.05,
+            100,
+            dvdt_v_per_s=400e6,
+            humidity_grade="III",
+            **x,
+        ),
+        _part(
+            "X-220n",
+            "x_capacitor",
+            "x2",
+            220e-9,
+            0.07,
+            150,
+            dvdt_v_per_s=250e6,
+            humidity_grade="II",
+            **x,
+        ),
+        _part(
+            "X-220nI",
+            "x_capacitor",
+            "x2",
+            220e-9,
+            0.06,
+            150,
+            dvdt_v_per_s=250e6,
+            humidity_grade="I",
+            **x,
+        ),
+        _part(
+            "X-470n",
+            "x_capacitor",
+            "x2",
+            470e-9,
+            0.11,
+            270,
+            dvdt_v_per_s=150e6,
+            humidity_grade="III",
+            **x,
+        ),
         _part("F-470n", "film_capacitor", "pet", 470e-9, 0.03, 90, rated_voltage_ac_v=250.0),
         _part(
             "R-47",
@@ -159,7 +203,12 @@ def small_catalogue() -> pd.DataFrame:
                     zz_ohm=5.0,
                 )
             )
-    for c, v, price, area in ((100e-6, 16.0, 0.02, 40), (220e-6, 25.0, 0.03, 60)):
+    # rated lives: 2000 h at 105 C lasts at most 15 x 2000 = 30000 h (cap), short of 10 years
+    for c, v, price, area, life_h in (
+        (100e-6, 16.0, 0.02, 40, 2000.0),
+        (100e-6, 25.0, 0.028, 45, 10000.0),
+        (220e-6, 25.0, 0.03, 60, 10000.0),
+    ):
         rows.append(
             _part(
                 f"E-{c * 1e6:g}u-{v:g}",
@@ -172,6 +221,7 @@ def small_catalogue() -> pd.DataFrame:
                 rated_voltage_v=v,
                 ripple_a=0.2,
                 temp_max_c=105.0,
+                rated_life_h=life_h,
             )
         )
     for i_r, fam, k, price in (
@@ -390,6 +440,8 @@ def brute_force(df: pd.DataFrame, req: Requirement, policy, analyse=standin_anal
         "ambient_c": req.conditions.ambient_c,
         "surge_level_v": req.conditions.surge_v,
         "load_a": req.load_a,
+        # target life, humidity, switch-ons for the life rules (as the solver's context)
+        **life_context(req.conditions, req.cap_loss),
     }
     cache = {}
     for top in tops:
@@ -459,9 +511,8 @@ def brute_force(df: pd.DataFrame, req: Requirement, policy, analyse=standin_anal
                 an = analyse(circ, req.mains, tol, req.conditions)
                 sc = R.stresses_from_analysis(an, ctx)
                 # the 'whole' rules need no part: most combinations stop here
-                whole_ok = all(
-                    f.severity == "pass"
-                    for f in R.evaluate({}, None, policy, stresses=sc[0], corners=sc[1])
+                whole_ok = not R.blocking(
+                    R.evaluate({}, None, policy, stresses=sc[0], corners=sc[1])
                 )
                 cache[ek] = (sc, whole_ok)
             (s_an, c_an), whole_ok = cache[ek]
@@ -476,8 +527,14 @@ def brute_force(df: pd.DataFrame, req: Requirement, policy, analyse=standin_anal
                 "reservoir": _rp(cap, "reservoir", 1, "single"),
             }
             common = R.evaluate(parts, None, policy, stresses=s_an, corners=c_an)
-            if any(f.severity != "pass" for f in common):
+            if R.blocking(common):
                 continue
+            # the fuse rules see whether the X capacitor is of an IEC 60384-14 class (their
+            # waiver), as evaluate() sets it when the X capacitor is among the parts
+            s_fuse = {
+                **s_an,
+                R.X_CAP_IEC60384_14_KEY: all(R.is_iec60384_14_class(x["safety_class"]) for x in xo),
+            }
             fuse_choices = [(f, R.rated_part_from_row(f, "fuse")) for f in fuses]
             fusible = [p for p in _series_list(rs_) if p.fusible]
             if fusible:
@@ -485,8 +542,8 @@ def brute_force(df: pd.DataFrame, req: Requirement, policy, analyse=standin_anal
 
                 fuse_choices.append((None, dataclasses.replace(fusible[0], role="fuse")))
             for frow, fpart in fuse_choices:
-                ff = R.evaluate({"fuse": fpart}, None, policy, stresses=s_an, corners=c_an)
-                if any(f.severity != "pass" for f in ff):
+                ff = R.evaluate({"fuse": fpart}, None, policy, stresses=s_fuse, corners=c_an)
+                if R.blocking(ff):
                     continue
                 allp = base + ([frow] if frow is not None else [])
                 key = int(

@@ -271,11 +271,46 @@ def test_fuse_rules():
     assert "fuse.fusible_opens_on_short" in ids and "fuse.opens_on_short" not in ids
 
 
+@pytest.mark.parametrize(
+    ("safety_class", "severity"), [("X2", "warn"), ("X1", "warn"), ("GP", "fail")]
+)
+def test_fuse_short_exemption_for_iec60384_14_capacitors(safety_class, severity):
+    # IEC 60335-1 19.11.2: no short circuit is applied to a capacitor complying with
+    # IEC 60384-14 [M] from memory; a fuse that cannot clear the short is then a warning
+    # (waived: no reason to refuse a design), for any other capacitor a failure
+    big = R.RatedPart("fuse", value=1.0, i2t_a2s=8.0)  # 207 V / 470 ohm = 0.44 A < 2 A
+    x = R.RatedPart("x_capacitor", value=330e-9, safety_class=safety_class)
+    f = _find(_eval({"fuse": big, "x_capacitor": x}), "fuse.opens_on_short")
+    assert not f.ok and f.severity == severity
+    assert f.waived == (severity == "warn")
+    assert (f in R.blocking([f])) == (severity == "fail")
+    if severity == "warn":
+        assert "IEC 60384-14" in f.note and "[M]" in f.note
+    fr = R.RatedPart("fuse", value=470.0, power_w=10.0, fusible=True)  # 91 W < 100 W
+    f = _find(_eval({"fuse": fr, "x_capacitor": x}), "fuse.fusible_opens_on_short")
+    assert not f.ok and f.severity == severity
+
+
 def test_whole_standby_limit_eu_2023_826():
-    # EU Regulation 2023/826: off/standby <= 0.5 W [S]
-    assert _find(_eval({}, no_load_real_power_w=0.45), "whole.standby_power").ok
-    f = _find(_eval({}, no_load_real_power_w=0.55), "whole.standby_power")
+    # EU Regulation 2023/826: off/standby <= 0.5 W [S], for a product with a standby mode
+    pol = Policy(standby_limit_w=0.5)
+    s = _s(no_load_real_power_w=0.45)
+    assert _find(R.evaluate({}, None, pol, stresses=s), "whole.standby_power").ok
+    f = _find(
+        R.evaluate({}, None, pol, stresses=_s(no_load_real_power_w=0.55)), "whole.standby_power"
+    )
     assert not f.ok and f.limit == 0.5 and "2023/826" in f.source
+
+
+def test_whole_standby_without_a_limit_passes_and_notes_the_common_limit():
+    # no product class, no --standby-limit: the no-load power is shown, not judged; the note
+    # puts it next to the common 0.5 W off/standby limit (EU Regulation 2023/826 [S])
+    f = _find(_eval({}, no_load_real_power_w=0.906), "whole.standby_power")
+    assert f.ok and f.severity == "pass" and f.limit is None and f.margin is None
+    assert f.stress == pytest.approx(0.906)
+    assert "above the common 0.5 W limit" in f.note and "2023/826" in f.note
+    f = _find(_eval({}, no_load_real_power_w=0.3), "whole.standby_power")
+    assert f.ok and "within the common 0.5 W limit" in f.note
 
 
 def test_whole_min_current_with_margin():

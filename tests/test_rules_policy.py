@@ -2,10 +2,12 @@
 
 from __future__ import annotations
 
+import math
+
 import pytest
 
 from selector.errors import BadValueError
-from selector.policy import Policy, load_policy
+from selector.policy import Policy, load_policy, product_class_limit, standby_bound_w
 
 
 def test_defaults_match_domain_section_4():
@@ -14,7 +16,25 @@ def test_defaults_match_domain_section_4():
     assert p.limiting_voltage_fraction == 0.8  # [P]
     assert p.zener_power_fraction == 0.5  # [P]
     assert p.reservoir_voltage_fraction == 0.8  # rated >= Vz_max / 0.8 [P]
-    assert p.standby_limit_w == 0.5  # EU Regulation 2023/826 [S]
+    # no standby limit by default: it applies only to products with a standby mode
+    # (EU Regulation 2023/826, DOMAIN.md section 10)
+    assert p.standby_limit_w is None
+
+
+def test_product_class_presets_domain_section_10():
+    # EU Regulation 2023/826: off/standby 0.5 W (2025), off 0.3 W (2027) [S]; with a display
+    # ~0.8 W and networked standby ~2 W [M] from memory (DOMAIN.md section 10)
+    assert product_class_limit("standby")[0] == 0.5
+    assert product_class_limit("off-mode-2027")[0] == 0.3
+    lim, src = product_class_limit("standby-display")
+    assert lim == 0.8 and "[M]" in src
+    lim, src = product_class_limit("Network_Standby")
+    assert lim == 2.0 and "[M]" in src
+    assert product_class_limit("always-on")[0] is None
+    with pytest.raises(BadValueError, match="one of always-on, standby"):
+        product_class_limit("fridge")
+    assert standby_bound_w(Policy()) == math.inf
+    assert standby_bound_w(Policy(standby_limit_w=0.5)) == 0.5
 
 
 def test_toml_override(tmp_path):

@@ -17,6 +17,7 @@ from dataclasses import dataclass
 from typing import Any, Final
 
 from ..errors import BadRowError, BadValueError, OutOfRangeError
+from ..rules.life import life_context
 from .bom import BomTable
 from .corners import corners_of
 from .fill import fill_from_catalogue
@@ -104,7 +105,11 @@ def audit_board(table: BomTable, role_map: RoleMap, setup: AuditSetup) -> BoardA
         )
         setup.cache[memo_key] = rule_findings
     findings = _audit_findings(board, rule_findings, placeholder_bleeder, "fuse" in by_role)
-    return BoardAudit(board, role_map, circuit, findings, assumed=assumed, notes=notes)
+    from ..rules import stresses_from_analysis
+    from ..rules.life import life_record
+
+    life = life_record(stresses_from_analysis(analysis, context)[0], parts_by_role)
+    return BoardAudit(board, role_map, circuit, findings, assumed=assumed, notes=notes, life=life)
 
 
 def _parts_by_role(role_map: RoleMap, where: str) -> dict[str, list[Assigned]]:
@@ -303,6 +308,7 @@ def _rule_context(
         "mains_min_v": float(setup.mains.low_v),
         "ambient_c": float(setup.conditions.ambient_c),
         "surge_level_v": float(setup.conditions.surge_v),
+        **life_context(setup.conditions, tolerances.cap_loss),
         "load_a": average_a,
         # fault current with a shorted X capacitor: series resistance at its upper tolerance
         "series_resistance_ohm": values.series_resistance_ohm * (1 + tolerances.r_tol),

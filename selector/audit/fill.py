@@ -42,6 +42,7 @@ _FILL_LOW: Final[tuple[str, ...]] = (
     "tj_max_c",
     "ripple_a",
     "temp_max_c",
+    "rated_life_h",
     "i2t_a2s",
     "derate_start_c",
     "derate_end_c",

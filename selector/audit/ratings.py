@@ -81,6 +81,8 @@ class Ratings:
     pulse_energy_j: float | None = None
     dvdt_v_per_s: float | None = None
     ripple_a: float | None = None
+    rated_life_h: float | None = None
+    humidity_grade: str | None = None
     vf_v: float | None = None
     rs_ohm: float | None = None
     zz_ohm: float | None = None
@@ -175,6 +177,10 @@ _I2T_RE = re.compile(
     rf"I2T\s*[=:]?\s*(?P<num>{_NUM})\s*(?:A2S|A²S)?(?![A-Z0-9])|(?P<num2>{_NUM})\s*A(?:2|²)S"
 )
 _TEMP_RE = re.compile(r"(?<![\w.])(?P<num>\d{2,3})\s*(?:°|º|DEG\.?\s*)?C(?![A-Z0-9])")
+_LIFE_RE = re.compile(
+    r"(?<![\w.])(?P<num>\d+(?:\.\d+)?)\s*(?P<k>K)?\s*(?:H|HRS?|HOURS?)(?![A-Z0-9])"
+)
+_GRADE_RE = re.compile(r"(?:HUMIDITY\s+)?GRADE\s+(?P<grade>III|II|I)(?:\s*[AB])?(?![A-Z0-9])")
 _TOL_RE = re.compile(r"(?:±|\+/-)?\s*(?P<num>\d+(?:\.\d+)?)\s*%")
 _ZENER_CODE_RE = re.compile(r"(?<!\d)(?P<a>\d{1,3})V(?P<b>\d)(?!\d)")
 _SPLIT_RE = re.compile(r"[\s,;_]+|(?<!\d)/|/(?!\d)")
@@ -411,6 +417,13 @@ def read_ratings(
         temps = [t for t in temps if 70 <= t <= 200]
         if temps:
             r.temp_max_c = max(temps)
+    if kind == "electrolytic":
+        m = _LIFE_RE.search(up)
+        if m:  # a rated life written on the line: '10000h', '5000 hours', '2k h'
+            r.rated_life_h = float(m.group("num")) * (1e3 if m.group("k") else 1.0)
+    m = _GRADE_RE.search(up)
+    if m and kind not in ("electrolytic", "zener", "diode", "bridge", "fuse", "resistor"):
+        r.humidity_grade = m.group("grade")  # IEC 60384-14 Amd 1 humidity robustness grade
     if kind in ("diode", "bridge"):
         rest = _IFSM_RE.sub(" ", up)
         m = _CURRENT_RE.search(rest)

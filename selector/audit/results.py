@@ -46,6 +46,8 @@ class BoardAudit:
     findings: list[AuditFinding]
     assumed: list[str] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
+    #: the life section (selector.rules.life.life_record)
+    life: dict[str, Any] = field(default_factory=dict)
 
 
 @dataclass
@@ -111,6 +113,7 @@ def audit_result_dict(result: AuditResult) -> dict[str, Any]:
                 "inferred": list(board.roles.notes),
                 "assumed": list(board.assumed),
                 "notes": list(board.notes),
+                "life": board.life,
             }
         )
     findings = [dataclasses.asdict(finding) for finding in _ordered(result.findings)]
@@ -124,6 +127,7 @@ def audit_result_dict(result: AuditResult) -> dict[str, Any]:
         "boards": boards,
         "findings": findings,
         "summary": result.summary,
+        "life": result.boards[0].life if result.boards else None,
         "notes": list(table.notes) + list(result.notes),
         "cautions": list(CAUTIONS),
     }

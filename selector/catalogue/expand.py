@@ -224,6 +224,8 @@ def _expand_film(ctx: Context, fam: Family) -> list[dict]:
                 if sub is not None:
                     row["safety_class"] = sub.name
                     row["humidity_grade"] = e.text("humidity_grade")
+                    # in the text too, so that a BOM made from it audits with its grade
+                    row["description"] += f", humidity grade {row['humidity_grade']}"
                     row["impulse_v"] = sub.service_impulse_max_v
                     if sub.impulse_test_v is not None:
                         row["impulse_test_v"] = round(
@@ -403,8 +405,9 @@ def _expand_electrolytic(ctx: Context, fam: Family) -> list[dict]:
     e.check_keys(
         _COMMON_KEYS
         | {"series", "min", "max", "voltages", "tolerance", "temp_max_c", "ripple_a_per_sqrt_cv"}
-        | {"price_base", "price_per_cv", "body"}
+        | {"price_base", "price_per_cv", "body", "rated_life_h"}
     )
+    rated_life_h = e.number("rated_life_h")  # hours at temp_max_c
     _, tol = e.tolerance("tolerance")
     title, mount = e.text("title"), e.text("mount")
     code = _code_prefix(e, fam.kind)
@@ -434,7 +437,10 @@ def _expand_electrolytic(ctx: Context, fam: Family) -> list[dict]:
                     code=_code(
                         e, code, unit_tag(float(v), "v"), iec60062_code(c, "F"), tolerance_tag(tol)
                     ),
-                    description=f"{title}, {format_value(c, 'F')} {v:g} V, {d:g}x{length:g} mm",
+                    description=(
+                        f"{title}, {format_value(c, 'F')} {v:g} V, {d:g}x{length:g} mm, "
+                        f"{rated_life_h:g}h"
+                    ),
                     value=c,
                     tolerance=tol,
                     package=f"radial {d:g}x{length:g}",
@@ -444,6 +450,7 @@ def _expand_electrolytic(ctx: Context, fam: Family) -> list[dict]:
                     rated_voltage_v=float(v),
                     ripple_a=round(k_ripple * math.sqrt(cv), 4),
                     temp_max_c=e.number("temp_max_c"),
+                    rated_life_h=rated_life_h,
                 )
             )
     return rows

@@ -135,6 +135,8 @@ class Part(Base):
     dielectric: Mapped[str | None] = mapped_column(String(20))
     pitch_mm: Mapped[float | None] = mapped_column(Float)
     body_mm: Mapped[str | None] = mapped_column(String(40))
+    # added by migration 0004: electrolytic rated life [h] at temp_max_c
+    rated_life_h: Mapped[float | None] = mapped_column(Float)
 
     __table_args__ = (Index("ix_parts_kind_value", "kind", "value"),)
 

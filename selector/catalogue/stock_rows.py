@@ -55,6 +55,7 @@ TEMPLATE_COLUMNS: Final[tuple[str, ...]] = (
     "tj_max_c",
     "ripple_a",
     "temp_max_c",
+    "rated_life_h",
     "i2t_a2s",
     "fusible",
     "dielectric",

@@ -11,6 +11,7 @@ and the builders below turn the texts into engine dataclasses (values read only 
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from typing import Annotated
 
@@ -26,8 +27,17 @@ from ..engine.circuit import (
     Harmonic,
 )
 from ..errors import BadValueError, OutOfRangeError
+from ..policy import PRODUCT_CLASSES, Policy, product_class_limit
 from ..ranges import check_range
-from ..units import format_value, parse_tolerance, parse_value
+from ..units import (
+    format_duration,
+    format_value,
+    parse_count,
+    parse_duration,
+    parse_percent,
+    parse_tolerance,
+    parse_value,
+)
 
 __all__ = [
     "AmbientOpt",
@@ -44,7 +54,9 @@ __all__ = [
     "DropoutOpt",
     "FreqOpt",
     "HarmonicsOpt",
+    "HumidityOpt",
     "JsonOpt",
+    "LifeOpt",
     "LoadOpt",
     "LoadROpt",
     "MainsOpt",
@@ -56,7 +68,10 @@ __all__ = [
     "ReservoirOpt",
     "RTolOpt",
     "SeriesROpt",
+    "ProductClassOpt",
+    "StandbyLimitOpt",
     "SurgeOpt",
+    "SwitchOnsOpt",
     "TopologyOpt",
     "VoutMaxOpt",
     "ZenerOpt",
@@ -65,6 +80,7 @@ __all__ = [
     "circuit_from_options",
     "conditions_from_options",
     "describe_corner",
+    "describe_life",
     "load_from_options",
     "mains_from_options",
     "describe_mains",
@@ -76,6 +92,7 @@ __all__ = [
     "parse_topology",
     "parse_frequencies",
     "parse_harmonics",
+    "standby_policy",
     "tolerances_from_options",
 ]
 
@@ -99,7 +116,12 @@ CapOpt = Annotated[
 ]
 CapTolOpt = Annotated[str, typer.Option("--cap-tol", help="X capacitor tolerance, % or K/M.")]
 CapLossOpt = Annotated[
-    str, typer.Option("--cap-loss", help="X capacitor end-of-life capacitance loss, %.")
+    str | None,
+    typer.Option(
+        "--cap-loss",
+        help="X capacitor end-of-life capacitance loss, %; default: from its humidity grade "
+        "at --life, --humidity and --ambient (Peck's model), and 10 % in the worst case.",
+    ),
 ]
 SeriesROpt = Annotated[str, typer.Option("--series-r", help="Series resistance, ohm (470).")]
 RTolOpt = Annotated[str, typer.Option("--r-tol", help="Resistor tolerance, % (series + bleeder).")]
@@ -150,6 +172,38 @@ ProfileOpt = Annotated[
 ]
 SurgeOpt = Annotated[
     str, typer.Option("--surge", help="IEC 61000-4-5 surge level, V peak (1k); 0 for none.")
+]
+LifeOpt = Annotated[
+    str,
+    typer.Option(
+        "--life", help="Target life of continuous operation: 87600h, 10y (8760 h a year)."
+    ),
+]
+HumidityOpt = Annotated[
+    str, typer.Option("--humidity", help="Relative humidity in use, % (60), at --ambient.")
+]
+SwitchOnsOpt = Annotated[
+    str, typer.Option("--switch-ons", help="Plug-ins / power-ups over the life (30k).")
+]
+StandbyLimitOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--standby-limit",
+        help="No-load (standby) power limit, W (0.5); default none: the no-load power is "
+        "shown, not judged.",
+    ),
+]
+ProductClassOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--product-class",
+        help="Product class setting the standby limit: "
+        + ", ".join(
+            f"{name} ({'none' if lim is None else f'{lim:g} W'})"
+            for name, (lim, _) in PRODUCT_CLASSES.items()
+        )
+        + " (0.8 and 2 W from memory).",
+    ),
 ]
 JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON document.")]
 DbOpt = Annotated[str | None, typer.Option("--db", help="Catalogue database URL or file.")]
@@ -343,21 +397,30 @@ def _ordinal(n: int) -> str:
 
 
 def tolerances_from_options(
-    cap_tol: str = "10", cap_loss: str = "10", r_tol: str = "5", zener_tol: str = "5"
+    cap_tol: str = "10", cap_loss: str | None = None, r_tol: str = "5", zener_tol: str = "5"
 ) -> Tolerances:
-    """Tolerances from the option texts (percent or IEC 60062 letters)."""
+    """Tolerances from the option texts (percent or IEC 60062 letters); ``cap_loss`` None is
+    the IEC 60384-14 endurance limit, 10 % [S], in the worst-case analysis."""
     return Tolerances(
         cap_tol=option_percent(cap_tol, "--cap-tol"),
-        cap_loss=parse_cap_loss(cap_loss),
+        cap_loss=parse_cap_loss(cap_loss) if cap_loss is not None else 0.10,
         r_tol=option_percent(r_tol, "--r-tol"),
         zener_tol=option_percent(zener_tol, "--zener-tol"),
     )
 
 
 def conditions_from_options(
-    ambient: str = "40", profile: str = "iec60335", surge: str = "1k", vout_max: str | None = None
+    ambient: str = "40",
+    profile: str = "iec60335",
+    surge: str = "1k",
+    vout_max: str | None = None,
+    life: str = "10y",
+    humidity: str = "60",
+    switch_ons: str = "30k",
+    cap_loss: str | None = None,
 ) -> Conditions:
-    """Ambient, discharge profile, surge level and highest bus voltage from the option texts."""
+    """Ambient, discharge profile, surge level, highest bus voltage and the life and duty
+    (target life, humidity in use, switch-ons) from the option texts."""
     prof = profile.strip().lower().replace("-", "").replace(" ", "")
     if prof not in DISCHARGE_PROFILES:
         raise BadValueError(
@@ -368,7 +431,54 @@ def conditions_from_options(
         profile=prof,
         surge_v=option_value(surge, "V", "--surge"),
         vout_max_v=option_value(vout_max, "V", "--vout-max") if vout_max else None,
+        life_s=_read(parse_duration, life, "--life"),
+        humidity=_read(parse_percent, humidity, "--humidity"),
+        switch_ons=_read(parse_count, switch_ons, "--switch-ons"),
+        end_of_life_loss=parse_cap_loss(cap_loss) if cap_loss is not None else None,
     )
+
+
+def _read(reader, text: str, what: str) -> float:
+    try:
+        return reader(text)
+    except BadValueError as exc:
+        raise BadValueError(f"{what}: {exc}") from None
+
+
+def describe_life(conditions: Conditions) -> str:
+    """One line for the life and duty: 'Life: 87600 h (10 y) continuous at 40 C, 60 % RH,
+    30000 switch-ons'."""
+    return (
+        f"Life: {format_duration(conditions.life_s)} continuous at {conditions.ambient_c:g} C, "
+        f"{conditions.humidity * 100:g} % RH, {conditions.switch_ons:.0f} switch-ons"
+    )
+
+
+def standby_policy(
+    policy: Policy, standby_limit: str | None = None, product_class: str | None = None
+) -> tuple[Policy, str | None]:
+    """``policy`` with the no-load power limit of ``--standby-limit`` or ``--product-class``
+    (both given: they must agree); (policy, source of the limit or None).
+
+    Without either the policy's own limit stays (None by default: no limit). Example:
+    ``standby_policy(Policy(), '0.5')`` -> limit 0.5 W, source '--standby-limit'.
+    """
+    limit: float | None = policy.standby_limit_w
+    source = None if limit is None else "--policy"
+    if product_class:
+        limit, source = product_class_limit(product_class)
+        source = f"--product-class {product_class.strip().lower()}: {source}"
+    if standby_limit:
+        value = option_value(standby_limit, "W", "--standby-limit")
+        if not value > 0:
+            raise BadValueError(f"--standby-limit must be > 0 W, got {standby_limit!r}")
+        if product_class and limit != value:
+            raise BadValueError(
+                f"--standby-limit {standby_limit} and --product-class {product_class} disagree; "
+                "give one of them"
+            )
+        limit, source = value, source or "--standby-limit"
+    return dataclasses.replace(policy, standby_limit_w=limit), source
 
 
 def load_from_options(

@@ -20,22 +20,29 @@ from ._circuit import (
     DropoutOpt,
     FreqOpt,
     HarmonicsOpt,
+    HumidityOpt,
     JsonOpt,
+    LifeOpt,
     LoadOpt,
     LoadROpt,
     MainsOpt,
     MainsTolOpt,
+    ProductClassOpt,
     ProfileOpt,
     QuiescentOpt,
     RegulatorOpt,
+    StandbyLimitOpt,
     SurgeOpt,
+    SwitchOnsOpt,
     TopologyOpt,
     conditions_from_options,
+    describe_life,
     describe_mains,
     load_from_options,
     mains_from_options,
     option_value,
     parse_topology,
+    standby_policy,
     tolerances_from_options,
 )
 
@@ -117,6 +124,15 @@ def human_report(doc: dict[str, Any]) -> list[str]:
     warns = [f for f in doc["findings"] if f["severity"] == "warn"]
     for f in fails + warns:
         lines.append(finding_line(f))
+    for f in doc["findings"]:
+        if f["rule"] == "whole.standby_power" and f["severity"] == "pass":
+            lines.append(finding_line(f))  # the no-load power is always shown
+    from .design import life_text
+
+    for b in doc["boards"]:
+        if b.get("life"):
+            name = f"[{b['board']}] " if b["board"] else ""
+            lines.append(f"{name}Life figures: " + life_text(b["life"]))
     s = doc["summary"]
     lines.append(f"{s['pass']} checks pass, {s['warn']} warn, {s['fail']} fail.")
     return lines
@@ -200,7 +216,7 @@ def audit_options(
     freq: str = "50",
     harmonics: str | None = None,
     cap_tol: str | None = None,
-    cap_loss: str = "10",
+    cap_loss: str | None = None,
     r_tol: str | None = None,
     zener_tol: str | None = None,
     zener_z: str | None = None,
@@ -217,8 +233,13 @@ def audit_options(
     ambient: str = "40",
     profile: str = "iec60335",
     surge: str = "1k",
+    life: str = "10y",
+    humidity: str = "60",
+    switch_ons: str = "30k",
     policy: Path | None = None,
     db: str | None = None,
+    standby_limit: str | None = None,
+    product_class: str | None = None,
 ) -> dict[str, Any]:
     """The keyword options of :func:`selector.audit.evaluate.audit_bom` from the option texts.
 
@@ -250,13 +271,15 @@ def audit_options(
         )
     return dict(
         mains=mains_from_options(mains, mains_tol, freq, harmonics),
-        conditions=conditions_from_options(ambient, profile, surge),
+        conditions=conditions_from_options(
+            ambient, profile, surge, None, life, humidity, switch_ons, cap_loss
+        ),
         tolerances=tolerances,
         pinned_tolerances=pinned,
         load=load_from_options(load, load_r, burst, burst_time, burst_period),
         regulator=reg,
         topology=None if top == "auto" else top,
-        policy=load_policy(policy),
+        policy=standby_policy(load_policy(policy), standby_limit, product_class)[0],
         sheet=sheet,
         encoding=encoding,
         columns=_columns(column),
@@ -289,7 +312,7 @@ def audit(
     freq: FreqOpt = "50",
     harmonics: HarmonicsOpt = None,
     cap_tol: BomCapTolOpt = None,
-    cap_loss: CapLossOpt = "10",
+    cap_loss: CapLossOpt = None,
     r_tol: BomRTolOpt = None,
     zener_tol: BomZenerTolOpt = None,
     zener_z: BomZenerZOpt = None,
@@ -306,7 +329,12 @@ def audit(
     ambient: AmbientOpt = "40",
     profile: ProfileOpt = "iec60335",
     surge: SurgeOpt = "1k",
+    life: LifeOpt = "10y",
+    humidity: HumidityOpt = "60",
+    switch_ons: SwitchOnsOpt = "30k",
     policy: PolicyOpt = None,
+    standby_limit: StandbyLimitOpt = None,
+    product_class: ProductClassOpt = None,
     db: DbOpt = None,
     json: JsonOpt = False,
     report: Annotated[
@@ -329,6 +357,8 @@ def audit(
         load_r=load_r, burst=burst, burst_time=burst_time, burst_period=burst_period,
         regulator=regulator, dropout=dropout, quiescent=quiescent, diode_drop=diode_drop,
         diode_r=diode_r, ambient=ambient, profile=profile, surge=surge, policy=policy, db=db,
+        standby_limit=standby_limit, product_class=product_class, life=life,
+        humidity=humidity, switch_ons=switch_ons,
     )  # fmt: skip
     result = audit_bom(bom, **opts)
     from ..engine.distortion import mains_record
@@ -344,6 +374,8 @@ def audit(
             report, "audit", doc, board.circuit if board else None,
             mains=supply, tolerances=opts["tolerances"], conditions=opts["conditions"],
         )  # fmt: skip
+    if not json:
+        typer.echo(describe_life(opts["conditions"]))
     if not json and supply.harmonics:
         typer.echo(describe_mains(doc["mains"]))
     _finish(doc, json)

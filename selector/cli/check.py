@@ -27,11 +27,14 @@ from ._circuit import (
     DropoutOpt,
     FreqOpt,
     HarmonicsOpt,
+    HumidityOpt,
     JsonOpt,
+    LifeOpt,
     LoadOpt,
     LoadROpt,
     MainsOpt,
     MainsTolOpt,
+    ProductClassOpt,
     ProfileOpt,
     QuiescentOpt,
     RegulatorOpt,
@@ -39,7 +42,9 @@ from ._circuit import (
     ReservoirOpt,
     RTolOpt,
     SeriesROpt,
+    StandbyLimitOpt,
     SurgeOpt,
+    SwitchOnsOpt,
     TopologyOpt,
     VoutMaxOpt,
     ZenerOpt,
@@ -48,9 +53,11 @@ from ._circuit import (
     circuit_from_options,
     conditions_from_options,
     describe_corner,
+    describe_life,
     describe_mains,
     load_from_options,
     mains_from_options,
+    standby_policy,
     tolerances_from_options,
 )
 
@@ -67,7 +74,7 @@ def check(
     freq: FreqOpt = "50",
     harmonics: HarmonicsOpt = None,
     cap_tol: CapTolOpt = "10",
-    cap_loss: CapLossOpt = "10",
+    cap_loss: CapLossOpt = None,
     series_r: SeriesROpt = "470",
     r_tol: RTolOpt = "5",
     bleeder: BleederOpt = "1M",
@@ -87,9 +94,14 @@ def check(
     diode_drop: DiodeDropOpt = "0.8",
     diode_r: DiodeROpt = "0.1",
     ambient: AmbientOpt = "40",
+    life: LifeOpt = "10y",
+    humidity: HumidityOpt = "60",
+    switch_ons: SwitchOnsOpt = "30k",
     profile: ProfileOpt = "iec60335",
     surge: SurgeOpt = "1k",
     vout_max: VoutMaxOpt = None,
+    standby_limit: StandbyLimitOpt = None,
+    product_class: ProductClassOpt = None,
     json: JsonOpt = False,
     db: DbOpt = None,
     report: Annotated[
@@ -120,12 +132,34 @@ def check(
 
     supply = mains_from_options(mains, mains_tol, freq, harmonics)
     tolerances = tolerances_from_options(cap_tol, cap_loss, r_tol, zener_tol)
-    conditions = conditions_from_options(ambient, profile, surge, vout_max)
+    conditions = conditions_from_options(
+        ambient, profile, surge, vout_max, life, humidity, switch_ons, cap_loss
+    )
     result = analyse(circuit, supply, tolerances, conditions)
+    from ..policy import Policy
+    from ..rules import standby_record
+
+    pol, limit_source = standby_policy(Policy(), standby_limit, product_class)
+    standby = standby_record(result.worst_case.no_load_real_power_w, pol, limit_source)
+    ok = bool(result.ok and standby["ok"])
+    from ..rules import stresses_from_analysis
+    from ..rules.life import life_context, life_record
+
+    life_stresses, _ = stresses_from_analysis(
+        result,
+        {
+            "ambient_c": conditions.ambient_c,
+            "mains_max_v": supply.high_v,
+            **life_context(conditions, tolerances.cap_loss),
+        },
+    )
+    life_doc = life_record(life_stresses)
     doc = {
         "topology": result.topology,
         "ambient_c": result.ambient_c,
-        "ok": result.ok,
+        "ok": ok,
+        "standby": standby,
+        "life": life_doc,
         "mains": mains_record(supply),
         # the highest bus voltage the load tolerates (--vout-max; default 1.3 x bus, [P])
         "vout_max_v": conditions.vout_max(circuit),
@@ -150,9 +184,19 @@ def check(
         print_json(doc)
     else:
         typer.echo(render_table(result, conditions.vout_max(circuit)))
+        from .design import life_text
+
+        typer.echo(describe_life(conditions))
+        typer.echo("Life figures: " + life_text(life_doc))
+        typer.echo(
+            f"No-load power {format_value(standby['no_load_real_power_w'], 'W')}: "
+            + ("" if standby["ok"] else "NOT ACCEPTED, ")
+            + standby["note"]
+            + (f" ({standby['source']})" if standby["source"] else "")
+        )
         typer.echo(describe_mains(doc["mains"]))
         echo_cautions()
-    if not result.ok:
+    if not ok:
         raise typer.Exit(EXIT_FINDINGS)
 
 

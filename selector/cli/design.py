@@ -21,22 +21,29 @@ from ._circuit import (
     DropoutOpt,
     FreqOpt,
     HarmonicsOpt,
+    HumidityOpt,
     JsonOpt,
+    LifeOpt,
     LoadOpt,
     MainsOpt,
     MainsTolOpt,
+    ProductClassOpt,
     ProfileOpt,
     QuiescentOpt,
     RegulatorOpt,
+    StandbyLimitOpt,
     SurgeOpt,
+    SwitchOnsOpt,
     ZenerOpt,
     conditions_from_options,
+    describe_life,
     describe_mains,
     mains_from_options,
     option_value,
     parse_burst,
     parse_cap_loss,
     parse_topology,
+    standby_policy,
 )
 from .parts import _Bar
 
@@ -58,8 +65,11 @@ def design(
     mains_tol: MainsTolOpt = "10",
     freq: FreqOpt = "50",
     harmonics: HarmonicsOpt = None,
-    cap_loss: CapLossOpt = "10",
+    cap_loss: CapLossOpt = None,
     ambient: AmbientOpt = "40",
+    life: LifeOpt = "10y",
+    humidity: HumidityOpt = "60",
+    switch_ons: SwitchOnsOpt = "30k",
     profile: ProfileOpt = "iec60335",
     surge: SurgeOpt = "1k",
     zener: ZenerOpt = None,  # type: ignore[assignment]
@@ -73,6 +83,8 @@ def design(
         Path | None,
         typer.Option("--policy", help="TOML file overriding derating limits (see docs)."),
     ] = None,
+    standby_limit: StandbyLimitOpt = None,
+    product_class: ProductClassOpt = None,
     minimize: Annotated[
         str, typer.Option("--minimize", help="price, area or count (ties broken by the others).")
     ] = "price",
@@ -114,7 +126,7 @@ def design(
     from ..engine.distortion import mains_record
     from ..policy import load_policy
 
-    pol = load_policy(policy)
+    pol, standby_source = standby_policy(load_policy(policy), standby_limit, product_class)
     reg_v = option_value(regulator, "V", "--regulator") if regulator else None
     if vout is None and reg_v is None:
         raise BadValueError("give the output voltage with --vout (e.g. --vout 5.1)")
@@ -127,8 +139,10 @@ def design(
         load_a=option_value(load, "A", "--load"),
         vout_v=vout_v,
         mains=mains_from_options(mains, mains_tol, freq, harmonics),
-        conditions=conditions_from_options(ambient, profile, surge),
-        cap_loss=parse_cap_loss(cap_loss),
+        conditions=conditions_from_options(
+            ambient, profile, surge, None, life, humidity, switch_ons, cap_loss
+        ),
+        cap_loss=parse_cap_loss(cap_loss) if cap_loss is not None else 0.10,
         topology=top_name,
         zener_v=option_value(zener, "V", "--zener") if zener else None,
         regulator=reg_v is not None,
@@ -173,9 +187,14 @@ def design(
             "surge_v": req.conditions.surge_v,
             "ambient_c": req.conditions.ambient_c,
             "profile": req.conditions.profile,
+            "target_life_h": req.conditions.life_h,
+            "humidity_fraction": req.conditions.humidity,
+            "switch_ons": req.conditions.switch_ons,
+            "cap_loss_override": req.conditions.end_of_life_loss,
         },
         "mains": mains_record(req.mains),
         "policy": pol.to_dict(),
+        "standby_limit_source": standby_source,
         "designs": [D.design_to_dict(d) for d in designs],
         "bom": str(bom) if bom is not None else None,
         "cautions": list(CAUTIONS),
@@ -189,6 +208,7 @@ def design(
     if json:
         print_json(doc)
         return
+    typer.echo(describe_life(req.conditions))
     if req.mains.harmonics:
         typer.echo(describe_mains(doc["mains"]))
     for d in designs:
@@ -293,6 +313,8 @@ def _echo_design(d: Any, n: int, req: Any) -> None:
             ("no-load real power", w.no_load_real_power_w, "W", w.no_load_real_power_corner),
         ):
             typer.echo(f"    {label:<20} {format_value(val, unit):>10}   {describe_corner(corner)}")
+    if d.life:
+        typer.echo("  life: " + life_text(d.life))
     if d.search:
         sr = d.search
         typer.echo(
@@ -306,6 +328,10 @@ def _echo_design(d: Any, n: int, req: Any) -> None:
             )
     typer.echo(f"  checks (binding: {', '.join(d.binding)}):")
     for f in d.checks:
+        if f.stress is not None and f.limit is None:  # no limit set: the figure and a note
+            stress = _fmt(f.stress, f.unit)
+            typer.echo(f"    {f.severity:<4}  {f.rule:<28} {stress:>10}   {f.note}   {f.source}")
+            continue
         if f.stress is None or f.unit == "class":
             typer.echo(f"    {f.severity:<4}  {f.rule:<28} {f.note:<24}   {f.source}")
             continue
@@ -320,7 +346,26 @@ def _echo_design(d: Any, n: int, req: Any) -> None:
     typer.echo("")
 
 
+def life_text(life: dict) -> str:
+    """The life section in one line (design and check text)."""
+    out = [f"target {life['target_life_h']:.0f} h"]
+    if life.get("reservoir_life_h") is not None:
+        out.append(
+            f"reservoir {life['reservoir_life_h']:.0f} h at a core of "
+            f"{life['reservoir_core_temp_c']:.1f} C"
+        )
+    if life.get("x_cap_loss_fraction") is not None:
+        out.append(f"X capacitor loss {life['x_cap_loss_fraction'] * 100:.1f} %")
+    if life.get("end_of_life_min_dc_current_a") is not None:
+        out.append("min DC current then " + format_value(life["end_of_life_min_dc_current_a"], "A"))
+    out.append(f"{life['switch_ons']:.0f} switch-ons")
+    notes = [n for n in life.get("notes", []) if n]
+    return ", ".join(out) + (f" ({'; '.join(notes)})" if notes else "")
+
+
 def _fmt(x: float, unit: str) -> str:
+    if unit == "h":
+        return f"{x:.0f} h"
     if unit in ("V/s",):
         return f"{x / 1e6:.3g} V/us"
     if unit == "C":

@@ -109,7 +109,7 @@ def yield_cmd(
     mains_tol: MainsTolOpt = "10",
     freq: FreqOpt = "50",
     cap_tol: BomCapTolOpt = None,
-    cap_loss: CapLossOpt = "10",
+    cap_loss: CapLossOpt = None,
     series_r: SeriesROpt = "470",
     r_tol: BomRTolOpt = None,
     bleeder: BleederOpt = "1M",

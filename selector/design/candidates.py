@@ -92,6 +92,7 @@ NUMERIC_COLUMNS: Final[tuple[str, ...]] = (
     "ripple_a",
     "temp_max_c",
     "i2t_a2s",
+    "rated_life_h",
 )
 
 

@@ -234,7 +234,7 @@ def _relaxations(req: Any, policy: Any, rule: str) -> list[Relaxation]:
                 ),
             )
         )
-    if rule == "whole.standby_power":
+    if rule == "whole.standby_power" and policy.standby_limit_w is not None:
         lim = float(policy.standby_limit_w)
         top = max(4 * lim, 2.0)
         out.append(
@@ -244,8 +244,9 @@ def _relaxations(req: Any, policy: Any, rule: str) -> list[Relaxation]:
                 lambda t: (req, replace(policy, standby_limit_w=lim + t * (top - lim))),
                 lambda t: (
                     f"a no-load power limit of {lim + t * (top - lim):.2f} W "
-                    f"(standby_limit_w in a --policy file), if the product has no standby mode "
-                    "in the scope of EU 2023/826"
+                    f"(--standby-limit {lim + t * (top - lim):.2f}) if the product's class "
+                    "allows it (EU 2023/826), or none at all for a product without a "
+                    "standby mode (leave out --standby-limit and --product-class)"
                 ),
             )
         )

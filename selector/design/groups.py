@@ -16,6 +16,7 @@ from typing import Final
 
 import numpy as np
 
+from ..policy import standby_bound_w
 from .bounds import (
     SCREEN_SLACK,
     SURGE_SLACK,
@@ -190,7 +191,7 @@ def prune_options(
     r_use = np.clip(r_allow, r_lo, r_hi)
     b_hi = screen_bounds(req, topology, vz, cx, xtol, r_use, zero, vf_lo, vf_hi, ztol_min, zz_min)
     xk &= b_hi["max_zener_power_w"] <= z_cap_max
-    xk &= b_hi["max_zener_power_w"] + b_hi["rectifier_loss_w"] <= pol.standby_limit_w
+    xk &= b_hi["max_zener_power_w"] + b_hi["rectifier_loss_w"] <= standby_bound_w(pol)
     xkeep = xidx[np.flatnonzero(xk)]
     if len(xkeep) == 0:
         return xkeep, np.zeros(0, dtype=np.int64)
@@ -267,7 +268,7 @@ def series_necessary(setup, topology, vz, vf_lo, vf_hi, ztol_min, xkeep, r_tot, 
     ):
         st, lim, _ = rule_by_id(rid).check(s, rns, pol)
         rk &= np.asarray(st <= lim)
-    rk &= b2["max_series_r_power_w"] <= pol.standby_limit_w
+    rk &= b2["max_series_r_power_w"] <= standby_bound_w(pol)
     # the surge rule (costlier bound) on the survivors only
     live = np.flatnonzero(rk)
     if len(live):

@@ -16,6 +16,7 @@ from typing import Final
 
 import numpy as np
 
+from ..policy import standby_bound_w
 from .bounds import max_series_resistance_for_current, screen_bounds
 from .candidates import OptionTable, concat_options, keep_best_per_signature
 from .groups import NO_BOUND, ZenerGroup, prune_for_group, series_necessary
@@ -148,7 +149,7 @@ def capacitance_window(setup: SearchSetup, G: ZenerGroup) -> tuple[float, float]
         G.zz_min,
     )
     ok &= b["max_zener_power_w"] <= float(np.max(G.z_cap))
-    ok &= b["max_zener_power_w"] + b["rectifier_loss_w"] <= pol.standby_limit_w
+    ok &= b["max_zener_power_w"] + b["rectifier_loss_w"] <= standby_bound_w(pol)
     idx = np.flatnonzero(ok)
     if len(idx) == 0:
         return math.inf, -math.inf

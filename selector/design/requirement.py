@@ -18,6 +18,7 @@ import numpy as np
 
 from .. import rules as R
 from ..errors import BadValueError
+from ..rules.life import life_context
 
 #: IEC 60335-1 22.5: capacitors <= 0.1 uF need no discharge [S]
 DISCHARGE_EXEMPT_F: Final[float] = 0.1e-6
@@ -114,6 +115,8 @@ class Design:
     rated_parts: dict[str, list[R.RatedPart]] = field(default_factory=dict)
     #: how the search went: points screened, candidates verified, and whether it was exhaustive
     search: dict[str, Any] = field(default_factory=dict)
+    #: the life section (selector.rules.life.life_record)
+    life: dict[str, Any] = field(default_factory=dict)
 
 
 OBJECTIVES: Final[tuple[str, ...]] = ("price", "area", "count")
@@ -150,6 +153,7 @@ def context_scalars(req: Requirement) -> dict[str, float]:
         "mains_min_v": float(m.low_v),
         "ambient_c": float(req.conditions.ambient_c),
         "surge_level_v": float(req.conditions.surge_v),
+        **life_context(req.conditions, req.cap_loss),
     }
 
 

@@ -7,17 +7,24 @@ from collections.abc import Sequence
 from typing import Any, Final
 
 from .. import rules as R
-from .requirement import Design, DesignPart
+from ..rules.life import life_record
+from .requirement import Design, DesignPart, context_scalars
 from .setup import SearchSetup
 from .verify import catalogue_row, number_or
 
 RATING_KEYS: Final[dict[str, tuple[str, ...]]] = {
-    "x_capacitor": ("safety_class", "rated_voltage_ac_v", "dvdt_v_per_s", "impulse_v"),
+    "x_capacitor": (
+        "safety_class",
+        "rated_voltage_ac_v",
+        "dvdt_v_per_s",
+        "impulse_v",
+        "humidity_grade",
+    ),
     "series_resistor": ("power_w", "limiting_voltage_v", "pulse_energy_j", "fusible"),
     "bleeder": ("power_w", "limiting_voltage_v"),
     "rectifier": ("vrrm_v", "if_av_a", "ifsm_a", "vf_v"),
     "zener": ("power_w", "tj_max_c", "zz_ohm"),
-    "reservoir": ("rated_voltage_v", "ripple_a", "temp_max_c"),
+    "reservoir": ("rated_voltage_v", "ripple_a", "temp_max_c", "rated_life_h"),
     "fuse": ("i2t_a2s", "rated_voltage_ac_v"),
 }
 
@@ -92,6 +99,8 @@ def to_design(setup: SearchSetup, rank: int, res) -> Design:
         "reservoir_f": float(circ.reservoir_f),
     }
     rp = {k: (v if isinstance(v, list) else [v]) for k, v in rparts.items()}
+    stresses, _ = R.stresses_from_analysis(an, context_scalars(setup.req))
+    life = life_record(stresses, rparts)
     return Design(
         rank=rank,
         topology=topology,
@@ -106,6 +115,7 @@ def to_design(setup: SearchSetup, rank: int, res) -> Design:
         binding=binding,
         circuit=circ,
         rated_parts=rp,
+        life=life,
     )
 
 
@@ -145,6 +155,7 @@ def design_to_dict(d: Design) -> dict[str, Any]:
         ],
         "effective": d.effective,
         "worst_case": d.worst_case,
+        "life": d.life,
         "binding": d.binding,
         # wall-clock seconds stay out of the document, so that the same request prints the same
         "search": {k: v for k, v in d.search.items() if k != "seconds"},

@@ -18,7 +18,8 @@ from typing import Any, Final
 
 import numpy as np
 
-from ..policy import Policy
+from ..policy import Policy, standby_bound_w
+from ..rules import X_CAP_IEC60384_14_KEY
 from .bounds import (
     SCREEN_SLACK,
     SURGE_SLACK,
@@ -247,7 +248,7 @@ def screen_points(setup: SearchSetup, G: ZenerGroup, xg, rg, kx, budget: int, st
     if budget >= NO_BOUND:  # diagnostics for an infeasible request; not needed once a set exists
         count_blocking(stats, s, xns, rns, pol, ok)
     # quick completion checks before the costlier surge bounds
-    room0 = pol.standby_limit_w - (
+    room0 = standby_bound_w(pol) - (
         b["max_zener_power_w"] + b["max_series_r_power_w"] + b["rectifier_loss_w"]
     )
     tally(stats, "whole.standby_power", ok & ~(room0 > 0))
@@ -308,7 +309,7 @@ def screen_points(setup: SearchSetup, G: ZenerGroup, xg, rg, kx, budget: int, st
     rb_hi = bleeder_resistance_ceiling(
         req, xo.attrs["value"][xg], np.nan_to_num(xo.attrs["tolerance"][xg], nan=0.2)
     )
-    room = pol.standby_limit_w - (
+    room = standby_bound_w(pol) - (
         b["max_zener_power_w"] + b["max_series_r_power_w"] + b["rectifier_loss_w"]
     )
     tally(stats, "whole.standby_power", ok_xr & ~(room > 0))
@@ -318,7 +319,10 @@ def screen_points(setup: SearchSetup, G: ZenerGroup, xg, rg, kx, budget: int, st
     tally(stats, "bleeder.discharge", ok_xr & (room > 0) & (bsel < 0))
     ok &= bsel >= 0
     fus = ro.attrs["fusible_flag"][rg].astype(bool)
-    fkey, fok = cheapest_fuse_per_point(setup.fo, ro, rg, b, s0, pol, fus)
+    # every X option is of an X subclass (setup.prepare keeps no other), so of an IEC 60384-14
+    # class: the 'opens on a shorted X capacitor' rules are waived at every point
+    x_exempt = rule_by_id("fuse.opens_on_short").waiver({X_CAP_IEC60384_14_KEY: True}) is not None
+    fkey, fok = cheapest_fuse_per_point(setup.fo, ro, rg, b, s0, pol, fus, x_exempt)
     tally(stats, "fuse.opens_on_short", ok_xr & ~fok)
     ok &= fok
     key = (
@@ -340,12 +344,15 @@ def screen_points(setup: SearchSetup, G: ZenerGroup, xg, rg, kx, budget: int, st
     return xg[sel], rg[sel], key[sel], comp
 
 
-def cheapest_fuse_per_point(fo, ro, rg, b, s0, pol, fusible):
+def cheapest_fuse_per_point(fo, ro, rg, b, s0, pol, fusible, x_exempt=False):
+    """Cheapest fuse per grid point (key, ok); a fusible series resistor serves as its own
+    fuse. ``x_exempt``: the shorted-X-capacitor rules are waived (IEC 60384-14 X capacitor),
+    so only the switch-on I^2t rule binds."""
     n = len(rg)
     fkey = np.zeros(n, dtype=np.int64)
     fok = fusible.copy()
     # fusible resistor: fault power rule on the resistor itself
-    if np.any(fusible):
+    if np.any(fusible) and not x_exempt:
         rns = ro.ns(rg)
         rns.power_w = rns.fusible_power_w  # the fusible element's rating per share (series)
         st, lim, _ = rule_by_id("fuse.fusible_opens_on_short").check(
@@ -362,7 +369,7 @@ def cheapest_fuse_per_point(fo, ro, rg, b, s0, pol, fusible):
         bestkey = np.full(n, np.iinfo(np.int64).max, dtype=np.int64)
         order = np.argsort(fo.key)
         for j in order:  # fuses are few; loop over fuse options, vectorised over the grid
-            okj = (b["inrush_i2t_a2s"] <= i2t_cap[j]) & (need_fault[j] <= fault)
+            okj = (b["inrush_i2t_a2s"] <= i2t_cap[j]) & ((need_fault[j] <= fault) | x_exempt)
             upd = okj & (best < 0)
             best[upd] = j
             bestkey[upd] = fo.key[j]

@@ -15,8 +15,10 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from .. import rules as R
 from ..errors import BadValueError, InfeasibleError
 from ..policy import Policy
+from ..rules.life import end_of_life_loss
 from .candidates import (
     OptionTable,
     concat_options,
@@ -117,6 +119,17 @@ def rows_of_kind(df: pd.DataFrame, kinds: Sequence[str]) -> np.ndarray:
     return np.flatnonzero(df["kind"].isin(kinds).to_numpy())
 
 
+def x_part_can_last(row: Any, s0: dict[str, Any]) -> bool:
+    """False when the part's end-of-life loss by Peck's model (its humidity grade, the target
+    life, ambient, humidity and highest mains) is total, so ``whole.end_of_life_current``
+    fails whatever else is chosen (a necessary condition: nothing feasible is dropped)."""
+    if "end_of_life_loss_override" in s0:
+        return float(s0["end_of_life_loss_override"]) < 1.0
+    part = R.rated_part_from_row(row, "x_capacitor")
+    loss, _ = end_of_life_loss([part], s0)
+    return loss < 1.0
+
+
 def prepare(df_all: pd.DataFrame, req: Requirement, policy: Policy) -> SearchSetup:
     df = filter_frame(df_all, req)
     k = req.top
@@ -124,6 +137,7 @@ def prepare(df_all: pd.DataFrame, req: Requirement, policy: Policy) -> SearchSet
     s0 = context_scalars(req)
     # X capacitors: only parts of an X subclass that pass the role-intrinsic rules
     xi = rows_of_kind(df, ["x_capacitor"])
+    xi = xi[[x_part_can_last(df.iloc[int(i)], s0) for i in xi]] if len(xi) else xi
     xs = options_of_parts(df, xi, "x_capacitor", mz, [1], "single")
     if len(xs):
         ns = xs.ns()
@@ -222,7 +236,22 @@ def prepare(df_all: pd.DataFrame, req: Requirement, policy: Policy) -> SearchSet
     co = options_of_parts(df, ci, "reservoir", mz, [1], "single")
     if len(co):
         st, lim, _ = rule_by_id("reservoir.temperature").check(s0, co.ns(), policy)
-        co = co.take(np.flatnonzero(np.asarray(st <= lim)))
+        keep = np.asarray(st <= lim)
+        # the life rule with no ripple (core = ambient): a necessary condition, since ripple
+        # only heats the core and shortens the life; an unknown rated life never passes
+        st, lim, _ = rule_by_id("reservoir.life").check(
+            {**s0, "max_reservoir_ripple_current_a": 0.0}, co.ns(), policy
+        )
+        life_ok = np.asarray(st <= lim) & ~np.isnan(np.asarray(lim, dtype=float))
+        if keep.any() and not (keep & life_ok).any():
+            raise InfeasibleError(
+                "blocked by rule reservoir.life: no reservoir in the catalogue lasts the target "
+                f"life of {s0['target_life_h']:.0f}"
+                f" h at {s0['ambient_c']:g} C (10-degree rule, at most 15 x its rated life)",
+                rule="reservoir.life",
+                relaxation="a shorter --life, a lower --ambient, or a long-life 105 C family",
+            )
+        co = co.take(np.flatnonzero(keep & life_ok))
     # fuses
     fi = rows_of_kind(df, ["fuse"])
     fo = options_of_parts(df, fi, "fuse", mz, [1], "single")

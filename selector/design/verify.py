@@ -18,6 +18,7 @@ from typing import Any, Final
 import numpy as np
 
 from .. import rules as R
+from ..policy import standby_bound_w
 from .candidates import OptionTable, rule_by_id
 from .requirement import bus_demand, context_scalars
 from .setup import SearchSetup
@@ -366,7 +367,7 @@ def _evaluate_completion(setup, topology, vz, xi, ri, completion):
             return None, s, circ
         parts = parts_by_role(setup, topology, vz, xi, ri, zi, di, ci, bi, fsel)
     findings = R.evaluate(parts, an, pol, context=ctx)
-    bad = [f.rule for f in findings if f.severity != "pass"]
+    bad = [f.rule for f in R.blocking(findings)]
     setup.last_exact = (bad, s, circ)
     if bad:
         for b in bad:
@@ -426,7 +427,7 @@ def cheapest_passing(
             s["max_bleeder_power_w"] = pb / ratio
             nl = s.get("no_load_real_power_w")
             if not is_missing(nl):
-                standby_ok = nl + pb * (1 / ratio - 1) <= setup.policy.standby_limit_w
+                standby_ok = nl + pb * (1 / ratio - 1) <= standby_bound_w(setup.policy)
     else:
         standby_ok = None
     for rule in R.rules_for(role):
@@ -470,12 +471,18 @@ def cheapest_fuse(setup, s, parts) -> int | None:
     fo = setup.fo
     if len(fo) == 0:
         return None
+    x_parts = parts.get("x_capacitor")
+    x_group = [x_parts] if isinstance(x_parts, R.RatedPart) else list(x_parts or [])
+    exempt = bool(x_group) and all(R.is_iec60384_14_class(p.safety_class) for p in x_group)
+    s = {**s, R.X_CAP_IEC60384_14_KEY: exempt}
     for j in np.argsort(fo.key):
         p = rated_option(setup, fo, int(j), "fuse")
         ok = True
         for rule in R.rules_for("fuse"):
             if rule.applies is not None and not rule.applies(s, p):
                 continue
+            if rule.waiver is not None and rule.waiver(s):
+                continue  # a failure would only be a waived warning
             st, lim, _ = rule.check(s, p, setup.policy)
             if not st <= lim:
                 ok = False

@@ -352,6 +352,10 @@ VOUT_MAX_FACTOR = 1.3
 VOUT_MIN_FACTOR = 0.9
 
 
+#: default target life: 10 years of continuous operation, 87600 h [P]
+DEFAULT_LIFE_S = 10 * 8760 * 3600.0
+
+
 @dataclass(frozen=True)
 class Conditions:
     """Ambient temperature [C], discharge profile, IEC 61000-4-5 surge level [V] (0: none), and
@@ -364,6 +368,15 @@ class Conditions:
     surge_v: float = 1000.0
     vout_max_v: float | None = None
     vout_min_v: float | None = None
+    #: target life [s] of continuous operation (default 10 years of 8760 h) [P]
+    life_s: float = DEFAULT_LIFE_S
+    #: relative humidity in use, fraction (default 0.6) [P]
+    humidity: float = 0.6
+    #: plug-ins / power-ups over the life (default 30 000) [P]
+    switch_ons: float = 30_000.0
+    #: X capacitor loss at the end of the life, fraction (``--cap-loss``); None: from the
+    #: part's humidity grade by Peck's model (selector.engine.life)
+    end_of_life_loss: float | None = None
 
     def __post_init__(self) -> None:
         _need(
@@ -380,6 +393,14 @@ class Conditions:
             self.vout_min_v is None or 0 <= self.vout_min_v <= 1000,
             f"lowest bus voltage {self.vout_min_v} V outside 0..1000 V",
         )
+        _need(0 < self.life_s <= 100 * 8760 * 3600.0, f"life {self.life_s} s outside 0..100 y")
+        _need(0 <= self.humidity <= 1, f"humidity {self.humidity} outside 0..1 (0..100 %)")
+        _need(0 <= self.switch_ons <= 1e8, f"switch-ons {self.switch_ons} outside 0..1e8")
+
+    @property
+    def life_h(self) -> float:
+        """The target life in hours."""
+        return self.life_s / 3600.0
 
     def vout_max(self, circuit: Circuit) -> float:
         """The highest allowed bus voltage [V]: the given one, else 1.3 x the bus voltage [P]."""

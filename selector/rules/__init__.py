@@ -25,7 +25,7 @@ worked-example test in tests/test_rules.py.
 
 from __future__ import annotations
 
-from .evaluation import evaluate, summarise
+from .evaluation import blocking, evaluate, standby_note, standby_record, summarise
 from .limits import (
     RESISTOR_GENERIC_DERATING_C,
     ZENER_GENERIC_DERATING_C,
@@ -39,17 +39,19 @@ from .parts import (
     X_CLASS_IMPULSE_V,
     Finding,
     RatedPart,
+    is_iec60384_14_class,
     rated_part_from_row,
     x_class_impulse_v,
 )
 from .stresses import stresses_from_analysis
-from .table import RULES, Rule, rules_for
+from .table import RULES, X_CAP_IEC60384_14_KEY, Rule, rules_for
 
 __all__ = [
     "ARRANGEMENTS",
     "RESISTOR_GENERIC_DERATING_C",
     "ROLES",
     "RULES",
+    "X_CAP_IEC60384_14_KEY",
     "X_CLASS_IMPULSE_V",
     "ZENER_GENERIC_DERATING_C",
     "Finding",
@@ -58,10 +60,14 @@ __all__ = [
     "derated_power",
     "discharge_time",
     "evaluate",
+    "is_iec60384_14_class",
     "margin",
     "rated_part_from_row",
     "rules_for",
     "stresses_from_analysis",
+    "blocking",
+    "standby_note",
+    "standby_record",
     "summarise",
     "x_class_impulse_v",
 ]

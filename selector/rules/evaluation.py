@@ -11,10 +11,11 @@ import math
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-from ..policy import Policy
-from .parts import Finding, RatedPart
+from ..policy import COMMON_STANDBY_LIMIT_W, Policy
+from .life import EOL_LOSS_KEY, EOL_NOTE_KEY, end_of_life_loss
+from .parts import Finding, RatedPart, is_iec60384_14_class
 from .stresses import stresses_from_analysis
-from .table import RULES, Rule
+from .table import RULES, X_CAP_IEC60384_14_KEY, Rule
 
 
 def _missing(value: Any) -> bool:
@@ -49,6 +50,16 @@ def evaluate(
         corner_texts = {}
     if corners:
         corner_texts.update(corners)
+    x_caps = parts_by_role.get("x_capacitor")
+    if x_caps is not None and X_CAP_IEC60384_14_KEY not in stress_values:
+        group = [x_caps] if isinstance(x_caps, RatedPart) else list(x_caps)
+        stress_values[X_CAP_IEC60384_14_KEY] = bool(group) and all(
+            is_iec60384_14_class(p.safety_class) for p in group
+        )
+        needed = ("target_life_h", "ambient_c", "humidity", "mains_max_v")
+        if group and EOL_LOSS_KEY not in stress_values and all(k in stress_values for k in needed):
+            loss, note = end_of_life_loss(group, stress_values)
+            stress_values[EOL_LOSS_KEY], stress_values[EOL_NOTE_KEY] = loss, note
     findings: list[Finding] = []
     for rule in RULES:
         if rule.role == "whole":
@@ -117,10 +128,28 @@ def _finding(
         )
     ok = bool(stress <= limit)
     note = ""
+    if math.isinf(limit):  # no limit set (a rule whose limit is optional)
+        limit_out, margin_out = None, None
+        if rule.id == "whole.standby_power":
+            note = standby_note(stress)
+        else:
+            note = "no limit set"
+        return Finding(
+            stress=stress, limit=limit_out, margin=margin_out, ok=True, severity="pass",
+            note=note, **common,
+        )  # fmt: skip
     if rule.id == "bleeder.discharge" and bool(stresses.get("discharge_exempt")):
         note = "exempt under the profile"
     if rule.id == "x_cap.safety_class" and part is not None:
         note = f"class {part.safety_class}" + ("" if ok else " is not an X subclass")
+    if rule.id == "whole.end_of_life_current":
+        note = f"loss {float(stresses[EOL_LOSS_KEY]):.1%} ({stresses.get(EOL_NOTE_KEY, '')})"
+    waiver = rule.waiver(stresses) if (not ok and rule.waiver is not None) else None
+    if waiver:
+        return Finding(
+            stress=stress, limit=limit, margin=margin, ok=False, severity="warn",
+            note=waiver, waived=True, **common,
+        )  # fmt: skip
     return Finding(
         stress=stress,
         limit=limit,
@@ -129,6 +158,49 @@ def _finding(
         severity="pass" if ok else "fail",
         note=note,
         **common,
+    )
+
+
+def blocking(findings: Sequence[Finding]) -> list[Finding]:
+    """The findings that refuse a design: every failure and every warning, except a waived
+    one (a rule's waiver, e.g. the fuse against a shorted IEC 60384-14 X capacitor)."""
+    return [f for f in findings if f.severity != "pass" and not f.waived]
+
+
+def standby_note(no_load_w: float) -> str:
+    """The note beside the no-load power when no standby limit is set: the figure against the
+    common 0.5 W off/standby limit (EU Regulation 2023/826 [S]).
+
+    Example: 0.62 W -> 'no standby limit set (--standby-limit, --product-class); 0.62 W is
+    above the common 0.5 W limit (EU 2023/826)'.
+    """
+    where = "within" if no_load_w <= COMMON_STANDBY_LIMIT_W else "above"
+    return (
+        f"no standby limit set (--standby-limit, --product-class); {no_load_w:.3g} W is {where} "
+        f"the common {COMMON_STANDBY_LIMIT_W:g} W limit (EU 2023/826)"
+    )
+
+
+def standby_record(no_load_w: float, policy: Policy, source: str | None = None) -> dict:
+    """The no-load power against the policy's standby limit (None: no limit) as a record:
+    ``no_load_real_power_w``, ``standby_limit_w``, ``ok``, ``note``, ``source`` of the limit.
+
+    Example: 0.906 W, no limit -> ok True, note '... above the common 0.5 W limit ...';
+    0.906 W against 0.5 W -> ok False.
+    """
+    lim = policy.standby_limit_w
+    if lim is None:
+        return dict(
+            no_load_real_power_w=no_load_w, standby_limit_w=None, ok=True,
+            note=standby_note(no_load_w), source=None,
+        )  # fmt: skip
+    ok = bool(no_load_w <= lim)
+    return dict(
+        no_load_real_power_w=no_load_w,
+        standby_limit_w=float(lim),
+        ok=ok,
+        note=f"{no_load_w:.3g} W {'within' if ok else 'above'} the standby limit {lim:g} W",
+        source=source,
     )
 
 

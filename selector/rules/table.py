@@ -23,6 +23,11 @@ from .fuse import (
     surge_i2t_vs_melting_i2t,
     switch_on_i2t_vs_melting_i2t,
 )
+from .life import (
+    end_of_life_known,
+    load_vs_end_of_life_current,
+    reservoir_target_vs_estimated_life,
+)
 from .limits import margin
 from .parts import ROLES, RatedPart
 from .reservoir import (
@@ -86,15 +91,21 @@ class Rule:
     corner_key: str | None = None
     #: only for parts of this kind (e.g. fusible resistors), or when this stress key is truthy
     applies: Callable[[Mapping[str, Any], RatedPart], bool] | None = None
+    #: when this returns a note, a failure of the rule is a 'warn' finding (waived) with it
+    waiver: Callable[[Mapping[str, Any]], str | None] | None = None
 
     def check(self, stresses: Mapping[str, Any], part: Any, policy: Policy) -> tuple[Any, Any, Any]:
         """(stress, limit, margin); arrays in, arrays out.
 
-        A stress or limit that is infinite cannot be evaluated (a rating of ``1e999`` V is no
-        rating): its limit comes back NaN, so that ``stress <= limit`` is False in every caller
-        and the rule fails, never passes. A NaN limit stays NaN; the margin of either is NaN.
+        A limit of None (no limit set, e.g. ``whole.standby_power`` without a standby limit)
+        gives an infinite limit and a margin of 1 (nothing is bounded). Otherwise a stress or
+        limit that is infinite cannot be evaluated (a rating of ``1e999`` V is no rating): its
+        limit comes back NaN, so that ``stress <= limit`` is False in every caller and the rule
+        fails, never passes. A NaN limit stays NaN; the margin of either is NaN.
         """
         stress, limit = self.fn(stresses, part, policy)
+        if limit is None:
+            return stress, math.inf, 1.0
         return stress, *_unevaluable_as_nan(stress, limit)
 
 
@@ -127,6 +138,25 @@ def not_fusible_resistor(stresses: Mapping[str, Any], part: Any) -> bool:
 def fusible_resistor(stresses: Mapping[str, Any], part: Any) -> bool:
     """A fusible series resistor serving as the fuse."""
     return bool(part.fusible)
+
+
+#: the stress key that says every X capacitor is of an IEC 60384-14 class (set by evaluate)
+X_CAP_IEC60384_14_KEY: Final[str] = "x_cap_iec60384_14"
+
+SHORTED_X_CAP_EXEMPTION: Final[str] = (
+    "IEC 60335-1 19.11.2 does not apply a short circuit to capacitors complying with "
+    "IEC 60384-14 [M] from memory, not checked against the standard's text"
+)
+
+
+def shorted_x_cap_exempt(stresses: Mapping[str, Any]) -> str | None:
+    """The waiver of the 'fuse opens on a shorted X capacitor' rules: a note when every X
+    capacitor is of an IEC 60384-14 class (the fault is not applied to it), else None."""
+    if bool(stresses.get(X_CAP_IEC60384_14_KEY)):
+        return (
+            "warning only: the X capacitor is of an IEC 60384-14 class; " + SHORTED_X_CAP_EXEMPTION
+        )
+    return None
 
 
 def surge_given(stresses: Mapping[str, Any], part: Any) -> bool:
@@ -315,6 +345,16 @@ RULES: Final[tuple[Rule, ...]] = (
          "V", output_ripple_vs_bus_fraction,
          ratings=("value",), stress_keys=("max_output_ripple_v", "zener_voltage_v"),
          corner_key="max_output_ripple_v"),
+    Rule("reservoir.life", "reservoir",
+         "target life <= estimated life at the core temperature (ambient + ripple "
+         "self-heating, 5 K at the rated ripple [M]) by the 10-degree rule, at most 15 x the "
+         "rated life [M]",
+         "[P] 10-degree rule (Arrhenius); extrapolation cap and rated-ripple rise [M] from "
+         "memory",
+         "h", reservoir_target_vs_estimated_life,
+         ratings=("rated_life_h", "temp_max_c", "ripple_a"),
+         stress_keys=("target_life_h", "ambient_c", "max_reservoir_ripple_current_a"),
+         corner_key="max_reservoir_ripple_current_a"),
     Rule("reservoir.temperature", "reservoir",
          "temperature class >= max ambient + policy margin",
          SOURCE_P,
@@ -335,18 +375,19 @@ RULES: Final[tuple[Rule, ...]] = (
          applies=real_fuse_and_surge),
     Rule("fuse.opens_on_short", "fuse",
          "the fuse opens if the X capacitor shorts: low-line fault current through the series "
-         "resistance >= rated current x policy factor",
-         SOURCE_P,
+         "resistance >= rated current x policy factor (a warning only for an IEC 60384-14 X "
+         "capacitor)",
+         SOURCE_P + "; exemption: " + SHORTED_X_CAP_EXEMPTION,
          "A", rated_current_vs_fault_current,
          ratings=("value",), stress_keys=("mains_min_v", "series_resistance_ohm"),
-         applies=not_fusible_resistor),
+         applies=not_fusible_resistor, waiver=shorted_x_cap_exempt),
     Rule("fuse.fusible_opens_on_short", "fuse",
          "a fusible series resistor opens if the X capacitor shorts: fault power per element >= "
-         "rated power x policy factor",
-         SOURCE_P,
+         "rated power x policy factor (a warning only for an IEC 60384-14 X capacitor)",
+         SOURCE_P + "; exemption: " + SHORTED_X_CAP_EXEMPTION,
          "W", rated_power_vs_fault_power,
          ratings=("power_w",), stress_keys=("mains_min_v", "series_resistance_ohm"),
-         applies=fusible_resistor),
+         applies=fusible_resistor, waiver=shorted_x_cap_exempt),
     # --- whole circuit (whole.py) -----------------------------------------------------------
     Rule("whole.min_current", "whole",
          "worst-case minimum DC current >= load x (1 + policy margin)",
@@ -354,9 +395,20 @@ RULES: Final[tuple[Rule, ...]] = (
          "A", load_vs_min_dc_current,
          stress_keys=("load_a", "min_dc_current_a"),
          corner_key="min_dc_current_a"),
+    Rule("whole.end_of_life_current", "whole",
+         "worst-case minimum DC current after the X capacitor's capacitance loss at the end "
+         "of the target life >= load x (1 + policy margin)",
+         "[P]; loss from the humidity grade's test (IEC 60384-14 Amd 1 [S]) by Peck's model "
+         "(IEEE IRPS 1986 [S]; n = 3, Ea = 0.8 eV [M]), or --cap-loss",
+         "A", load_vs_end_of_life_current,
+         stress_keys=("load_a", "min_dc_current_a", "x_cap_end_of_life_loss",
+                      "cap_loss_in_analysis"),
+         corner_key="min_dc_current_a", applies=end_of_life_known),
     Rule("whole.standby_power", "whole",
-         "no-load real power <= standby limit",
-         "EU Regulation 2023/826, off/standby mode <= 0.5 W [S]",
+         "no-load real power <= standby limit (only when one is set: --standby-limit or "
+         "--product-class)",
+         "EU Regulation 2023/826, off/standby mode <= 0.5 W [S]; other classes in "
+         "selector.policy.PRODUCT_CLASSES",
          "W", no_load_power_vs_standby_limit,
          stress_keys=("no_load_real_power_w",),
          corner_key="no_load_real_power_w"),
