@@ -73,3 +73,24 @@ def test_the_energy_balance_of_the_varistor() -> None:
     u0 = 4000.0 / scm.GENERATOR.peak_per_volt()
     stored = 0.5 * scm.GENERATOR.cc_f * u0 * u0
     assert 0.0 < float(np.max(run.varistor_energy_j)) < stored
+
+
+# --- the varistor rules' docstring examples (selector.rules.varistor) ---------------------
+
+
+def test_varistor_rule_examples() -> None:
+    from selector.policy import Policy
+    from selector.rules import RatedPart
+    from selector.rules import varistor as rv
+
+    pol = Policy()
+    disc = RatedPart(role="varistor", rated_voltage_ac_v=275.0, pulse_energy_j=80.0, ifsm_a=1200.0)
+    st, lim = rv.mains_rms_vs_continuous_voltage({"mains_max_v": 253.0}, disc, pol)
+    assert st <= lim
+    low = RatedPart(role="varistor", rated_voltage_ac_v=250.0)
+    st, lim = rv.mains_rms_vs_continuous_voltage({"mains_max_v": 253.0}, low, pol)
+    assert st > lim
+    st, lim = rv.surge_energy_vs_rating({"surge_varistor_energy_j": 9.6}, disc, pol)
+    assert st <= lim
+    st, lim = rv.surge_current_vs_peak_rating({"surge_varistor_peak_current_a": 1730.0}, disc, pol)
+    assert st > lim
