@@ -354,9 +354,20 @@ def surge_pre_state(sc: SurgeScenario, cycles: int = 4) -> tuple[float, float]:
     return vcx, vres
 
 
-def surge_netlist(sc: SurgeScenario, gen, u0: float, vcx: float, vres: float, window: float):
+def varistor_lines(varistor) -> tuple[list[str], str]:
+    """A varistor from ``line`` to neutral as a behavioural current source of the power law
+    ``I = 1 mA sgn(V) (|V| / V_1mA)^alpha`` (ngspice B source), sensed by ``VMS``; returns
+    (lines, vectors: its current and the line voltage)."""
+    law = f"I = {1e-3} * sgn(v(lm)) * pow(abs(v(lm)) / {varistor.v_1ma_v}, {varistor.alpha})"
+    return ["VMS line lm 0", f"BMOV lm 0 {law}"], "i(vms) v(line)"
+
+
+def surge_netlist(
+    sc: SurgeScenario, gen, u0: float, vcx: float, vres: float, window: float, varistor=None
+):
     """The surge netlist: the generator (``gen``: element values, charged to ``u0`` with the
-    scenario's polarity) between the mains source and the dropper, from the pre-state."""
+    scenario's polarity) between the mains source and the dropper, from the pre-state; with
+    ``varistor`` (:class:`selector.engine.varistor.Varistor`) one across the line."""
     vpk = math.sqrt(2) * sc.mains_v
     u_start = vpk * math.sin(math.radians(sc.phase_deg))
     body, vecs = _surge_circuit_lines(sc, vcx, vres, u_start)
@@ -370,15 +381,30 @@ def surge_netlist(sc: SurgeScenario, gen, u0: float, vcx: float, vres: float, wi
         f"RS2 line a {gen.rs2_ohm}",
         f".ic v(a)={u_start} v(g1)={u_start + sc.polarity * u0} v(g2)={u_start}",
         *body,
-        *_control(window, 20e-9, vecs),
     ]
+    if varistor is not None:
+        mov, mov_vecs = varistor_lines(varistor)
+        lines += mov
+        vecs += " " + mov_vecs
+    lines += _control(window, 20e-9, vecs)
     return "\n".join(lines) + "\n"
 
 
-def surge_metrics(sc: SurgeScenario, gen, u0: float, window: float, pre=None) -> dict:
-    """Run the surge in ngspice and return the stresses the engine reports (same names)."""
+def surge_metrics(
+    sc: SurgeScenario, gen, u0: float, window: float, pre=None, varistor=None
+) -> dict:
+    """Run the surge in ngspice and return the stresses the engine reports (same names); with
+    ``varistor`` also its peak current, energy and the line's peak voltage."""
     vcx, vres = pre if pre is not None else surge_pre_state(sc)
-    d = run(surge_netlist(sc, gen, u0, vcx, vres, window), "OUT")
+    d = run(surge_netlist(sc, gen, u0, vcx, vres, window, varistor), "OUT")
+    extra = {}
+    if varistor is not None:
+        t, i_m, v_line = d[:, 0], d[:, -2], d[:, -1]
+        extra = {
+            "varistor_peak_current_a": float(np.max(np.abs(i_m))),
+            "varistor_energy_j": _trapz(v_line * i_m, t),
+            "line_peak_v": float(np.max(np.abs(v_line))),
+        }
     t = d[:, 0]
     i = d[:, 1]
     vx = d[:, 2]
@@ -412,4 +438,5 @@ def surge_metrics(sc: SurgeScenario, gen, u0: float, window: float, pre=None) ->
         "rectifier_i2t_a2s": rect_i2t,
         "fuse_i2t_a2s": i2t,
         "bus_peak_v": float(np.max(bus)),
+        **extra,
     }

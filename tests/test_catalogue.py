@@ -206,7 +206,7 @@ def _expected_count(fam: dict) -> int:
     kind = fam["kind"]
     if kind in ("diode", "bridge"):
         return len(fam["vrrm"])
-    if kind == "fuse":
+    if kind in ("fuse", "varistor"):
         return len(fam["ratings"])
     n = _eseries_count(
         fam["series"], parse_value(fam["min"], unit[kind]), parse_value(fam["max"], unit[kind])

@@ -45,7 +45,7 @@ def test_empty_to_head_creates_the_tables(empty_db_url):
     try:
         assert current_revision(engine) is None
         migrate(engine)
-        assert current_revision(engine) == head_revision() == "0004"
+        assert current_revision(engine) == head_revision() == "0006"
         assert _tables(engine) == CATALOGUE_TABLES
     finally:
         engine.dispose()
@@ -139,7 +139,7 @@ def test_alembic_command_line_with_the_ini_file(tmp_path: Path):
     assert done.returncode == 0, done.stderr
     engine = make_engine(f"sqlite:///{db}")
     try:
-        assert current_revision(engine) == "0004"
+        assert current_revision(engine) == "0006"
         assert _tables(engine) == CATALOGUE_TABLES
     finally:
         engine.dispose()
@@ -186,8 +186,13 @@ def test_code_mapping_covers_every_builtin_code_both_ways():
     from selector.catalogue.build import builtin_rows
 
     mig = _codes_migration()
-    # families added after 0003 (the long-life electrolytics, 0004) never had an old code
-    codes = [row["code"] for row in builtin_rows() if not row["code"].startswith("elcap.105clong")]
+    # families added after 0003 never had an old code: the long-life electrolytics (0004) and
+    # the varistors (kind added with 0006)
+    codes = [
+        row["code"]
+        for row in builtin_rows()
+        if not row["code"].startswith("elcap.105clong") and row["kind"] != "varistor"
+    ]
     olds = [mig.old_code(c) for c in codes]
     assert None not in olds
     assert len(set(olds)) == len(codes)  # the old codes are unique too
@@ -201,11 +206,12 @@ def test_builtin_codes_are_renamed_up_and_back_down(empty_db_url):
     from selector.catalogue.build import builtin_rows
 
     mig = _codes_migration()
-    # the rows as they stood at 0002/0003: no long-life family, no rated-life column (0004)
+    # the rows as they stood at 0002/0003: no long-life family, no varistors, no columns of
+    # 0004 (rated life) or 0006 (clamp current)
     built = [
-        {k: v for k, v in row.items() if k != "rated_life_h"}
+        {k: v for k, v in row.items() if k not in ("rated_life_h", "clamp_current_a")}
         for row in builtin_rows()
-        if not row["code"].startswith("elcap.105clong")
+        if not row["code"].startswith("elcap.105clong") and row["kind"] != "varistor"
     ]
     new_codes = sorted(row["code"] for row in built)
     engine = make_engine(empty_db_url)
@@ -232,5 +238,19 @@ def test_builtin_codes_are_renamed_up_and_back_down(empty_db_url):
         downgrade(engine, "0002")
         assert codes(True) == old_codes
         assert codes(False) == sorted(p["code"] for p in imported)
+    finally:
+        engine.dispose()
+
+
+def test_0006_adds_and_removes_the_varistor_clamp_current(tmp_path: Path):
+    # the varistor's clamping-current column (migration 0006) goes up and down with the schema
+    engine = make_engine(f"sqlite:///{tmp_path / 'mov.sqlite'}")
+    try:
+        migrate(engine, "0006")
+        cols = {c["name"] for c in inspect(engine).get_columns("parts")}
+        assert "clamp_current_a" in cols
+        downgrade(engine, "0003")
+        cols = {c["name"] for c in inspect(engine).get_columns("parts")}
+        assert "clamp_current_a" not in cols
     finally:
         engine.dispose()

@@ -89,6 +89,7 @@ KIND_WORDS: Final[dict[str, str]] = {
     "zener": "zener",
     "electrolytic": "elcap",
     "fuse": "fuse",
+    "varistor": "mov",
 }
 _WORD_RE: Final = re.compile(r"[a-z0-9]+")
 _VALUE_RE: Final = re.compile(r"[A-Za-z0-9]+")
@@ -495,6 +496,55 @@ def _expand_fuse(ctx: Context, fam: Family) -> list[dict]:
     return rows
 
 
+def _expand_varistor(ctx: Context, fam: Family) -> list[dict]:
+    """One row per entry of ``ratings``: [continuous V ac, V at 1 mA, clamping V, energy J,
+    peak A] (all at the family's disc size and clamping current)."""
+    e = Entry(fam.file, fam.row, fam.data, fam.name)
+    e.check_keys(
+        _COMMON_KEYS | {"package", "disc_mm", "l_mm", "w_mm", "clamp_a", "ratings", "price"}
+    )
+    title, mount = e.text("title"), e.text("mount")
+    code = _code_prefix(e, fam.kind)
+    ratings = e.raw("ratings")
+    if not isinstance(ratings, list) or not ratings:
+        raise e.fail("ratings", "must be a non-empty list of [Vac, V1mA, Vclamp, J, A] rows")
+    clamp_a = e.number("clamp_a")
+    disc = e.number("disc_mm")
+    area = _area(ctx, mount, e.number("l_mm"), e.number("w_mm"))
+    rows = []
+    for i, item in enumerate(ratings, start=1):
+        if not (
+            isinstance(item, list)
+            and len(item) == 5
+            and all(isinstance(x, (int, float)) and x > 0 for x in item)
+        ):
+            raise e.fail(f"ratings[{i}]", f"{item!r}: need [Vac, V1mA, Vclamp, J, A], all > 0")
+        vac, v1, vc, joule, ipk = (float(x) for x in item)
+        if not vc > v1 > math.sqrt(2) * vac:
+            raise e.fail(f"ratings[{i}]", f"{item!r}: need Vclamp > V1mA > crest of Vac")
+        rows.append(
+            _row(
+                ctx,
+                fam,
+                e,
+                code=_code(e, code, f"{disc:g}mm", f"{vac:g}vac"),
+                description=f"{title}, {vac:g} VAC, {v1:g} V at 1 mA, {vc:g} V at "
+                f"{format_value(clamp_a, 'A')}, {joule:g} J",
+                value=v1,
+                package=e.text("package"),
+                body_mm=f"{e.number('l_mm'):g}x{e.number('w_mm'):g}",
+                area_mm2=area,
+                unit_price=e.number("price"),
+                rated_voltage_ac_v=vac,
+                limiting_voltage_v=vc,
+                clamp_current_a=clamp_a,
+                pulse_energy_j=joule,
+                ifsm_a=ipk,
+            )
+        )
+    return rows
+
+
 #: the expander of each kind (``models.KINDS``)
 EXPANDERS: Final[dict[str, Callable[[Context, Family], list[dict]]]] = {
     "x_capacitor": _expand_film,
@@ -505,4 +555,5 @@ EXPANDERS: Final[dict[str, Callable[[Context, Family], list[dict]]]] = {
     "zener": _expand_zener,
     "electrolytic": _expand_electrolytic,
     "fuse": _expand_fuse,
+    "varistor": _expand_varistor,
 }

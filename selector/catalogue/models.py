@@ -18,6 +18,9 @@ Column meanings (units in the name where the value has one; plain names are SI):
   ``impulse_test_v``: its impulse test voltage (reduced as Up/sqrt(C/1 uF) above 1 uF).
 * ``vf_v`` + ``rs_ohm``: piecewise-linear forward model (knee + slope) of diodes, bridges
   (per diode) and Zeners (forward direction); ``zz_ohm`` Zener dynamic impedance.
+* varistors: ``value`` the varistor voltage at 1 mA dc, ``limiting_voltage_v`` the clamping
+  voltage at ``clamp_current_a`` (8/20 us), ``rated_voltage_ac_v`` the maximum continuous rms,
+  ``pulse_energy_j`` the energy rating, ``ifsm_a`` the 8/20 us single-pulse peak current.
 * ``unit_price`` / ``area_mm2``: for built-in rows a demo model, invented (``price_note`` says so).
 * ``source``: ``'builtin'`` for the open catalogue, ``'import:<supplier>'`` for imported rows.
 """
@@ -63,6 +66,7 @@ KINDS: Final[tuple[str, ...]] = (
     "zener",
     "electrolytic",
     "fuse",
+    "varistor",
 )
 
 
@@ -137,6 +141,8 @@ class Part(Base):
     body_mm: Mapped[str | None] = mapped_column(String(40))
     # added by migration 0004: electrolytic rated life [h] at temp_max_c
     rated_life_h: Mapped[float | None] = mapped_column(Float)
+    # added by migration 0006
+    clamp_current_a: Mapped[float | None] = mapped_column(Float)
 
     __table_args__ = (Index("ix_parts_kind_value", "kind", "value"),)
 

@@ -51,6 +51,8 @@ _KIND_WORDS: Final[dict[str, tuple[str, ...]]] = {
     "bridge": ("bridge",),
     "fuse": ("fuse",),
     "fuses": ("fuse",),
+    "varistors": ("varistor",),
+    "mov": ("varistor",),
     "electrolytic": ("electrolytic",),
     "elko": ("electrolytic",),
     "elco": ("electrolytic",),

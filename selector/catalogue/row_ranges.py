@@ -66,6 +66,7 @@ VALUE_UNITS: Final[dict[str, str]] = {
     "zener": "V",
     "electrolytic": "F",
     "fuse": "A",
+    "varistor": "V",
 }
 
 

@@ -41,6 +41,7 @@ from ..units import (
 
 __all__ = [
     "AmbientOpt",
+    "VaristorOpt",
     "BleederOpt",
     "BurstOpt",
     "BurstPeriodOpt",
@@ -207,6 +208,14 @@ ProductClassOpt = Annotated[
 ]
 JsonOpt = Annotated[bool, typer.Option("--json", help="Print one JSON document.")]
 DbOpt = Annotated[str | None, typer.Option("--db", help="Catalogue database URL or file.")]
+VaristorOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--varistor",
+        help="A varistor across the line ahead of the dropper, from the catalogue: its code, "
+        "its voltage at 1 mA (430) or its continuous rating (275VAC); the surge clamps with it.",
+    ),
+]
 
 
 def option_value(text: str, quantity: str | None, what: str) -> float:

@@ -46,6 +46,7 @@ from ._circuit import (
     SurgeOpt,
     SwitchOnsOpt,
     TopologyOpt,
+    VaristorOpt,
     VoutMaxOpt,
     ZenerOpt,
     ZenerTolOpt,
@@ -102,6 +103,7 @@ def check(
     vout_max: VoutMaxOpt = None,
     standby_limit: StandbyLimitOpt = None,
     product_class: ProductClassOpt = None,
+    varistor: VaristorOpt = None,
     json: JsonOpt = False,
     db: DbOpt = None,
     report: Annotated[
@@ -109,8 +111,7 @@ def check(
     ] = None,
 ) -> None:
     """Worst-case stresses, margins and transients of given values (exit 1: load not met at
-    some corner, or the discharge rule fails)."""
-    del db  # accepted for uniformity with the other commands; check needs no catalogue
+    some corner, or the discharge rule fails, or a rule of the --varistor part fails)."""
     circuit = circuit_from_options(
         cap,
         topology=topology,
@@ -127,6 +128,16 @@ def check(
         quiescent=quiescent,
         reservoir_esr=reservoir_esr,
     )
+    mov_row = None
+    if varistor is not None:
+        # the only part check takes from the catalogue (db: --db, else the default)
+        import dataclasses
+
+        from ..catalogue import catalogue_frame, resolve_url
+        from ..catalogue.varistors import find_varistor, varistor_from_row
+
+        mov_row = find_varistor(catalogue_frame(resolve_url(db)), varistor)
+        circuit = dataclasses.replace(circuit, varistor=varistor_from_row(mov_row))
     from ..engine import analyse
     from ..engine.distortion import mains_record
 
@@ -154,6 +165,8 @@ def check(
         },
     )
     life_doc = life_record(life_stresses)
+    mov_doc = None if mov_row is None else varistor_section(result, circuit, mov_row, supply)
+    ok = ok and (mov_doc is None or mov_doc["ok"])
     doc = {
         "topology": result.topology,
         "ambient_c": result.ambient_c,
@@ -171,6 +184,7 @@ def check(
         "discharge": result.discharge,
         "startup": result.startup,
         "holdup": result.holdup,
+        "varistor": mov_doc,
         "cautions": list(CAUTIONS),
     }
     if report is not None:
@@ -194,10 +208,60 @@ def check(
             + standby["note"]
             + (f" ({standby['source']})" if standby["source"] else "")
         )
+        if mov_doc is not None:
+            typer.echo(render_varistor(mov_doc))
         typer.echo(describe_mains(doc["mains"]))
         echo_cautions()
     if not ok:
         raise typer.Exit(EXIT_FINDINGS)
+
+
+def varistor_section(result: Analysis, circuit, row: dict, supply) -> dict:
+    """The --varistor part: its clamp model, its ratings and the varistor rules (the same
+    rule table as design and audit, ``selector.rules`` role ``varistor``)."""
+    from ..rules import evaluate, rated_part_from_row
+
+    mov = circuit.varistor
+    part = rated_part_from_row(row, "varistor")
+    findings = [
+        f
+        for f in evaluate({"varistor": part}, result, context={"mains_max_v": supply.high_v})
+        if f.part == "varistor"
+    ]
+    return {
+        "code": mov.code,
+        "description": row.get("description"),
+        "varistor_voltage_v": mov.v_1ma_v,
+        "clamp_voltage_v": mov.clamp_v,
+        "clamp_current_a": mov.clamp_a,
+        "alpha": mov.alpha,
+        "continuous_ac_v": mov.continuous_ac_v,
+        "energy_rating_j": mov.energy_j,
+        "peak_current_rating_a": mov.peak_current_a,
+        "model": "I = 1 mA (V / V1mA)^alpha through V1mA and the clamping point (power law [M])",
+        "findings": findings,
+        "ok": all(f.severity != "fail" for f in findings),
+    }
+
+
+def render_varistor(doc: dict) -> str:
+    """The --varistor part and its rules, one line each."""
+    lines = [
+        "",
+        f"Varistor across the line: {doc['code']} ({_f(doc['varistor_voltage_v'], 'V')} at 1 mA, "
+        f"{_f(doc['clamp_voltage_v'], 'V')} at {_f(doc['clamp_current_a'], 'A')}, "
+        f"alpha {doc['alpha']:.1f})",
+    ]
+    for f in doc["findings"]:
+        if f.stress is None:
+            lines.append(f"  {f.rule:<28} WARN  {f.note}")
+            continue
+        verdict = "ok  " if f.ok else "FAIL"
+        lines.append(
+            f"  {f.rule:<28} {verdict}  {_f(f.stress, f.unit)} against {_f(f.limit, f.unit)}"
+            + (f"  ({f.corner})" if f.corner else "")
+        )
+    return "\n".join(lines)
 
 
 def _f(value: float | None, unit: str) -> str:
@@ -237,6 +301,17 @@ def _surge_rows(s) -> list[tuple[str, str, str, str]]:
         ("Surge fuse I²t", "", f"{s.fuse_i2t_a2s:.3g} A²s", "fuse_i2t_a2s"),
         ("Surge bus peak", "", _f(s.bus_peak_v, "V"), "bus_peak_v"),
     ]
+    if s.varistor_peak_current_a is not None:
+        out += [
+            ("Surge line peak (varistor)", "", _f(s.line_peak_v, "V"), "line_peak_v"),
+            (
+                "Surge varistor peak",
+                "",
+                _f(s.varistor_peak_current_a, "A"),
+                "varistor_peak_current_a",
+            ),
+            ("Surge varistor energy", "", _f(s.varistor_energy_j, "J"), "varistor_energy_j"),
+        ]
     rows = [(a, b, v, _surge_corner(c[key])) for a, b, v, key in out]
     rows.append(
         (

@@ -130,6 +130,14 @@ def _ratings(p: dict[str, Any]) -> str:
     if kind == "fuse":
         i2t = f", I²t {p['i2t_a2s']:.3g} A²s" if p["i2t_a2s"] else ""
         return f"{p['rated_voltage_ac_v'] or 0:g} VAC{i2t}"
+    if kind == "varistor":
+        clamp = ""
+        if p["limiting_voltage_v"] and p["clamp_current_a"]:
+            clamp = f", {p['limiting_voltage_v']:g} V at {format_value(p['clamp_current_a'], 'A')}"
+        return (
+            f"{p['rated_voltage_ac_v'] or 0:g} VAC{clamp}, {p['pulse_energy_j'] or 0:g} J, "
+            f"{p['ifsm_a'] or 0:g} A"
+        )
     return ""
 
 

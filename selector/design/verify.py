@@ -197,7 +197,7 @@ def surge_precheck_rules() -> tuple[R.Rule, ...]:
     return tuple(
         r
         for r in R.RULES
-        if r.role not in ("fuse", "whole")
+        if r.role not in ("fuse", "whole", "varistor")
         and r.stress_keys
         and all(k.startswith("surge_") and k != "surge_level_v" for k in r.stress_keys)
     )

@@ -267,7 +267,12 @@ def surge_through_circuit(
         zener_slope_ohm=zener_surge_slope(circuit),
         corners=where,
         method="IEC 61000-4-5 generator circuit in series with the mains, whole circuit, "
-        "all corners x 8 phases x both polarities",
+        "all corners x 8 phases x both polarities"
+        + (", varistor across the line" if circuit.varistor is not None else ""),
+        varistor_peak_current_a=vals.get("varistor_peak_current_a"),
+        varistor_energy_j=vals.get("varistor_energy_j"),
+        line_peak_v=vals.get("line_peak_v"),
+        varistor_code=(circuit.varistor.code or None) if circuit.varistor is not None else None,
     )
 
 

@@ -18,6 +18,7 @@ import math
 from dataclasses import dataclass, field, replace
 
 from ..errors import OutOfRangeError
+from .varistor import Varistor
 
 __all__ = [
     "DEFAULT_RESERVOIR_ESR_OHM",
@@ -258,6 +259,9 @@ class Circuit:
     reservoir_esr_ohm: float = DEFAULT_RESERVOIR_ESR_OHM
     pulse_diode_drop_v: float | None = None
     pulse_diode_resistance_ohm: float | None = None
+    #: a varistor across the line ahead of the dropper (:class:`.varistor.Varistor`): only the
+    #: surge sees it (below its 1 mA voltage it is open, microamperes at the mains crest)
+    varistor: Varistor | None = None
 
     def __post_init__(self) -> None:
         _need(

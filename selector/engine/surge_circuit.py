@@ -43,6 +43,7 @@ __all__ = [
     "SURGE_STRESSES",
     "SURGE_WINDOW_S",
     "UNDERSHOOT_TARGET",
+    "VARISTOR_STRESSES",
     "ExpDiode",
     "Generator",
     "SurgeCase",
@@ -117,6 +118,9 @@ SURGE_STRESSES = (
     "fuse_i2t_a2s",
     "bus_peak_v",
 )
+
+#: stresses :func:`worst_surge` adds for a circuit with a varistor (SurgeRun field = JSON key)
+VARISTOR_STRESSES = ("varistor_peak_current_a", "varistor_energy_j", "line_peak_v")
 
 
 #: largest w R C for which :func:`pre_states_clamped` is used (its error is then < 1 V)
@@ -238,11 +242,13 @@ def surge_case(circuit, k, phases_deg=SURGE_PHASES_DEG, exact_pre_state=False) -
         phases_deg=tuple(phases_deg),
         v_x0=tuple(vx),
         v_o0=tuple(vo),
+        varistor=circuit.varistor,
     )
 
 
 def worst_surge(circuit, grid, level_v: float, phases_deg=SURGE_PHASES_DEG):
-    """Every stress of :data:`SURGE_STRESSES` at its own worst (corner, phase, polarity).
+    """Every stress of :data:`SURGE_STRESSES` (and :data:`VARISTOR_STRESSES` when the circuit
+    has a varistor) at its own worst (corner, phase, polarity).
 
     ``grid`` is the list of corners (:func:`.analysis.corners`); all corners x phases x both
     polarities are simulated in one batch and the largest value of each stress is taken, so no
@@ -273,7 +279,10 @@ def worst_surge_many(jobs, level_v: float, phases_deg=SURGE_PHASES_DEG):
             circuit = jobs[j][0]
             rows = np.flatnonzero(job_of_run == j)
             values, where = {}, {}
-            for name in SURGE_STRESSES:
+            names = SURGE_STRESSES
+            if circuit.varistor is not None:
+                names = SURGE_STRESSES + VARISTOR_STRESSES
+            for name in names:
                 arr = getattr(run, name)[rows]
                 r = int(rows[int(np.argmax(arr))])
                 values[name] = float(getattr(run, name)[r])

@@ -41,6 +41,7 @@ import numpy as np
 
 from ..errors import OutOfRangeError
 from .surge_generator import GENERATOR, OPEN_CIRCUIT_PEAK_PER_VOLT
+from .varistor import VARISTOR_SEGMENTS, Varistor
 
 __all__ = [
     "SURGE_WINDOW_S",
@@ -77,6 +78,8 @@ class SurgeCase:
     phases_deg: tuple[float, ...]
     v_x0: tuple[float, ...]
     v_o0: tuple[float, ...]
+    #: a varistor across the line ahead of the dropper (:class:`.varistor.Varistor`), or None
+    varistor: Varistor | None = None
 
 
 @dataclass
@@ -102,6 +105,11 @@ class SurgeRun:
     fuse_i2t_a2s: np.ndarray
     bus_peak_v: np.ndarray
     steps: int
+    #: the varistor's peak current [A] and energy [J] (zeros without one) and the line's peak
+    #: voltage at its terminals [V]
+    varistor_peak_current_a: np.ndarray | None = None
+    varistor_energy_j: np.ndarray | None = None
+    line_peak_v: np.ndarray | None = None
 
 
 _MIN_R = 1e-3  # floor for zero resistances [ohm], as in the steady-state solver
@@ -114,8 +122,11 @@ _N = 7
 _MODES = [(a, b) for a in (-1, 0, 1) for b in (0, 1)]
 _MODE_ID = {m: k for k, m in enumerate(_MODES)}
 # outputs: line current, bus voltage, Zener current, Zener voltage, rectifier path current
-# (bridge: signed line current; half-wave: diode), X-capacitor current
-_OUT = ("i", "v_o", "i_z", "v_z", "i_rect", "i_cx")
+# (bridge: signed line current; half-wave: diode), X-capacitor current, varistor current,
+# line voltage (at the varistor, ahead of the series resistor)
+_OUT = ("i", "v_o", "i_z", "v_z", "i_rect", "i_cx", "i_m", "v_line")
+#: guard slots per mode: up to 3 of the dropper's devices and 2 of the varistor's chord
+_GUARDS = 6
 
 
 def _step_schedule(window_s: float, refine: int = 1) -> list[tuple[float, int]]:
@@ -150,20 +161,28 @@ def _expm_batch(a: np.ndarray) -> np.ndarray:
     return out
 
 
-def _mode_matrices(p: dict[str, np.ndarray], topology: str):
-    """State matrix A (B, M, n, n), output rows (B, M, n_out, n), guard rows (B, M, 4, n) and
-    guard targets (M, 4) for every batch element and mode (4 guard slots; unused rows +1)."""
+def _mode_matrices(p: dict[str, np.ndarray], topology: str, n_seg: int = 0):
+    """State matrix A (B, M, n, n), output rows (B, M, n_out, n), guard rows (B, M, G, n) and
+    guard targets (M, G) for every batch element and mode (:data:`_GUARDS` slots; unused rows
+    +1). A mode is a device mode of the dropper (:data:`_MODES`) and a chord of the varistor
+    (``-n_seg..n_seg``, 0: open; ``n_seg`` = 0 when no case has a varistor): mode id
+    ``dm (2 n_seg + 1) + (chord + n_seg)``.
+
+    The varistor sits across the line (the generator's output in series with the mains); on
+    chord ``j`` it is ``i_m = G_j (v_line - E_j)``, so the source seen by the dropper is the
+    generator's Thevenin (``u + Rs2 i_L``, ``Rs2``) loaded by it: ``V_th = (u + Rs2 i_L + Rs2
+    G E) / (1 + Rs2 G)``, ``R_th = Rs2 / (1 + Rs2 G)``, and the inductor sees ``v_line - u``."""
     bsz = p["r"].shape[0]
-    nm = len(_MODES)
+    n_chords = 2 * n_seg + 1
+    nm = len(_MODES) * n_chords
     a_all = np.zeros((bsz, nm, _N, _N))
     out_all = np.zeros((bsz, nm, len(_OUT), _N))
-    g_all = np.zeros((bsz, nm, 4, _N))
+    g_all = np.zeros((bsz, nm, _GUARDS, _N))
     g_all[..., _ONE] = 1.0
-    target = np.tile(np.arange(nm)[:, None], (1, 4))
+    target = np.tile(np.arange(nm)[:, None], (1, _GUARDS))
     gen = GENERATOR
     w = p["omega"]
     vpk = p["vpk"]
-    rloop = gen.rs2_ohm + p["r"]  # generator output resistance + series R
 
     def unit(k: int) -> np.ndarray:
         e = np.zeros((bsz, _N))
@@ -171,9 +190,28 @@ def _mode_matrices(p: dict[str, np.ndarray], topology: str):
         return e
 
     x_vx, x_vr, x_one = unit(_VX), unit(_VR), unit(_ONE)
-    # open-circuit drive of the loop: u + Rs2 i_L - v_x  (forms over the state, (B, n))
-    drive = vpk[:, None] * unit(_S) + gen.rs2_ohm * unit(_IL) - x_vx
-    for mid, (m0, m1) in enumerate(_MODES):
+    # the generator's open-circuit output in series with the mains: u + Rs2 i_L (forms, (B, n))
+    v_open = vpk[:, None] * unit(_S) + gen.rs2_ohm * unit(_IL)
+    u_form = vpk[:, None] * unit(_S)
+    mov_v = p.get("mov_v")  # (B, n_seg + 1) chord ends [V]; currents p["mov_i"]
+    for mid in range(nm):
+        dm, chord = divmod(mid, n_chords)
+        chord -= n_seg
+        m0, m1 = _MODES[dm]
+        if chord == 0:
+            g_m = np.zeros(bsz)
+            e_m = np.zeros(bsz)
+        else:
+            jj = abs(chord)
+            v_lo, v_hi = mov_v[:, jj - 1], mov_v[:, jj]
+            i_lo, i_hi = p["mov_i"][:, jj - 1], p["mov_i"][:, jj]
+            g_m = (i_hi - i_lo) / (v_hi - v_lo)
+            e_m = np.sign(chord) * (v_lo - i_lo / g_m)
+        den_m = 1.0 + gen.rs2_ohm * g_m
+        v_th = (v_open + (gen.rs2_ohm * g_m * e_m)[:, None] * x_one) / den_m[:, None]
+        # open-circuit drive of the loop: V_th - v_x; loop resistance R_th + series R
+        drive = v_th - x_vx
+        rloop = gen.rs2_ohm / den_m + p["r"]
         if topology == "bridge":
             sb, z = m0, m1
             gz = (z / p["zz"]) if z else np.zeros(bsz)
@@ -263,23 +301,36 @@ def _mode_matrices(p: dict[str, np.ndarray], topology: str):
                 guards.append((i_d, (z, 0)))
             else:
                 guards.append((v_o + p["vf"][:, None] * x_one - v_a, (z, 1)))
+        v_line = v_th - (gen.rs2_ohm / den_m)[:, None] * i
+        i_m = g_m[:, None] * (v_line - e_m[:, None] * x_one)
+        mov_guards = []
+        if chord >= 0 and chord < n_seg:
+            mov_guards.append((mov_v[:, chord][:, None] * x_one - v_line, chord + 1))
+        if chord <= 0 and chord > -n_seg:
+            mov_guards.append((v_line + mov_v[:, -chord][:, None] * x_one, chord - 1))
+        if chord > 0:
+            mov_guards.append((v_line - mov_v[:, chord - 1][:, None] * x_one, chord - 1))
+        if chord < 0:
+            mov_guards.append((-mov_v[:, -chord - 1][:, None] * x_one - v_line, chord + 1))
         a = np.zeros((bsz, _N, _N))
         a[:, _VCC, _VCC] = -1.0 / (gen.rs1_ohm * gen.cc_f)
         a[:, _VCC, _IL] = -1.0 / gen.cc_f
-        # L di/dt = v_cc - Rm i_L - Rs2 (i_L - i)
-        a[:, _IL, :] = (gen.rs2_ohm * i) / gen.lr_h
+        # L di/dt = v_cc - Rm i_L - (v_line - u)   (no varistor: v_line - u = Rs2 (i_L - i))
+        a[:, _IL, :] = -(v_line - u_form) / gen.lr_h
         a[:, _IL, _VCC] += 1.0 / gen.lr_h
-        a[:, _IL, _IL] += -(gen.rm_ohm + gen.rs2_ohm) / gen.lr_h
+        a[:, _IL, _IL] += -gen.rm_ohm / gen.lr_h
         i_cx = i - x_vx / p["rb"][:, None]
         a[:, _VX, :] = i_cx / p["cap"][:, None]
         a[:, _VR, :] = i_res / p["cres"][:, None]
         a[:, _S, _C] = w
         a[:, _C, _S] = -w
         a_all[:, mid] = a
-        out_all[:, mid] = np.stack([i, v_o, i_z, v_z, i_rect, i_cx], axis=1)
-        for j, (row, tgt) in enumerate(guards):
+        out_all[:, mid] = np.stack([i, v_o, i_z, v_z, i_rect, i_cx, i_m, v_line], axis=1)
+        slots = [(row, _MODE_ID[tgt] * n_chords + chord + n_seg) for row, tgt in guards]
+        slots += [(row, dm * n_chords + c + n_seg) for row, c in mov_guards]
+        for j, (row, tgt) in enumerate(slots):
             g_all[:, mid, j] = row
-            target[mid, j] = _MODE_ID[tgt]
+            target[mid, j] = tgt
     return a_all, out_all, g_all, target
 
 
@@ -333,10 +384,12 @@ def simulate(
             "esr": c("esr_ohm"),
             "load_a": c("load_a"),
             "load_g": c("load_g"),
+            **_varistor_params([cs[k] for k in (case_idx if per_run else range(len(cs)))], n_seg),
         }
 
+    n_seg = VARISTOR_SEGMENTS if any(c.varistor is not None for c in cs) else 0
     # the mode matrices depend on the case only (not on the phase or polarity)
-    a_all, out_all, g_all, target = _mode_matrices(params(False), top)
+    a_all, out_all, g_all, target = _mode_matrices(params(False), top, n_seg)
     p = params(True)
     phase = np.radians(pick([r[1] for r in rows], float))
     pol = pick([r[2] for r in rows], float)
@@ -347,9 +400,11 @@ def simulate(
     x[:, _S] = np.sin(phase)
     x[:, _C] = np.cos(phase)
     x[:, _ONE] = 1.0
-    mode = np.full(bsz, _MODE_ID[(0, 0)])
+    mode = np.full(bsz, _MODE_ID[(0, 0)] * (2 * n_seg + 1) + n_seg)
     ci = case_idx
-    mode = _settle(mode, x, g_all, target, ci)
+    # a step may cross several varistor chords on the fast front: one switch per iteration
+    n_iter = 4 + 2 * n_seg
+    mode = _settle(mode, x, g_all, target, ci, 6 + 2 * n_seg)
     schedule = _step_schedule(window_s, refine)
     n_steps = sum(n for _, n in schedule)
     x_hist = np.empty((n_steps + 1, bsz, _N))
@@ -366,7 +421,7 @@ def simulate(
             y = np.einsum("bij,bj->bi", step_all[ci, mode], x)
             x_new = y[:, :_N]
             g = y[:, _N:]
-            for _it in range(4):
+            for _it in range(n_iter):
                 bad_any = (g < 0.0).any(axis=1)
                 if not bad_any.any():
                     break
@@ -383,7 +438,7 @@ def simulate(
             m_hist[k] = mode
     # outputs of every step at once, each in the mode valid at its end
     outs = np.empty((n_steps + 1, bsz, len(_OUT)))
-    for m in range(len(_MODES)):
+    for m in range(a_all.shape[1]):
         sel = m_hist == m
         if sel.any():
             cols = np.broadcast_to(ci, m_hist.shape)[sel]
@@ -393,9 +448,25 @@ def simulate(
     return _stresses(outs, vx_hist, weights, p, case_idx, np.degrees(phase), pol, top, n_steps)
 
 
-def _settle(mode, x, g_all, target, ci):
-    """Switch devices at t = 0 until every guard holds (at most 6 switches)."""
-    for _ in range(6):
+def _varistor_params(cases: list[SurgeCase], n_seg: int) -> dict[str, np.ndarray]:
+    """The chord ends (``mov_v`` [V], ``mov_i`` [A], (B, n_seg + 1)) of each case's varistor;
+    a case without one gets chords far above any surge (it stays open)."""
+    if n_seg == 0:
+        return {}
+    mv = np.empty((len(cases), n_seg + 1))
+    mi = np.empty((len(cases), n_seg + 1))
+    for k, c in enumerate(cases):
+        if c.varistor is None:
+            mv[k] = 1e12 * (1.0 + np.arange(n_seg + 1))
+            mi[k] = 1e-3 * 2.0 ** np.arange(n_seg + 1)
+        else:
+            mv[k], mi[k] = c.varistor.breakpoints(n_seg)
+    return {"mov_v": mv, "mov_i": mi}
+
+
+def _settle(mode, x, g_all, target, ci, n_switch=6):
+    """Switch devices at t = 0 until every guard holds (at most ``n_switch`` switches)."""
+    for _ in range(n_switch):
         g = np.einsum("bgn,bn->bg", g_all[ci, mode], x)
         bad = g < 0.0
         rows_bad = np.flatnonzero(bad.any(axis=1))
@@ -447,6 +518,8 @@ def _stresses(outs, vx, w, p, case_idx, phase_deg, pol, top, n_steps) -> SurgeRu
         rect_pk = np.maximum(np.max(ird, axis=0), np.max(fwd, axis=0))
         rect_i2t = np.maximum(_trap(ird * ird, w), _trap(fwd * fwd, w))
     iz_b = np.maximum(i_z, 0.0)
+    i_m = outs[:, :, 6]
+    v_line = outs[:, :, 7]
     return SurgeRun(
         case=case_idx,
         phase_deg=phase_deg,
@@ -465,4 +538,7 @@ def _stresses(outs, vx, w, p, case_idx, phase_deg, pol, top, n_steps) -> SurgeRu
         fuse_i2t_a2s=i2,
         bus_peak_v=np.max(v_o, axis=0),
         steps=n_steps,
+        varistor_peak_current_a=np.max(np.abs(i_m), axis=0),
+        varistor_energy_j=_trap(v_line * i_m, w),
+        line_peak_v=np.max(np.abs(v_line), axis=0),
     )

@@ -93,6 +93,12 @@ class Surge:
     zener_slope_ohm: float | None = None
     corners: dict | None = None
     method: str = "series loop 2 ohm + R + C, bus shorted"
+    #: with a varistor across the line (``Circuit.varistor``): its peak current [A], its
+    #: energy [J], the line's peak voltage at its terminals [V] and its catalogue code
+    varistor_peak_current_a: float | None = None
+    varistor_energy_j: float | None = None
+    line_peak_v: float | None = None
+    varistor_code: str | None = None
 
 
 @dataclass

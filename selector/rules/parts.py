@@ -23,6 +23,7 @@ ROLES: Final[tuple[str, ...]] = (
     "zener",
     "reservoir",
     "fuse",
+    "varistor",
     "whole",
 )
 ARRANGEMENTS: Final[tuple[str, ...]] = ("single", "series", "parallel")
@@ -79,6 +80,8 @@ class RatedPart:
     #: when a catalogue row or BOM has it; else the generic figure ``ZENER_GENERIC_PULSE``)
     zener_pulse_power_w: float | None = None
     zener_pulse_width_s: float | None = None
+    #: varistor: the current [A] at which its clamping voltage (``limiting_voltage_v``) holds
+    clamp_current_a: float | None = None
 
     def __post_init__(self) -> None:
         if self.role not in ROLES:

@@ -56,6 +56,11 @@ from .semiconductors import (
     zener_power_vs_derated_rating,
     zener_surge_power_vs_pulse_rating,
 )
+from .varistor import (
+    mains_rms_vs_continuous_voltage,
+    surge_current_vs_peak_rating,
+    surge_energy_vs_rating,
+)
 from .whole import (
     burst_droop_vs_bus_fraction,
     highest_output_vs_vout_max,
@@ -388,6 +393,24 @@ RULES: Final[tuple[Rule, ...]] = (
          "W", rated_power_vs_fault_power,
          ratings=("power_w",), stress_keys=("mains_min_v", "series_resistance_ohm"),
          applies=fusible_resistor, waiver=shorted_x_cap_exempt),
+    # --- varistor across the line (varistor.py) ---------------------------------------------
+    Rule("varistor.continuous_voltage", "varistor",
+         "highest mains rms <= the varistor's maximum continuous AC voltage",
+         SOURCE_P,
+         "V", mains_rms_vs_continuous_voltage,
+         ratings=("rated_voltage_ac_v",), stress_keys=("mains_max_v",)),
+    Rule("varistor.surge_energy", "varistor",
+         "the varistor's surge energy (worst corner and phase) <= its energy rating",
+         SOURCE_P + "; " + _SURGE_SOURCE + "; varistor power law I = k V^alpha [M]",
+         "J", surge_energy_vs_rating,
+         ratings=("pulse_energy_j",), stress_keys=("surge_varistor_energy_j",),
+         applies=surge_given),
+    Rule("varistor.surge_current", "varistor",
+         "the varistor's surge peak current <= its 8/20 us single-pulse rating",
+         SOURCE_P + "; " + _SURGE_SOURCE + "; varistor power law I = k V^alpha [M]",
+         "A", surge_current_vs_peak_rating,
+         ratings=("ifsm_a",), stress_keys=("surge_varistor_peak_current_a",),
+         applies=surge_given),
     # --- whole circuit (whole.py) -----------------------------------------------------------
     Rule("whole.min_current", "whole",
          "worst-case minimum DC current >= load x (1 + policy margin)",
