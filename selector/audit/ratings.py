@@ -363,6 +363,19 @@ def read_ratings(
             volts = _voltages(description + " " + voltage)
             if volts:
                 r.value = volts[0][0]
+        if r.value is None and kind != "fuse" and value:
+            # a bare number that the ranges refuse: say why (sign, or a three-digit code)
+            try:
+                bare = float(value.strip().replace(",", "."))
+            except ValueError:
+                bare = None
+            if bare is not None and bare <= 0:
+                raise BadValueError(f"value: {value!r} is not a positive {_NAMES[quantity]}")
+            if bare is not None and quantity == "F" and bare > 0.1:
+                raise BadValueError(
+                    f"value: {value!r} reads as {bare:g} F; write it with a prefix such as 100n "
+                    "(a three-digit code like 104 is not read, to avoid a guess)"
+                )
         if r.value is None and kind != "fuse":
             shown = value or description
             raise BadValueError(

@@ -113,6 +113,19 @@ def _finding(
         )
     stress, limit, margin = rule.check(stresses, part, policy)
     stress, limit, margin = float(stress), float(limit), float(margin)
+    # Rule.check gives an infinite limit only for "no limit set" (an infinite rating comes back
+    # NaN, "cannot evaluate" below)
+    if math.isinf(limit) and math.isfinite(stress):  # a rule whose limit is optional
+        note = ""
+        limit_out, margin_out = None, None
+        if rule.id == "whole.standby_power":
+            note = standby_note(stress)
+        else:
+            note = "no limit set"
+        return Finding(
+            stress=stress, limit=limit_out, margin=margin_out, ok=True, severity="pass",
+            note=note, **common,
+        )  # fmt: skip
     if not (math.isfinite(stress) and math.isfinite(limit) and math.isfinite(margin)):
         # an infinite rating or a stress the engine could not compute: never a pass
         return Finding(
@@ -128,16 +141,6 @@ def _finding(
         )
     ok = bool(stress <= limit)
     note = ""
-    if math.isinf(limit):  # no limit set (a rule whose limit is optional)
-        limit_out, margin_out = None, None
-        if rule.id == "whole.standby_power":
-            note = standby_note(stress)
-        else:
-            note = "no limit set"
-        return Finding(
-            stress=stress, limit=limit_out, margin=margin_out, ok=True, severity="pass",
-            note=note, **common,
-        )  # fmt: skip
     if rule.id == "bleeder.discharge" and bool(stresses.get("discharge_exempt")):
         note = "exempt under the profile"
     if rule.id == "x_cap.safety_class" and part is not None:

@@ -118,14 +118,19 @@ def _unevaluable_as_nan(stress: Any, limit: Any) -> tuple[Any, Any]:
     """(limit, margin) with NaN wherever the stress or the limit is infinite (or NaN)."""
     if isinstance(stress, (int, float)) and isinstance(limit, (int, float)):
         if math.isfinite(stress) and math.isfinite(limit):
-            return limit, margin(stress, limit)
+            m = margin(stress, limit)
+            # a margin that overflows (a limit near zero) cannot be evaluated either
+            return (limit, m) if math.isfinite(m) else (math.nan, math.nan)
         return (math.nan if math.isinf(stress) or math.isinf(limit) else limit), math.nan
     stress_a = np.asarray(stress, dtype=float)
     limit_a = np.asarray(limit, dtype=float)
     infinite = np.isinf(stress_a) | np.isinf(limit_a)
     bad = infinite | np.isnan(stress_a) | np.isnan(limit_a)
     if not np.any(bad):
-        return limit, margin(stress, limit)
+        m = margin(stress, limit)
+        if np.all(np.isfinite(m)):
+            return limit, m
+        bad = infinite = ~np.isfinite(np.broadcast_to(m, np.broadcast(stress_a, limit_a).shape))
     limit_a = np.where(
         infinite, np.nan, np.broadcast_to(limit_a, np.broadcast(stress_a, limit_a).shape)
     )
