@@ -30,7 +30,9 @@ def test_cheapest_set_with_checks_and_cautions(catalogue_url):
     )  # fmt: skip
     assert r.exit_code == 0, r.output
     out = r.stdout
-    assert out.startswith("Design 1 of 1 (")
+    # the life and duty line (issue 10) comes first, then the design
+    assert out.startswith("Life: 87600 h (10 y)")
+    assert out.splitlines()[1].startswith("Design 1 of 1 (")
     assert "demo price model, invented" in out
     for role in ROLES:
         assert f"  {role} " in out
