@@ -20,6 +20,8 @@ Column meanings (units in the name where the value has one; plain names are SI):
   (per diode) and Zeners (forward direction); ``zz_ohm`` Zener dynamic impedance.
 * ``unit_price`` / ``area_mm2``: for built-in rows a demo model, invented (``price_note`` says so).
 * ``source``: ``'builtin'`` for the open catalogue, ``'import:<supplier>'`` for imported rows.
+* ``withdrawn``: an imported row the supplier's latest list no longer holds (its stock is set to
+  0; design never uses it; importing it again brings it back).
 """
 
 from __future__ import annotations
@@ -40,6 +42,7 @@ from sqlalchemy import (
     UniqueConstraint,
 )
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
+from sqlalchemy.sql.expression import false as sa_false
 
 __all__ = [
     "KINDS",
@@ -145,6 +148,8 @@ class Part(Base):
     dielectric: Mapped[str | None] = mapped_column(String(20))
     pitch_mm: Mapped[float | None] = mapped_column(Float)
     body_mm: Mapped[str | None] = mapped_column(String(40))
+    # added by migration 0005
+    withdrawn: Mapped[bool] = mapped_column(Boolean, server_default=sa_false())
 
     __table_args__ = (Index("ix_parts_kind_value", "kind", "value"),)
 

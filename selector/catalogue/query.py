@@ -27,12 +27,20 @@ from sqlalchemy import Engine, and_, false, func, or_, select
 from ..errors import BadValueError
 from ..units import parse_tolerance, parse_value
 from .db import current_revision, read_meta
+from .frame_cache import stock_selection
 from .models import KINDS, VALUE_UNITS, Part
 
 if TYPE_CHECKING:
     import pandas as pd
 
-__all__ = ["PART_COLUMNS", "catalogue_stats", "check_kind", "find_parts", "parts_frame"]
+__all__ = [
+    "PART_COLUMNS",
+    "catalogue_stats",
+    "check_kind",
+    "find_parts",
+    "parts_frame",
+    "stock_selection",
+]
 
 #: the ``parts`` columns in table order (the DataFrame of :func:`parts_frame` has exactly these)
 PART_COLUMNS: Final[tuple[str, ...]] = tuple(c.name for c in Part.__table__.columns)
@@ -330,13 +338,18 @@ def catalogue_stats(engine: Engine) -> dict[str, Any]:
 
 
 def parts_frame(
-    engine: Engine, kinds: str | list[str] | tuple[str, ...] | None = None, stock_only: bool = False
+    engine: Engine,
+    kinds: str | list[str] | tuple[str, ...] | None = None,
+    stock_only: bool = False,
+    min_stock: int | None = None,
 ) -> pd.DataFrame:
     """All parts (or those of ``kinds``) as a pandas DataFrame with every ``parts`` column.
 
     Columns: :data:`PART_COLUMNS`, in table order; numeric columns are float64 with NaN for
-    missing, ``fusible`` is bool, ``stock`` is a nullable Int64. ``stock_only`` keeps rows with
-    stock > 0 (imported stock lists). Rows are ordered by kind, value, code.
+    missing, ``fusible`` is bool, ``stock`` is a nullable Int64. ``stock_only`` keeps the rows of
+    imported lists that are not withdrawn (see :func:`stock_selection`); ``min_stock``
+    additionally drops those whose stock count is given and below it. Withdrawn rows are never
+    in the frame. Rows are ordered by kind, value, code.
     """
     import pandas as pd
 
@@ -345,8 +358,6 @@ def parts_frame(
     if kinds is not None:
         wanted = [kinds] if isinstance(kinds, str) else list(kinds)
         stmt = stmt.where(t.kind.in_([check_kind(k) for k in wanted]))
-    if stock_only:
-        stmt = stmt.where(t.stock > 0)
     stmt = stmt.order_by(t.kind, t.value, t.code)
     with engine.connect() as conn:
         result = conn.execute(stmt)
@@ -362,4 +373,4 @@ def parts_frame(
             frame[name] = frame[name].fillna(False).astype(bool)
         elif py is int:
             frame[name] = frame[name].astype("Int64")
-    return frame[list(PART_COLUMNS)]
+    return stock_selection(frame[list(PART_COLUMNS)], stock_only, min_stock)
