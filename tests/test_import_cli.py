@@ -35,13 +35,14 @@ def test_import_twice_text_output(catalogue_copy_url):
     assert "  Price 1000   ->  price at 1000+ pcs" in lines
     assert "  Remark       ->  (ignored)" in lines
     assert lines[-1] == (
-        "38 rows: 38 new, 0 updated, 0 unchanged, 0 refused; supplier 'demo' (source import:demo)."
+        "38 rows: 38 new, 0 changed, 0 unchanged, 0 refused; 0 withdrawn; "
+        "supplier 'demo' (source import:demo)."
     )
     second = invoke(
         "parts", "import", str(DEMO_XLSX), "--supplier", "demo", "--db", catalogue_copy_url
     )
     assert second.exit_code == 0
-    assert second.stdout.splitlines()[-1].startswith("38 rows: 0 new, 0 updated, 38 unchanged")
+    assert second.stdout.splitlines()[-1].startswith("38 rows: 0 new, 0 changed, 38 unchanged")
 
 
 def test_import_json(catalogue_copy_url):
@@ -84,7 +85,7 @@ def test_refused_rows_exit_2_and_partial_exit_1(catalogue_copy_url, tmp_path):
     partial = invoke("parts", "import", str(path), "--partial", "--db", catalogue_copy_url)
     assert partial.exit_code == 1
     assert partial.stdout.splitlines()[-1].startswith(
-        "3 rows: 2 new, 0 updated, 0 unchanged, 1 refused"
+        "3 rows: 2 new, 0 changed, 0 unchanged, 1 refused"
     )
 
 

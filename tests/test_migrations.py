@@ -217,7 +217,11 @@ def test_builtin_codes_are_renamed_up_and_back_down(empty_db_url):
     engine = make_engine(empty_db_url)
     try:
         migrate(engine, "0002")
-        old_rows = [dict(row, code=mig.old_code(row["code"])) for row in built]
+        # rows as a 0002 database holds them (no 0005 'withdrawn' column yet)
+        old_rows = [
+            {k: v for k, v in dict(row, code=mig.old_code(row["code"])).items() if k != "withdrawn"}
+            for row in built
+        ]
         imported = [
             _part("S:shelf:RC0603-4K7-J", source="import:shelf"),
             _part("S:shelf:res.thick.0603.4k7.5pct", source="import:shelf"),

@@ -116,6 +116,7 @@ def builtin_rows(
                     f"(also made by family {seen[code]!r})",
                 )
             seen[code] = fam.name
+            row["withdrawn"] = False  # only imported rows are ever withdrawn
             if not row.get("description"):
                 raise BadRowError(fam.file, fam.row, "title", "empty description")
         rows.extend(made)

@@ -178,11 +178,24 @@ def _cached(db_file: Path) -> pd.DataFrame | None:
     return _load(cache_path(db_file), _key(state))
 
 
-def _select(frame: pd.DataFrame, stock_only: bool) -> pd.DataFrame:
-    if not stock_only:
-        return frame
-    keep = frame["stock"].gt(0).fillna(False).to_numpy(dtype=bool)
+def stock_selection(frame: pd.DataFrame, stock_only: bool, min_stock: int | None = None):
+    """The rows design may use: every row that is not withdrawn; with ``stock_only`` only the
+    rows of imported lists (``source`` ``import:...``, with or without a stock count); with
+    ``min_stock`` (``--in-stock`` at the build quantity) only those whose stock count, where the
+    list gives one, is >= ``min_stock``. Index reset."""
+    keep = ~frame["withdrawn"].astype(bool).to_numpy()
+    if stock_only or min_stock is not None:
+        keep &= frame["source"].astype(str).str.startswith("import:").to_numpy()
+    if min_stock is not None:
+        stock = frame["stock"]
+        keep &= (stock.isna() | stock.ge(min_stock).fillna(False)).to_numpy(dtype=bool)
+    if keep.all():
+        return frame.reset_index(drop=True)
     return frame[keep].reset_index(drop=True)
+
+
+def _select(frame: pd.DataFrame, stock_only: bool, min_stock: int | None = None) -> pd.DataFrame:
+    return stock_selection(frame, stock_only, min_stock)
 
 
 def read_catalogue_frame(
@@ -190,6 +203,7 @@ def read_catalogue_frame(
     *,
     stock_only: bool = False,
     progress: Callable[[int, int], None] | None = None,
+    min_stock: int | None = None,
 ) -> FrameRead:
     """:func:`catalogue_frame`, telling whether the frame came from the cache."""
     from .row_ranges import drop_unusable_rows
@@ -199,14 +213,18 @@ def read_catalogue_frame(
     if db_file is not None:
         frame = _cached(db_file)
         if frame is not None:
-            return FrameRead(drop_unusable_rows(_select(frame, stock_only)), from_cache=True)
+            return FrameRead(
+                drop_unusable_rows(_select(frame, stock_only, min_stock)), from_cache=True
+            )
     from .db import open_catalogue
     from .query import parts_frame
 
     engine = open_catalogue(url, progress)
     try:
         if db_file is None:
-            return FrameRead(parts_frame(engine, stock_only=stock_only), from_cache=False)
+            return FrameRead(
+                parts_frame(engine, stock_only=stock_only, min_stock=min_stock), from_cache=False
+            )
         before = _db_state(db_file)
         # the cache holds the rows as stored; the range check runs on every read, so a
         # change of selector.ranges never meets a stale cache
@@ -215,7 +233,7 @@ def read_catalogue_frame(
             _store(cache_path(db_file), _key(before), frame)
     finally:
         engine.dispose()
-    return FrameRead(drop_unusable_rows(_select(frame, stock_only)), from_cache=False)
+    return FrameRead(drop_unusable_rows(_select(frame, stock_only, min_stock)), from_cache=False)
 
 
 def catalogue_frame(
@@ -223,6 +241,7 @@ def catalogue_frame(
     *,
     stock_only: bool = False,
     progress: Callable[[int, int], None] | None = None,
+    min_stock: int | None = None,
 ) -> pd.DataFrame:
     """``parts_frame(open_catalogue(url), stock_only=stock_only)``, served from the disk cache
     beside a SQLite file when the database has not changed since the cache was written.
@@ -230,6 +249,9 @@ def catalogue_frame(
     ``url``: as for :func:`~selector.catalogue.paths.resolve_url` (None: ``$DROPPER_DB`` or the
     user's file). ``progress`` is handed to ``open_catalogue`` (a first-use build). The frame is
     equal (``pandas.testing.assert_frame_equal``) to the one read from the database.
-    Raises CatalogueError as ``open_catalogue`` does.
+    ``stock_only`` / ``min_stock``: see :func:`~selector.catalogue.query.stock_selection`
+    (withdrawn rows are never in the frame). Raises CatalogueError as ``open_catalogue`` does.
     """
-    return read_catalogue_frame(url, stock_only=stock_only, progress=progress).frame
+    return read_catalogue_frame(
+        url, stock_only=stock_only, progress=progress, min_stock=min_stock
+    ).frame

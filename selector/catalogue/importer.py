@@ -22,8 +22,11 @@ What happens, in order:
    rows are). All rows go in ONE transaction: an error or a killed process leaves the
    catalogue as it was. Each part's key is stable: ``code`` is derived from the supplier and
    the supplier's part code, so importing the same list again updates rows in place; rows that
-   did not change are not written at all. Writes are upserts (``INSERT .. ON CONFLICT``), so
-   two imports running at once on PostgreSQL do not lose rows.
+   did not change are not written at all. A supplier's list is a **snapshot**: the supplier's
+   rows that the file no longer holds are withdrawn in the same transaction (stock 0,
+   ``withdrawn`` true; design never uses them), unless ``merge=True``. Supplier names compare
+   case-insensitively (the first spelling imported is kept). Writes are upserts
+   (``INSERT .. ON CONFLICT``), so two imports running at once on PostgreSQL do not lose rows.
 
 Steps 1-2 live in :mod:`.stock_reading`, family recognition in :mod:`.stock_families`, step 3
 in :mod:`.stock_rows`, step 4 in :mod:`.stock_writing`; this module runs them in order.
@@ -105,6 +108,8 @@ class ImportResult:
     inserted: int = 0
     updated: int = 0
     unchanged: int = 0
+    withdrawn: int = 0
+    merge: bool = False
     written: bool = False
     dry_run: bool = False
     families: dict[str, int] = field(default_factory=dict)
@@ -124,6 +129,10 @@ class ImportResult:
             "inserted": self.inserted,
             "updated": self.updated,
             "unchanged": self.unchanged,
+            "new": self.inserted,
+            "changed": self.updated,
+            "withdrawn": self.withdrawn,
+            "merge": self.merge,
             "refused": len(self.problems),
             "written": self.written,
             "dry_run": self.dry_run,
@@ -158,6 +167,24 @@ def _supplier_name(path: Path, supplier: str | None) -> str:
     return name
 
 
+def _stored_supplier(engine: Engine, name: str) -> str:
+    """The spelling already stored for ``name`` (compared case-insensitively), else ``name``."""
+    from sqlalchemy import func, select
+
+    from .models import Part, Supplier
+
+    wanted = name.casefold()
+    with engine.connect() as conn:
+        for table_name in (Supplier.name, Part.supplier):
+            stmt = select(table_name).where(func.lower(table_name) == name.lower()).distinct()
+            if table_name is Part.supplier:
+                stmt = stmt.where(Part.source.like("import:%"))
+            for stored in conn.execute(stmt).scalars():
+                if stored is not None and stored.casefold() == wanted:
+                    return str(stored)
+    return name
+
+
 def import_stock(
     engine: Engine,
     path: str | Path,
@@ -170,19 +197,21 @@ def import_stock(
     currency: str = "EUR",
     sheet: str | None = None,
     progress: Progress | None = None,
+    merge: bool = False,
 ) -> ImportResult:
     """Import a stock list into the catalogue behind ``engine`` (see the module doc).
 
     ``supplier``: the name the rows are filed under (default: the file's stem); ``qty``: the
     order quantity whose price-break price becomes the part's ``unit_price`` (the built-in
-    demo prices are per piece at 1000); ``column_map``: header -> field overrides.
+    demo prices are per piece at 1000); ``column_map``: header -> field overrides;
+    ``merge``: keep the supplier's rows the file does not hold (default: withdraw them).
     Returns an :class:`ImportResult`; when rows failed and ``partial`` is false, nothing is
     written and ``result.problems`` lists every failure (file, row, column).
     Raises :class:`BadRowError` when the file itself cannot be used (no header, no supplier
     code or value column).
     """
     file = Path(path)
-    name = _supplier_name(file, supplier)
+    name = _stored_supplier(engine, _supplier_name(file, supplier))
     if qty < 1:
         raise BadValueError(f"the order quantity must be >= 1, got {qty}")
     rows = read_cells(file, sheet)
@@ -217,7 +246,8 @@ def import_stock(
             str(file), header_no, None, "no price column ('unit price' or 'price 10')"
         )
     body = rows[1:]
-    result = ImportResult(str(file), name, len(body), mapping, dry_run=dry_run)
+    result = ImportResult(str(file), name, len(body), mapping, dry_run=dry_run, merge=merge)
+    refused_codes: set[str] = set()
     total = 2 * len(body)
     good: list[StockRow] = []
     seen_codes: dict[str, int] = {}
@@ -245,6 +275,11 @@ def import_stock(
                 family = row.values["family"]
                 result.families[family] = result.families.get(family, 0) + 1
             except BadRowError as exc:
+                code_cell = (
+                    cells[columns["supplier_code"]] if columns["supplier_code"] < len(cells) else ""
+                )
+                if cell_text(code_cell):
+                    refused_codes.add(stock_code(name, cell_text(code_cell)))
                 result.problems.append(RowProblem(exc.file, exc.row, exc.column, exc.problem))
             if progress is not None and (done % 200 == 0 or done == len(body)):
                 progress(done, total)
@@ -252,7 +287,11 @@ def import_stock(
         result.families = {}
         return result
     set_working_voltages(good)
-    counts = write_stock_rows(engine, name, currency, good, dry_run, progress, len(body), total)
+    counts = write_stock_rows(
+        engine, name, currency, good, dry_run, progress, len(body), total,
+        keep_codes=None if merge else refused_codes,
+    )  # fmt: skip
+    result.withdrawn = counts.withdrawn
     result.inserted = counts.inserted
     result.updated = counts.updated
     result.unchanged = counts.unchanged

@@ -23,6 +23,8 @@ Column meanings (units in the name where the value has one; plain names are SI):
   ``pulse_energy_j`` the energy rating, ``ifsm_a`` the 8/20 us single-pulse peak current.
 * ``unit_price`` / ``area_mm2``: for built-in rows a demo model, invented (``price_note`` says so).
 * ``source``: ``'builtin'`` for the open catalogue, ``'import:<supplier>'`` for imported rows.
+* ``withdrawn``: an imported row the supplier's latest list no longer holds (its stock is set to
+  0; design never uses it; importing it again brings it back).
 """
 
 from __future__ import annotations
@@ -43,6 +45,7 @@ from sqlalchemy import (
     UniqueConstraint,
 )
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column
+from sqlalchemy.sql.expression import false as sa_false
 
 from .row_ranges import VALUE_UNITS as VALUE_UNITS  # re-exported: parts.value unit per kind
 
@@ -141,6 +144,8 @@ class Part(Base):
     body_mm: Mapped[str | None] = mapped_column(String(40))
     # added by migration 0004: electrolytic rated life [h] at temp_max_c
     rated_life_h: Mapped[float | None] = mapped_column(Float)
+    # added by migration 0005
+    withdrawn: Mapped[bool] = mapped_column(Boolean, server_default=sa_false())
     # added by migration 0006
     clamp_current_a: Mapped[float | None] = mapped_column(Float)
 

@@ -27,13 +27,21 @@ from sqlalchemy import Engine, and_, false, func, or_, select
 from ..errors import BadValueError
 from ..units import parse_tolerance, parse_value
 from .db import current_revision, read_meta
+from .frame_cache import stock_selection
 from .models import KINDS, VALUE_UNITS, Part
 from .row_ranges import TEXT_COLUMNS, drop_unusable_rows, escape_controls
 
 if TYPE_CHECKING:
     import pandas as pd
 
-__all__ = ["PART_COLUMNS", "catalogue_stats", "check_kind", "find_parts", "parts_frame"]
+__all__ = [
+    "PART_COLUMNS",
+    "catalogue_stats",
+    "check_kind",
+    "find_parts",
+    "parts_frame",
+    "stock_selection",
+]
 
 #: the ``parts`` columns in table order (the DataFrame of :func:`parts_frame` has exactly these)
 PART_COLUMNS: Final[tuple[str, ...]] = tuple(c.name for c in Part.__table__.columns)
@@ -339,15 +347,19 @@ def parts_frame(
     engine: Engine,
     kinds: str | list[str] | tuple[str, ...] | None = None,
     stock_only: bool = False,
+    min_stock: int | None = None,
     *,
     checked: bool = True,
 ) -> pd.DataFrame:
     """All parts (or those of ``kinds``) as a pandas DataFrame with every ``parts`` column.
 
     Columns: :data:`PART_COLUMNS`, in table order; numeric columns are float64 with NaN for
-    missing, ``fusible`` is bool, ``stock`` is a nullable Int64. ``stock_only`` keeps rows with
-    stock > 0 (imported stock lists). Rows are ordered by kind, value, code. With ``checked``
-    (the default) rows with numbers out of their physical range are left out and named in
+    missing, ``fusible`` is bool, ``stock`` is float64 (NaN when the list gives none).
+    ``stock_only`` keeps the rows of imported lists that are not withdrawn (see
+    :func:`stock_selection`); ``min_stock``
+    additionally drops those whose stock count is given and below it. Withdrawn rows are never
+    in the frame. Rows are ordered by kind, value, code. With ``checked`` (the default) rows
+    with numbers out of their physical range are left out and named in
     ``frame.attrs["skipped_parts"]`` (:func:`drop_unusable_rows`).
     """
     import pandas as pd
@@ -357,8 +369,6 @@ def parts_frame(
     if kinds is not None:
         wanted = [kinds] if isinstance(kinds, str) else list(kinds)
         stmt = stmt.where(t.kind.in_([check_kind(k) for k in wanted]))
-    if stock_only:
-        stmt = stmt.where(t.stock > 0)
     stmt = stmt.order_by(t.kind, t.value, t.code)
     with engine.connect() as conn:
         result = conn.execute(stmt)
@@ -374,5 +384,5 @@ def parts_frame(
             frame[name] = frame[name].fillna(False).astype(bool)
         elif py is int:  # checked as float first: a stored 1e30 cannot become an Int64
             frame[name] = pd.to_numeric(frame[name], errors="coerce").astype("float64")
-    frame = frame[list(PART_COLUMNS)]
+    frame = stock_selection(frame[list(PART_COLUMNS)], stock_only, min_stock)
     return drop_unusable_rows(frame) if checked else frame

@@ -388,6 +388,7 @@ def validate_row(
         supplier=supplier,
         supplier_code=code_text,
         source=f"import:{supplier}",
+        withdrawn=False,
     )
     description = row.text("description") if "description" in columns else ""
     values["description"] = description or f"{family.title} (imported from {supplier})"

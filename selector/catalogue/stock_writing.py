@@ -27,6 +27,7 @@ COMPARED: Final[tuple[str, ...]] = (
     "unit_price",
     "price_note",
     "stock",
+    "withdrawn",
     *TEMPLATE_COLUMNS,
 )
 
@@ -39,6 +40,7 @@ class WriteCounts:
     inserted: int = 0
     updated: int = 0
     unchanged: int = 0
+    withdrawn: int = 0
     written: bool = False
 
 
@@ -51,8 +53,14 @@ def write_stock_rows(
     progress: Callable[[int, int], None] | None,
     offset: int,
     total: int,
+    keep_codes: set[str] | None = None,
 ) -> WriteCounts:
     """Compare with what is stored and upsert the new and changed rows, in one transaction.
+
+    ``keep_codes``: None merges (rows of the supplier not in ``rows`` stay as they are);
+    a set makes the list a snapshot: every other row of the supplier that is neither in
+    ``rows`` nor in ``keep_codes`` (codes of refused rows, kept under ``--partial``) is
+    withdrawn in the same transaction: stock 0, ``withdrawn`` true.
 
     ``progress`` is called after each batch, inside the transaction: an exception it raises
     (or the process dying there) rolls everything back. It reports ``offset`` + this write's
@@ -104,11 +112,36 @@ def write_stock_rows(
             if progress is not None:
                 # scaled so that the last batch reports total even when rows were refused
                 progress(offset + (done * (total - offset)) // max(len(rows), 1), total)
+        if keep_codes is not None:
+            keep = keep_codes | {row.values["code"] for row in rows}
+            counts.withdrawn = _withdraw(conn, supplier, keep, dry_run)
         if dry_run:
             conn.rollback()
             return counts
     counts.written = True
     return counts
+
+
+def _withdraw(conn: Any, supplier: str, keep: set[str], dry_run: bool) -> int:
+    """Withdraw the supplier's rows whose code is not in ``keep``; returns how many."""
+    table = Part.__table__
+    stale = [
+        part_id
+        for part_id, code in conn.execute(
+            select(table.c.id, table.c.code).where(
+                table.c.source == f"import:{supplier}", table.c.withdrawn.is_(False)
+            )
+        )
+        if code not in keep
+    ]
+    if not dry_run:
+        for start in range(0, len(stale), 500):
+            conn.execute(
+                table.update()
+                .where(table.c.id.in_(stale[start : start + 500]))
+                .values(stock=0, withdrawn=True)
+            )
+    return len(stale)
 
 
 def _same(a: Any, b: Any) -> bool:

@@ -96,8 +96,20 @@ def design(
         typer.Option("--exclude", help="Leave out a catalogue family (repeatable)."),
     ] = None,
     stock_only: Annotated[
-        bool, typer.Option("--stock-only", help="Only parts with stock from an import.")
+        bool,
+        typer.Option("--stock-only", help="Only parts from imported stock lists (not withdrawn)."),
     ] = False,
+    in_stock: Annotated[
+        bool,
+        typer.Option(
+            "--in-stock",
+            help="As --stock-only, and a part whose list gives a stock count needs "
+            ">= --build-qty pieces.",
+        ),
+    ] = False,
+    build_qty: Annotated[
+        int, typer.Option("--build-qty", help="Units to build (for --in-stock).", min=1)
+    ] = 1000,
     bom: Annotated[
         Path | None, typer.Option("--bom", help="Write the best set as a BOM CSV here.")
     ] = None,
@@ -164,7 +176,9 @@ def design(
         limit_s = option_value(time_limit, "s", "--time-limit")
         if not limit_s > 0:
             raise BadValueError(f"--time-limit must be > 0 s, got {time_limit!r}")
-    frame = catalogue_frame(resolve_url(db), stock_only=stock_only)
+    frame = catalogue_frame(
+        resolve_url(db), stock_only=stock_only, min_stock=build_qty if in_stock else None
+    )
     warn_skipped_parts(frame)
     # a progress bar (stderr) for searches over large catalogues
     bar = None if json or len(frame) < 1000 else _Bar("searching part sets")

@@ -75,6 +75,13 @@ def import_(
     ] = 1000,
     currency: Annotated[str, typer.Option(help="Currency when the file has no column.")] = "EUR",
     sheet: Annotated[str | None, typer.Option(help="XLSX sheet (default: the first).")] = None,
+    merge: Annotated[
+        bool,
+        typer.Option(
+            "--merge",
+            help="Add and update only: keep the supplier's rows this file does not hold.",
+        ),
+    ] = False,
     db: DbOption = None,
     json: JsonOption = False,
 ) -> None:
@@ -104,6 +111,7 @@ def import_(
             currency=currency,
             sheet=sheet,
             progress=bar,
+            merge=merge,
         )
     finally:
         if bar is not None:
@@ -131,8 +139,9 @@ def import_(
         typer.echo(f"refused: {p}", err=True)
     verb = "would be" if dry_run else "were"
     summary = (
-        f"{result.rows} rows: {result.inserted} new, {result.updated} updated, "
-        f"{result.unchanged} unchanged, {len(result.problems)} refused"
+        f"{result.rows} rows: {result.inserted} new, {result.updated} changed, "
+        f"{result.unchanged} unchanged, {len(result.problems)} refused; "
+        + ("--merge: no row withdrawn" if merge else f"{result.withdrawn} withdrawn")
     )
     if result.written:
         typer.echo(f"{summary}; supplier '{result.supplier}' (source import:{result.supplier}).")
