@@ -72,7 +72,11 @@ class _Group(typer.core.TyperGroup):
 
 
 def _error(message: str, code: int) -> None:
-    typer.echo(printable(f"Error: {message}".replace("\n", " ")), err=True)
+    # the last guard for secrets: a password in any URL or password=... pair is shown as ***
+    # (URLs that dropper prints itself are masked where they are made, catalogue.paths.mask_url)
+    from ..catalogue.paths import mask_secrets
+
+    typer.echo(printable(mask_secrets(f"Error: {message}".replace("\n", " "))), err=True)
     sys.exit(code)
 
 
