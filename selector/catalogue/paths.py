@@ -6,6 +6,9 @@
 * :func:`sqlite_file` tells whether a URL names a plain SQLite file (the only kind of database
   whose parts frame is cached on disk, see :mod:`selector.catalogue.frame_cache`).
 * :func:`cache_dir` is the user's cache folder for dropper (``$XDG_CACHE_HOME/dropper``).
+* :func:`missing_file` is the SQLite file a URL names when that file does not exist (the CLI
+  refuses a mistyped ``--db`` with it instead of making a new catalogue), :func:`nearest_file`
+  the existing file whose name is closest.
 * :func:`mask_url` is a URL fit to print: the password of the user info and every secret-looking
   query value (``?password=...``) replaced by ``***``, also in URLs SQLAlchemy cannot parse;
   :func:`mask_secrets` does the same to every URL and ``password=...`` pair inside a message.
@@ -28,6 +31,8 @@ __all__ = [
     "default_path",
     "mask_secrets",
     "mask_url",
+    "missing_file",
+    "nearest_file",
     "resolve_url",
     "sqlite_file",
 ]
@@ -112,6 +117,41 @@ def sqlite_file(url: str) -> Path | None:
     if any(ch in database for ch in "?%#"):
         return None
     return Path(database).absolute()
+
+
+def missing_file(url: str) -> Path | None:
+    """The file a SQLite file URL names when no such file exists; None when it exists or the
+    URL names no file (another database, in-memory, ``file:`` URI).
+
+    >>> missing_file("postgresql://host/db") is None
+    True
+    """
+    if url.startswith(_SQLITE_PREFIXES):
+        url = url.split("?", 1)[0]  # a query (?timeout=...) does not change the file
+    path = sqlite_file(url)
+    return path if path is not None and not path.exists() else None
+
+
+#: suffixes of files that look like a catalogue (offered first as the nearest file)
+_DB_SUFFIXES: Final[tuple[str, ...]] = (".sqlite", ".sqlite3", ".db")
+
+
+def nearest_file(path: Path) -> Path | None:
+    """The existing file in ``path``'s folder whose name is closest to ``path``'s (rapidfuzz
+    ratio of at least 60), preferring files that look like a database; None when nothing is
+    close or the folder does not exist."""
+    from rapidfuzz import fuzz, process
+
+    try:
+        files = [p for p in path.parent.iterdir() if p.is_file()]
+    except OSError:
+        return None
+    for group in ([p for p in files if p.suffix.lower() in _DB_SUFFIXES], files):
+        names = {p.name: p for p in group}
+        found = process.extractOne(path.name, list(names), scorer=fuzz.ratio, score_cutoff=60)
+        if found is not None:
+            return names[found[0]]
+    return None
 
 
 def _mask_pairs(value: Any) -> Any:

@@ -10,7 +10,15 @@ import typer
 from ..cautions import CAUTIONS
 from ..errors import BadValueError
 from ..units import format_value
-from ._app import app, echo_cautions, print_json, to_jsonable, warn_skipped_parts
+from ._app import (
+    CreateOpt,
+    app,
+    catalogue_url,
+    echo_cautions,
+    print_json,
+    to_jsonable,
+    warn_skipped_parts,
+)
 from ._circuit import (
     AmbientOpt,
     BurstOpt,
@@ -123,6 +131,7 @@ def design(
     ] = None,
     json: JsonOpt = False,
     db: DbOpt = None,
+    create: CreateOpt = False,
     report: Annotated[
         Path | None, typer.Option("--report", help="Also write an HTML report to this file.")
     ] = None,
@@ -134,7 +143,7 @@ def design(
     --burst-time and --burst-period.
     """
     from .. import design as D
-    from ..catalogue import catalogue_frame, resolve_url
+    from ..catalogue import catalogue_frame
     from ..engine.distortion import mains_record
     from ..policy import load_policy
 
@@ -177,7 +186,7 @@ def design(
         if not limit_s > 0:
             raise BadValueError(f"--time-limit must be > 0 s, got {time_limit!r}")
     frame = catalogue_frame(
-        resolve_url(db), stock_only=stock_only, min_stock=build_qty if in_stock else None
+        catalogue_url(db, create), stock_only=stock_only, min_stock=build_qty if in_stock else None
     )
     warn_skipped_parts(frame)
     # a progress bar (stderr) for searches over large catalogues
