@@ -350,7 +350,9 @@ def audit(
     load and the conditions. --topology auto takes it from the BOM (bridge or one diode).
     """
     from ..audit.evaluate import audit_bom
+    from ..outputs import check_outputs
 
+    check_outputs([("--report", report)], [("BOM", bom), ("--roles", roles), ("--policy", policy)])
     opts = audit_options(
         role=role, roles=roles, sheet=sheet, encoding=encoding, column=column,
         topology=topology, mains=mains, mains_tol=mains_tol, freq=freq, harmonics=harmonics,

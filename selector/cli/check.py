@@ -113,6 +113,9 @@ def check(
 ) -> None:
     """Worst-case stresses, margins and transients of given values (exit 1: load not met at
     some corner, or the discharge rule fails, or a rule of the --varistor part fails)."""
+    from ..outputs import check_outputs
+
+    check_outputs([("--report", report)])  # a missing folder is refused before any work
     circuit = circuit_from_options(
         cap,
         topology=topology,

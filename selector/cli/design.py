@@ -145,8 +145,11 @@ def design(
     from .. import design as D
     from ..catalogue import catalogue_frame
     from ..engine.distortion import mains_record
+    from ..outputs import Outputs, check_outputs
     from ..policy import load_policy
 
+    # refused before any work: an output over an input, two outputs on one file, no folder
+    check_outputs([("--bom", bom), ("--report", report)], [("--policy", policy)])
     pol, standby_source = standby_policy(load_policy(policy), standby_limit, product_class)
     reg_v = option_value(regulator, "V", "--regulator") if regulator else None
     if vout is None and reg_v is None:
@@ -196,8 +199,6 @@ def design(
     finally:
         if bar is not None:
             bar.close()
-    if bom is not None:
-        D.write_bom(designs[0], bom)
     doc = {
         "requirement": {
             "load_a": req.load_a,
@@ -222,12 +223,17 @@ def design(
         "bom": str(bom) if bom is not None else None,
         "cautions": list(CAUTIONS),
     }
-    if report is not None:
-        from ..report import write_report
+    # the BOM and the report appear together or not at all
+    with Outputs() as outputs:
+        if bom is not None:
+            D.write_bom(designs[0], bom, outputs=outputs)
+        if report is not None:
+            from ..report import write_report
 
-        write_report(
-            report, "design", to_jsonable(doc), designs[0].circuit, analysis=designs[0].analysis
-        )
+            write_report(
+                report, "design", to_jsonable(doc), designs[0].circuit,
+                analysis=designs[0].analysis, outputs=outputs,
+            )  # fmt: skip
     if json:
         print_json(doc)
         return
