@@ -19,6 +19,7 @@ The one place where dropper writes a file (BOM, HTML report, snapped CSV, caches
 from __future__ import annotations
 
 import os
+import re
 import signal
 import tempfile
 import threading
@@ -29,7 +30,12 @@ from typing import Any
 
 from .errors import BadValueError
 
-__all__ = ["Outputs", "check_outputs", "write_atomic"]
+__all__ = ["FORMULA_START", "Outputs", "check_outputs", "spreadsheet_cell", "write_atomic"]
+
+#: first characters that make a spreadsheet read a CSV cell as a formula (OWASP "CSV injection":
+#: = + - @, and tab / carriage return, which some programs skip before looking)
+FORMULA_START: tuple[str, ...] = ("=", "+", "-", "@", "\t", "\r")
+_PLAIN_NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
 
 # temporary files that exist now, removed by the signal handler
 _PENDING: set[str] = set()
@@ -73,6 +79,21 @@ def check_outputs(
         for other_name, other in outs[:i]:
             if _same_file(path, other):
                 raise BadValueError(f"{name} {path} is also {other_name}; give two file names")
+
+
+def spreadsheet_cell(text: Any) -> str:
+    """A CSV cell that a spreadsheet will not run as a formula: text starting with one of
+    :data:`FORMULA_START` gets a leading apostrophe, except a plain number (``-5``, ``+3.3``,
+    ``-1e-3``), which no spreadsheet runs and which must stay a number. Used for every CSV
+    dropper writes (BOM, snapped files).
+
+    >>> [spreadsheet_cell(c) for c in ["=1+1", "@SUM(A1)", "-2+3", "-5", "4k7", None]]
+    ["'=1+1", "'@SUM(A1)", "'-2+3", '-5', '4k7', '']
+    """
+    s = "" if text is None else str(text)
+    if s.startswith(FORMULA_START) and not _PLAIN_NUMBER.fullmatch(s):
+        return "'" + s
+    return s
 
 
 def _user_mode() -> int:

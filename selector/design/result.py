@@ -189,15 +189,12 @@ REF_PREFIX: Final[dict[str, str]] = {
 }
 
 
-FORMULA_START: Final[tuple[str, ...]] = ("=", "+", "-", "@")
-
-
 def bom_cell(text: Any) -> str:
-    """A CSV cell a spreadsheet will not run as a formula (leading = + - @ get a quote)."""
-    s = "" if text is None else str(text)
-    if s.startswith(FORMULA_START):
-        return "'" + s
-    return s
+    """A CSV cell a spreadsheet will not run as a formula: :func:`selector.outputs.spreadsheet_cell`
+    (leading = + - @ tab CR get an apostrophe; plain numbers stay as they are)."""
+    from ..outputs import spreadsheet_cell
+
+    return spreadsheet_cell(text)
 
 
 def bom_rows(d: Design) -> list[dict[str, str]]:
