@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import re
 import tomllib
 from dataclasses import dataclass, fields
 from pathlib import Path
@@ -163,26 +164,74 @@ POLICY_NOTES: Final[dict[str, str]] = {
 def load_policy(path: str | Path | None) -> Policy:
     """The default policy, or the defaults overridden by the flat TOML file at ``path``.
 
-    Raises BadValueError naming the file and key for an unknown key (with the valid keys), a
-    value that is not a number, or a value out of range.
+    Raises BadValueError naming the file, and the line and key where there is one, for a file
+    that cannot be read (missing, a folder, no permission, not UTF-8), TOML that does not parse
+    (its line and column), a table or an unknown key (with the valid keys), a value that is not
+    a finite number, or a value out of range.
     """
     if path is None:
         return Policy()
     p = Path(path)
     try:
-        data = tomllib.loads(p.read_text(encoding="utf-8-sig"))
+        text = p.read_text(encoding="utf-8-sig")
     except FileNotFoundError:
         raise BadValueError(f"policy file {p} does not exist") from None
+    except UnicodeDecodeError as exc:
+        raise BadValueError(
+            f"policy file {p}: not UTF-8 text (byte 0x{exc.object[exc.start]:02x} at offset "
+            f"{exc.start}); save it as UTF-8"
+        ) from None
+    except OSError as exc:
+        raise BadValueError(f"policy file {p}: cannot be read ({exc.strerror or exc})") from None
+    try:
+        data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise BadValueError(f"policy file {p}: not valid TOML ({exc})") from None
-    return policy_from_mapping(data, str(p))
+    return policy_from_mapping(data, f"policy file {p}", key_lines(text))
 
 
-def policy_from_mapping(data: dict[str, Any], source: str = "policy") -> Policy:
-    """Defaults overridden by ``data`` (flat key -> number); errors name ``source`` and key."""
+# a top-level key (bare, or quoted) or a table header, at the start of a TOML line
+_KEY_LINE = re.compile(r"""^\s*(\[{1,2})?\s*(?:"([^"]*)"|'([^']*)'|([A-Za-z0-9_-]+))""")
+
+
+def key_lines(text: str) -> dict[str, int]:
+    """The 1-based line where each top-level key (or table header) of a TOML text first
+    appears, for messages; keys inside tables are not listed (a policy file has none).
+
+    >>> key_lines("# strict\\nload_margin = 0.2\\n[extra]\\nx = 1\\n")
+    {'load_margin': 2, 'extra': 3}
+    """
+    found: dict[str, int] = {}
+    in_table = False
+    for number, line in enumerate(text.splitlines(), start=1):
+        m = _KEY_LINE.match(line)
+        if m is None or line.lstrip().startswith("#"):
+            continue
+        header, key = m.group(1), next(g for g in m.group(2, 3, 4) if g is not None)
+        if header:
+            in_table = True
+        elif in_table:
+            continue
+        found.setdefault(key, number)
+    return found
+
+
+def policy_from_mapping(
+    data: dict[str, Any], source: str = "policy", lines: dict[str, int] | None = None
+) -> Policy:
+    """Defaults overridden by ``data`` (flat key -> number); errors name ``source``, the line
+    (from ``lines``, key -> line number) and the key."""
     valid = [f.name for f in fields(Policy)]
     changes: dict[str, float] = {}
     for key, raw in data.items():
+        where = source
+        if lines and key in lines:
+            where += f", line {lines[key]}"
+        if isinstance(raw, dict):
+            raise BadValueError(
+                f"{where}: table [{key}] is not allowed; a policy file is flat "
+                f"(key = number lines); valid keys: {', '.join(valid)}"
+            )
         if key not in valid:
             hint = ""
             try:
@@ -194,17 +243,24 @@ def policy_from_mapping(data: dict[str, Any], source: str = "policy") -> Policy:
             except ImportError:  # pragma: no cover - rapidfuzz is a dependency
                 pass
             raise BadValueError(
-                f"{source}: unknown key '{key}'{hint}; valid keys: {', '.join(valid)}"
+                f"{where}: unknown key '{key}'{hint}; valid keys: {', '.join(valid)}"
             )
-        if isinstance(raw, bool) or not isinstance(raw, (int, float)) or not math.isfinite(raw):
-            raise BadValueError(f"{source}: key '{key}' must be a finite number, got {raw!r}")
+        # an integer too large for a float (1 followed by 400 zeros) is not finite either
+        if (
+            isinstance(raw, bool)
+            or not isinstance(raw, (int, float))
+            or (isinstance(raw, int) and abs(raw) > 1e300)
+            or not math.isfinite(raw)
+        ):
+            shown = repr(raw) if len(repr(raw)) <= 40 else repr(raw)[:37] + "..."
+            raise BadValueError(f"{where}: key '{key}' must be a finite number, got {shown}")
         value = float(raw)
         if key in _FRACTIONS and not 0.0 < value <= 1.0:
-            raise BadValueError(f"{source}: key '{key}' is a fraction in (0, 1], got {value}")
+            raise BadValueError(f"{where}: key '{key}' is a fraction in (0, 1], got {value}")
         if key in _MAY_BE_ZERO:
             if value < 0:
-                raise BadValueError(f"{source}: key '{key}' must be >= 0, got {value}")
+                raise BadValueError(f"{where}: key '{key}' must be >= 0, got {value}")
         elif value <= 0:
-            raise BadValueError(f"{source}: key '{key}' must be > 0, got {value}")
+            raise BadValueError(f"{where}: key '{key}' must be > 0, got {value}")
         changes[key] = value
     return dataclasses.replace(Policy(), **changes)

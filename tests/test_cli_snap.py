@@ -75,7 +75,8 @@ def test_bad_input_gives_one_error_line_and_exit_2(args, message):
 def test_snap_csv_column(tmp_path):
     path = tmp_path / "calc.csv"
     path.write_text("ref,computed\nC1,70.1n\nR1,4.42k\n", encoding="utf-8")
-    result = invoke("snap", str(path), "--column", "computed", "--json")
+    # issue 14: the input is rewritten only with --in-place (test_snap_csv_writes_a_new_file)
+    result = invoke("snap", str(path), "--column", "computed", "--json", "--in-place")
     assert result.exit_code == 0
     info = json.loads(result.stdout)
     assert info["new_column"] == "computed_E12_nearest" and info["rows"] == 2
@@ -130,3 +131,83 @@ def test_an_internal_error_is_one_line_with_its_own_exit_code(monkeypatch):
     assert result.exit_code == 3
     assert result.stderr.count("\n") == 1
     assert result.stderr.startswith("Error: internal error (ZeroDivisionError: boom)")
+
+
+# --- issue 14: snap --column keeps the user's file as it was and writes no formula -------
+
+
+def test_snap_csv_writes_a_new_file_by_default(tmp_path):
+    path = tmp_path / "calc.csv"
+    original = b"ref,computed\nC1,70.1n\n"
+    path.write_bytes(original)
+    result = runner.invoke(app, ["snap", str(path), "--column", "computed"])
+    assert result.exit_code == 0, result.stderr
+    assert path.read_bytes() == original
+    new = tmp_path / "calc.snapped.csv"
+    assert result.stdout == f"1 rows: column 'computed_E12_nearest' written to {new}\n"
+    assert new.read_bytes() == b"ref,computed,computed_E12_nearest\nC1,70.1n,6.8e-08\n"
+
+
+@pytest.mark.parametrize(
+    ("original", "expected", "encoding"),
+    [
+        # UTF-8 signature, CRLF, duplicate headers, a blank line, no final line end kept
+        (b"\xef\xbb\xbfref,computed,ref\r\nC1,70.1n,a\r\n\r\nR1,4.42k,b",
+         b"\xef\xbb\xbfref,computed,ref,computed_E12_nearest\r\nC1,70.1n,a,6.8e-08\r\n\r\n"
+         b"R1,4.42k,b,4700", None),
+        # semicolons and a Latin-1 micro sign (the user's encoding named)
+        ("Bauteil;Wert\nC1;4.7\xb5F\n".encode("cp1252"),
+         "Bauteil;Wert;Wert_E12_nearest\nC1;4.7\xb5F;4.7e-06\n".encode("cp1252"), "cp1252"),
+        # UTF-16 with its byte-order mark, CR line ends
+        ("ref,computed\rC1,70.1n\r".encode("utf-16"),
+         "ref,computed,computed_E12_nearest\rC1,70.1n,6.8e-08\r".encode("utf-16"), None),
+    ],
+)  # fmt: skip
+def test_snap_in_place_keeps_encoding_bom_line_ends_headers(tmp_path, original, expected, encoding):
+    path = tmp_path / "calc.csv"
+    path.write_bytes(original)
+    column = "Wert" if encoding == "cp1252" else "computed"
+    args = ["snap", str(path), "--column", column, "--in-place"]
+    if encoding:
+        args += ["--encoding", encoding]
+    result = runner.invoke(app, args)
+    assert result.exit_code == 0, result.stderr
+    assert path.read_bytes() == expected
+    assert [p.name for p in tmp_path.iterdir()] == ["calc.csv"]  # no temporary file left
+
+
+def test_snap_escapes_formula_cells(tmp_path):
+    path = tmp_path / "calc.csv"
+    path.write_text("ref,computed,note\nC1,70.1n,=HYPERLINK(x)\nC2,1u,-5\n", encoding="utf-8")
+    result = runner.invoke(app, ["snap", str(path), "--column", "computed", "--in-place"])
+    assert result.exit_code == 0, result.stderr
+    assert path.read_text(encoding="utf-8").splitlines()[1:] == [
+        "C1,70.1n,'=HYPERLINK(x),6.8e-08",
+        "C2,1u,-5,1e-06",  # a plain number is no formula and stays a number
+    ]
+
+
+@pytest.mark.parametrize(
+    ("extra", "message"),
+    [
+        (["--output", "{p}"], "--output {p} is the input CSV file; refusing"),
+        (["--output", "{d}/o.csv", "--in-place"], "either --output FILE or --in-place"),
+        (["--output", "{d}/nowhere/o.csv"], "the folder {d}/nowhere does not exist"),
+    ],
+)
+def test_snap_output_refusals(tmp_path, extra, message):
+    path = tmp_path / "calc.csv"
+    path.write_text("ref,computed\nC1,70.1n\n", encoding="utf-8")
+    extra = [e.format(p=path, d=tmp_path) for e in extra]
+    result = runner.invoke(app, ["snap", str(path), "--column", "computed", *extra])
+    assert result.exit_code == 2
+    assert message.format(p=path, d=tmp_path) in result.stderr
+    assert [p.name for p in tmp_path.iterdir()] == ["calc.csv"]
+
+
+def test_snap_duplicate_target_header_is_refused(tmp_path):
+    path = tmp_path / "calc.csv"
+    path.write_text("v,v\n1n,2n\n", encoding="utf-8")
+    result = runner.invoke(app, ["snap", str(path), "--column", "v"])
+    assert result.exit_code == 2
+    assert "row 1, column 'v': the header appears 2 times (columns 1, 2)" in result.stderr

@@ -282,8 +282,10 @@ def test_bom_written_atomically_with_formula_cells_escaped(tmp_path):
     assert sum(int(r["Qty"]) for r in rows) == d.part_count
     assert {r["Role"] for r in rows} >= {"x_capacitor", "series_resistor", "bleeder", "zener"}
     assert not [p for p in tmp_path.iterdir() if p.name.startswith(".bom-")]
-    for cell in ("+1", "-1", "@x", "=1"):
+    for cell in ("+A1", "-1+1", "@x", "=1", "\t=1"):
         assert D.result.bom_cell(cell) == "'" + cell
+    for cell in ("-1", "+1", "-2.5e-3"):  # plain numbers are no formula and stay numbers
+        assert D.result.bom_cell(cell) == cell
 
 
 @pytest.mark.parametrize("req", _random_requirements(22)[:8], ids=lambda r: f"{r.load_a * 1e3:g}mA")

@@ -75,3 +75,48 @@ def test_bad_values(tmp_path, text, match):
 def test_missing_file(tmp_path):
     with pytest.raises(BadValueError, match="does not exist"):
         load_policy(tmp_path / "nope.toml")
+
+
+# issue 14: every policy-file error names the file, and the line and key where there is one
+@pytest.mark.parametrize(
+    ("content", "expected"),
+    [
+        (b"# strict\n\nzener_power_fraction = 1.5\n", ", line 3: key 'zener_power_fraction' is"),
+        (b'load_margin = "20%"\n', ", line 1: key 'load_margin' must be a finite number"),
+        (b"load_margin = 1" + b"0" * 400 + b"\n", ", line 1: key 'load_margin' must be a finite"),
+        (b"load_margin = inf\n", ", line 1: key 'load_margin' must be a finite number"),
+        (b"load_margin = nan\n", ", line 1: key 'load_margin' must be a finite number"),
+        (b"x = 1\n'load_margn' = 0.2\n", ", line 1: unknown key 'x'"),
+        (b"[limits]\nload_margin = 0.2\n", ", line 1: table [limits] is not allowed"),
+        (b"load_margin = 0.2\nload_margin = 0.3\n", ": not valid TOML (Cannot overwrite"),
+        (b"load_margin = 0.2\n\xff\xfe\n", ": not UTF-8 text (byte 0xff at offset 18)"),
+        (b"\xef\xbb\xbfload_margin = -1\n", ", line 1: key 'load_margin' must be >= 0"),
+    ],
+)
+def test_policy_errors_name_file_line_and_key(tmp_path, content, expected):
+    f = tmp_path / "site.toml"
+    f.write_bytes(content)
+    with pytest.raises(BadValueError) as exc:
+        load_policy(f)
+    assert str(exc.value).startswith(f"policy file {f}{expected}"), str(exc.value)
+
+
+def test_policy_folder_is_bad_input(tmp_path):
+    with pytest.raises(BadValueError, match=f"policy file {tmp_path}: cannot be read"):
+        load_policy(tmp_path)
+
+
+@pytest.mark.parametrize(
+    "content", [b"load_margin = 1" + b"0" * 400 + b"\n", b"\xff\n", b"[t]\n", b"a = [\n"]
+)
+def test_policy_errors_exit_2_in_one_line(tmp_path, content):
+    from typer.testing import CliRunner
+
+    from selector.cli import app
+
+    f = tmp_path / "site.toml"
+    f.write_bytes(content)
+    # design reads the policy before it opens the catalogue, so no --db is needed
+    r = CliRunner().invoke(app, ["design", "--load", "10m", "--vout", "5.1", "--policy", str(f)])
+    assert r.exit_code == 2, r.stderr
+    assert r.stderr.startswith(f"Error: policy file {f}") and r.stderr.count("\n") == 1

@@ -30,7 +30,7 @@ from ..errors import CatalogueError
 from ..resources import migrations_dir
 from .fingerprint import cached_data_checksum, quick_head_revision
 from .models import CatalogueMeta, Part
-from .paths import ENV_VAR, default_path, resolve_url
+from .paths import ENV_VAR, default_path, mask_secrets, mask_url, resolve_url
 
 __all__ = [
     "ENV_VAR",
@@ -55,12 +55,27 @@ _VERSION_TABLE: Final[str] = "alembic_version"
 
 
 def safe_url(url: str | Engine) -> str:
-    """The URL with any password hidden, for messages and output."""
+    """The URL with any password hidden (user info and query string, also when the URL cannot
+    be parsed), for messages and output: :func:`selector.catalogue.paths.mask_url`."""
+    return mask_url(url.url if isinstance(url, Engine) else url)
+
+
+def _parse_url(url: str):
+    """``make_url(url)``, or CatalogueError (exit 2) naming the URL with its password hidden.
+
+    SQLAlchemy raises ArgumentError for text that is no URL and ValueError for a port that is
+    not a number (``postgresql://u:pw@[::1/db`` reads ``:1`` as the port); neither message is
+    shown as is, because both quote the URL with its password.
+    """
     try:
-        u = url.url if isinstance(url, Engine) else make_url(url)
-        return u.render_as_string(hide_password=True)
+        return make_url(url)
     except ArgumentError:
-        return str(url)
+        problem = "expected dialect[+driver]://user:password@host:port/database or a file path"
+    except (ValueError, TypeError) as exc:
+        problem = mask_secrets(str(exc).replace(url, safe_url(url)))
+        if "int()" in problem:
+            problem = "the port is not a number (an IPv6 host goes in brackets: [::1]:5432)"
+    raise CatalogueError(f"cannot read database URL {safe_url(url)}: {problem}") from None
 
 
 def _sqlite_on_connect(dbapi_conn: Any, _record: Any) -> None:
@@ -73,10 +88,7 @@ def make_engine(url: str) -> Engine:
     """An engine for ``url`` (a plain path is a SQLite file). For SQLite files the folder is
     created; foreign keys are switched on; an in-memory database keeps one shared connection."""
     url = resolve_url(url)
-    try:
-        u = make_url(url)
-    except ArgumentError as exc:
-        raise CatalogueError(f"cannot read database URL {url!r}: {exc}") from None
+    u = _parse_url(url)
     kwargs: dict[str, Any] = {}
     if u.get_backend_name() == "sqlite":
         database = u.database or ""
@@ -87,7 +99,8 @@ def make_engine(url: str) -> Engine:
     try:
         engine = create_engine(u, **kwargs)
     except (ArgumentError, ImportError) as exc:
-        raise CatalogueError(f"cannot open catalogue {safe_url(url)}: {exc}") from None
+        problem = mask_secrets(str(exc))
+        raise CatalogueError(f"cannot open catalogue {safe_url(url)}: {problem}") from None
     if u.get_backend_name() == "sqlite":
         event.listen(engine, "connect", _sqlite_on_connect)
     return engine
@@ -170,7 +183,7 @@ def downgrade(engine: Engine, revision: str = "base") -> None:
 
 def _reason(exc: SQLAlchemyError) -> str:
     orig = getattr(exc, "orig", None)
-    return str(orig if orig is not None else exc).splitlines()[0]
+    return mask_secrets(str(orig if orig is not None else exc).splitlines()[0])
 
 
 def read_meta(engine: Engine) -> dict[str, str]:

@@ -18,16 +18,15 @@ Neither imports SQLAlchemy, alembic or numpy.
 from __future__ import annotations
 
 import json
-import os
 import re
-import tempfile
 from pathlib import Path
 from typing import Any, Final
 
+from ..outputs import write_atomic
 from ..resources import catalogue_dir, migrations_dir
 from .paths import cache_dir
 
-__all__ = ["cached_data_checksum", "quick_head_revision", "write_atomic"]
+__all__ = ["cached_data_checksum", "quick_head_revision"]
 
 _REVISION = re.compile(r"^revision(?:\s*:\s*[^=]+)?\s*=\s*['\"]([^'\"]+)['\"]\s*$", re.M)
 _DOWN = re.compile(r"^down_revision(?:\s*:\s*[^=]+)?\s*=\s*(.+?)\s*$", re.M)
@@ -84,24 +83,6 @@ def _data_stats(base: Path) -> dict[str, Any]:
     }
 
 
-def write_atomic(path: Path, data: bytes) -> None:
-    """Write ``data`` to ``path`` through a temporary file in the same folder and
-    ``os.replace``, so a reader sees the old file or the whole new one, never half of it.
-    The file is readable and writable by its owner only. Raises OSError."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
-
-
 def cached_data_checksum(root: Path | str | None = None) -> str:
     """:func:`selector.catalogue.build.data_checksum` of ``root`` (default: the installed data
     folder), taken from the user's cache while no file below ``root`` and not ``build.py`` has
@@ -135,7 +116,9 @@ def cached_data_checksum(root: Path | str | None = None) -> str:
             entries.pop(next(iter(entries)))
         entries[key] = {"stats": stats, "checksum": checksum}
         try:
-            write_atomic(store, json.dumps(entries, indent=1).encode())
+            write_atomic(
+                store, json.dumps(entries, indent=1).encode(), private=True, make_folder=True
+            )
         except OSError:
             pass  # a cache folder we cannot write only costs the checksum next time
     return checksum

@@ -44,7 +44,8 @@ from dataclasses import astuple, dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Final
 
-from .fingerprint import cached_data_checksum, quick_head_revision, write_atomic
+from ..outputs import write_atomic
+from .fingerprint import cached_data_checksum, quick_head_revision
 from .paths import resolve_url, sqlite_file
 
 if TYPE_CHECKING:
@@ -164,7 +165,7 @@ def _load(path: Path, key: str) -> pd.DataFrame | None:
 def _store(path: Path, key: str, frame: pd.DataFrame) -> None:
     data = _MAGIC + key.encode() + b"\n" + pickle.dumps(frame, protocol=pickle.HIGHEST_PROTOCOL)
     try:
-        write_atomic(path, data)
+        write_atomic(path, data, private=True, make_folder=True)  # a cache: owner only
     except OSError:
         pass  # a folder we cannot write to only costs the database read next time
 

@@ -11,7 +11,7 @@ import json
 import math
 import os
 import sys
-from typing import Any
+from typing import Annotated, Any
 
 import typer
 import typer.core
@@ -22,7 +22,9 @@ from ..errors import EXIT_BAD_INPUT, DropperError
 EXIT_INTERNAL = 3
 
 __all__ = [
+    "CreateOpt",
     "app",
+    "catalogue_url",
     "echo_cautions",
     "fail",
     "print_json",
@@ -72,7 +74,11 @@ class _Group(typer.core.TyperGroup):
 
 
 def _error(message: str, code: int) -> None:
-    typer.echo(printable(f"Error: {message}".replace("\n", " ")), err=True)
+    # the last guard for secrets: a password in any URL or password=... pair is shown as ***
+    # (URLs that dropper prints itself are masked where they are made, catalogue.paths.mask_url)
+    from ..catalogue.paths import mask_secrets
+
+    typer.echo(printable(mask_secrets(f"Error: {message}".replace("\n", " "))), err=True)
     sys.exit(code)
 
 
@@ -141,6 +147,43 @@ def warn_skipped_parts(frame: Any) -> None:
         )
     if len(skipped) > 5:
         typer.echo(f"Warning: {len(skipped) - 5} more catalogue rows skipped", err=True)
+
+
+CreateOpt = Annotated[
+    bool,
+    typer.Option(
+        "--create",
+        help="Make a new catalogue when the --db file does not exist (without it a missing "
+        "file is refused, so that a mistyped path cannot hide your catalogue).",
+    ),
+]
+
+
+def catalogue_url(db: str | None, create: bool = False) -> str:
+    """The catalogue URL of a command's ``--db`` option (:func:`resolve_url`).
+
+    A ``--db`` SQLite file that does not exist is refused (exit 2, naming the path and the
+    nearest existing file) unless ``create``: only ``parts build`` and ``--create`` make a new
+    catalogue. Without ``--db`` (``$DROPPER_DB`` or the per-user file) the first use builds the
+    catalogue as before.
+    """
+    from ..catalogue.paths import missing_file, nearest_file, resolve_url
+
+    url = resolve_url(db)
+    if db is None or not db.strip() or create:
+        return url
+    path = missing_file(url)
+    if path is None:
+        return url
+    if not path.parent.is_dir():
+        hint = f" (the folder {path.parent} does not exist)"
+    else:
+        near = nearest_file(path)
+        hint = f" (nearest existing file: {near})" if near is not None else ""
+    raise DropperError(
+        f"--db {db}: no catalogue file {path}{hint}. A new catalogue is made only by "
+        "'dropper parts build --db PATH' or with --create."
+    )
 
 
 def fail(message: str, code: int = EXIT_BAD_INPUT) -> None:

@@ -9,7 +9,7 @@ import typer
 
 from ..errors import EXIT_FINDINGS, EXIT_OK, BadValueError
 from ..units import format_value
-from ._app import app, echo_cautions, print_json, warn_skipped_parts
+from ._app import CreateOpt, app, catalogue_url, echo_cautions, print_json, warn_skipped_parts
 from ._circuit import (
     AmbientOpt,
     BurstOpt,
@@ -238,6 +238,7 @@ def audit_options(
     switch_ons: str = "30k",
     policy: Path | None = None,
     db: str | None = None,
+    create: bool = False,
     standby_limit: str | None = None,
     product_class: str | None = None,
 ) -> dict[str, Any]:
@@ -285,7 +286,7 @@ def audit_options(
         columns=_columns(column),
         roles=parse_role_options(role or []),
         roles_file=roles,
-        catalogue=_catalogue(db),
+        catalogue=_catalogue(db, create),
         circuit_defaults={
             key: option_value(text, unit, name)
             for key, text, unit, name in (
@@ -336,6 +337,7 @@ def audit(
     standby_limit: StandbyLimitOpt = None,
     product_class: ProductClassOpt = None,
     db: DbOpt = None,
+    create: CreateOpt = False,
     json: JsonOpt = False,
     report: Annotated[
         Path | None, typer.Option("--report", help="Also write an HTML report to this file.")
@@ -348,7 +350,9 @@ def audit(
     load and the conditions. --topology auto takes it from the BOM (bridge or one diode).
     """
     from ..audit.evaluate import audit_bom
+    from ..outputs import check_outputs
 
+    check_outputs([("--report", report)], [("BOM", bom), ("--roles", roles), ("--policy", policy)])
     opts = audit_options(
         role=role, roles=roles, sheet=sheet, encoding=encoding, column=column,
         topology=topology, mains=mains, mains_tol=mains_tol, freq=freq, harmonics=harmonics,
@@ -357,7 +361,7 @@ def audit(
         load_r=load_r, burst=burst, burst_time=burst_time, burst_period=burst_period,
         regulator=regulator, dropout=dropout, quiescent=quiescent, diode_drop=diode_drop,
         diode_r=diode_r, ambient=ambient, profile=profile, surge=surge, policy=policy, db=db,
-        standby_limit=standby_limit, product_class=product_class, life=life,
+        create=create, standby_limit=standby_limit, product_class=product_class, life=life,
         humidity=humidity, switch_ons=switch_ons,
     )  # fmt: skip
     result = audit_bom(bom, **opts)
@@ -381,11 +385,11 @@ def audit(
     _finish(doc, json)
 
 
-def _catalogue(db: str | None):
+def _catalogue(db: str | None, create: bool = False):
     """The catalogue as a DataFrame (the audit fills missing ratings from its families)."""
-    from ..catalogue import catalogue_frame, resolve_url
+    from ..catalogue import catalogue_frame
 
-    frame = catalogue_frame(resolve_url(db))
+    frame = catalogue_frame(catalogue_url(db, create))
     warn_skipped_parts(frame)
     return frame
 

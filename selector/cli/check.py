@@ -11,7 +11,7 @@ import typer
 from ..cautions import CAUTIONS
 from ..errors import EXIT_FINDINGS
 from ..units import format_value
-from ._app import app, echo_cautions, print_json, to_jsonable
+from ._app import CreateOpt, app, catalogue_url, echo_cautions, print_json, to_jsonable
 from ._circuit import (
     AmbientOpt,
     BleederOpt,
@@ -106,12 +106,16 @@ def check(
     varistor: VaristorOpt = None,
     json: JsonOpt = False,
     db: DbOpt = None,
+    create: CreateOpt = False,
     report: Annotated[
         Path | None, typer.Option("--report", help="Also write an HTML report to this file.")
     ] = None,
 ) -> None:
     """Worst-case stresses, margins and transients of given values (exit 1: load not met at
     some corner, or the discharge rule fails, or a rule of the --varistor part fails)."""
+    from ..outputs import check_outputs
+
+    check_outputs([("--report", report)])  # a missing folder is refused before any work
     circuit = circuit_from_options(
         cap,
         topology=topology,
@@ -133,10 +137,10 @@ def check(
         # the only part check takes from the catalogue (db: --db, else the default)
         import dataclasses
 
-        from ..catalogue import catalogue_frame, resolve_url
+        from ..catalogue import catalogue_frame
         from ..catalogue.varistors import find_varistor, varistor_from_row
 
-        mov_row = find_varistor(catalogue_frame(resolve_url(db)), varistor)
+        mov_row = find_varistor(catalogue_frame(catalogue_url(db, create)), varistor)
         circuit = dataclasses.replace(circuit, varistor=varistor_from_row(mov_row))
     from ..engine import analyse
     from ..engine.distortion import mains_record

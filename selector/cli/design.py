@@ -10,7 +10,15 @@ import typer
 from ..cautions import CAUTIONS
 from ..errors import BadValueError
 from ..units import format_value
-from ._app import app, echo_cautions, print_json, to_jsonable, warn_skipped_parts
+from ._app import (
+    CreateOpt,
+    app,
+    catalogue_url,
+    echo_cautions,
+    print_json,
+    to_jsonable,
+    warn_skipped_parts,
+)
 from ._circuit import (
     AmbientOpt,
     BurstOpt,
@@ -123,6 +131,7 @@ def design(
     ] = None,
     json: JsonOpt = False,
     db: DbOpt = None,
+    create: CreateOpt = False,
     report: Annotated[
         Path | None, typer.Option("--report", help="Also write an HTML report to this file.")
     ] = None,
@@ -134,10 +143,13 @@ def design(
     --burst-time and --burst-period.
     """
     from .. import design as D
-    from ..catalogue import catalogue_frame, resolve_url
+    from ..catalogue import catalogue_frame
     from ..engine.distortion import mains_record
+    from ..outputs import Outputs, check_outputs
     from ..policy import load_policy
 
+    # refused before any work: an output over an input, two outputs on one file, no folder
+    check_outputs([("--bom", bom), ("--report", report)], [("--policy", policy)])
     pol, standby_source = standby_policy(load_policy(policy), standby_limit, product_class)
     reg_v = option_value(regulator, "V", "--regulator") if regulator else None
     if vout is None and reg_v is None:
@@ -177,7 +189,7 @@ def design(
         if not limit_s > 0:
             raise BadValueError(f"--time-limit must be > 0 s, got {time_limit!r}")
     frame = catalogue_frame(
-        resolve_url(db), stock_only=stock_only, min_stock=build_qty if in_stock else None
+        catalogue_url(db, create), stock_only=stock_only, min_stock=build_qty if in_stock else None
     )
     warn_skipped_parts(frame)
     # a progress bar (stderr) for searches over large catalogues
@@ -187,8 +199,6 @@ def design(
     finally:
         if bar is not None:
             bar.close()
-    if bom is not None:
-        D.write_bom(designs[0], bom)
     doc = {
         "requirement": {
             "load_a": req.load_a,
@@ -213,12 +223,17 @@ def design(
         "bom": str(bom) if bom is not None else None,
         "cautions": list(CAUTIONS),
     }
-    if report is not None:
-        from ..report import write_report
+    # the BOM and the report appear together or not at all
+    with Outputs() as outputs:
+        if bom is not None:
+            D.write_bom(designs[0], bom, outputs=outputs)
+        if report is not None:
+            from ..report import write_report
 
-        write_report(
-            report, "design", to_jsonable(doc), designs[0].circuit, analysis=designs[0].analysis
-        )
+            write_report(
+                report, "design", to_jsonable(doc), designs[0].circuit,
+                analysis=designs[0].analysis, outputs=outputs,
+            )  # fmt: skip
     if json:
         print_json(doc)
         return

@@ -12,7 +12,7 @@ from typing import Annotated, Any
 import typer
 
 from ..units import format_value
-from ._app import app, print_json
+from ._app import CreateOpt, app, catalogue_url, print_json
 
 parts_app = typer.Typer(
     name="parts",
@@ -61,11 +61,13 @@ def _first_use_note(url: str):
     return progress
 
 
-def _open(db: str | None):
-    from ..catalogue import open_catalogue, resolve_url
+def _open(db: str | None, create: bool = False):
+    """The catalogue of ``--db`` (a missing file refused unless ``create``, see
+    :func:`~selector.cli._app.catalogue_url`), built on first use."""
+    from ..catalogue import open_catalogue
     from ..catalogue.db import safe_url
 
-    url = resolve_url(db)
+    url = catalogue_url(db, create)
     return open_catalogue(url, progress=_first_use_note(safe_url(url)))
 
 
@@ -180,6 +182,7 @@ def find(
     min_power: Annotated[str | None, typer.Option(help="Power rating at least this.")] = None,
     limit: Annotated[int, typer.Option(min=1, help="Show at most this many parts.")] = 20,
     db: DbOption = None,
+    create: CreateOpt = False,
     json: JsonOption = False,
 ) -> None:
     """Search the catalogue; best matches first, ties to the cheaper part.
@@ -188,7 +191,7 @@ def find(
     """
     from ..catalogue import find_parts
 
-    engine = _open(db)
+    engine = _open(db, create)
     try:
         found = find_parts(
             engine,
@@ -240,12 +243,12 @@ def find(
 
 
 @parts_app.command("stats")
-def stats(db: DbOption = None, json: JsonOption = False) -> None:
+def stats(db: DbOption = None, create: CreateOpt = False, json: JsonOption = False) -> None:
     """Count the catalogue's parts per kind and family; name the price model."""
     from ..catalogue import catalogue_stats
     from ..catalogue.db import safe_url
 
-    engine = _open(db)
+    engine = _open(db, create)
     try:
         result = {"url": safe_url(engine), **catalogue_stats(engine)}
     finally:

@@ -12,7 +12,7 @@ from typing import Annotated
 import typer
 
 from ..errors import EXIT_BAD_INPUT, EXIT_FINDINGS, BadValueError
-from ._app import print_json
+from ._app import CreateOpt, print_json
 from .parts import DbOption, JsonOption, _Bar, _open, parts_app
 
 #: imports with more data rows than this show a progress bar (on stderr)
@@ -83,6 +83,7 @@ def import_(
         ),
     ] = False,
     db: DbOption = None,
+    create: CreateOpt = False,
     json: JsonOption = False,
 ) -> None:
     """Import your own stock list (parts, prices with quantity breaks, stock counts).
@@ -95,7 +96,7 @@ def import_(
     from ..catalogue.importer import import_stock
 
     column_map = _parse_maps(map_)
-    engine = _open(db)
+    engine = _open(db, create)
     bar = None
     if not json and _count_rows(file) > PROGRESS_ROWS:
         bar = _Bar(f"importing {file.name}")

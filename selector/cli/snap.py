@@ -30,7 +30,23 @@ def snap(
         str | None, typer.Option(help="Snap this column of the CSV file given as VALUE.")
     ] = None,
     output: Annotated[
-        Path | None, typer.Option(help="With --column: write here instead of back to the file.")
+        Path | None,
+        typer.Option(help="With --column: write here (default: FILE.snapped.csv beside it)."),
+    ] = None,
+    in_place: Annotated[
+        bool,
+        typer.Option(
+            "--in-place",
+            help="With --column: rewrite the CSV file itself (encoding, byte-order mark, "
+            "line ends and headers kept).",
+        ),
+    ] = False,
+    encoding: Annotated[
+        str | None,
+        typer.Option(
+            help="With --column: the CSV file's encoding (default: UTF-8, or as its "
+            "byte-order mark says)."
+        ),
     ] = None,
     json: Annotated[bool, typer.Option("--json", help="Print one JSON document.")] = False,
 ) -> None:
@@ -41,8 +57,9 @@ def snap(
         if len(values) != 1:
             raise typer.BadParameter("with --column give exactly one CSV file", param_hint="VALUES")
         result = snapping.snap_csv_column(
-            Path(values[0]), column, series=series, mode=mode, quantity=unit, output=output
-        )
+            Path(values[0]), column, series=series, mode=mode, quantity=unit, output=output,
+            in_place=in_place, encoding=encoding,
+        )  # fmt: skip
         if json:
             print_json(result)
         else:
@@ -51,6 +68,8 @@ def snap(
                 f"{result['path']}"
             )
         return
+    if output is not None or in_place or encoding is not None:
+        raise typer.BadParameter("--output, --in-place and --encoding need --column")
     rows = snapping.snap_texts(values, series=series, mode=mode, quantity=unit)
     if json:
         print_json(rows)

@@ -15,7 +15,7 @@ import typer
 from ..cautions import CAUTIONS
 from ..errors import BadValueError
 from ..units import format_value
-from ._app import app, echo_cautions, print_json
+from ._app import CreateOpt, app, echo_cautions, print_json
 from ._circuit import (
     AmbientOpt,
     BleederOpt,
@@ -137,6 +137,7 @@ def yield_cmd(
     column: ColumnOpt = None,
     policy: PolicyOpt = None,
     db: DbOpt = None,
+    create: CreateOpt = False,
     json: JsonOpt = False,
 ) -> None:
     """Production yield: the share of units, part values drawn within their tolerances, that
@@ -162,6 +163,7 @@ def yield_cmd(
             load_r=load_r, burst=burst, burst_time=burst_time, burst_period=burst_period,
             regulator=regulator, dropout=dropout, quiescent=quiescent, diode_drop=diode_drop,
             diode_r=diode_r, ambient=ambient, profile=profile, surge=surge, policy=policy, db=db,
+            create=create,
         )  # fmt: skip
         design = bom_design(bom, **opts)
         circuit, tol = design.circuit, design.tolerances

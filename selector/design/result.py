@@ -189,15 +189,12 @@ REF_PREFIX: Final[dict[str, str]] = {
 }
 
 
-FORMULA_START: Final[tuple[str, ...]] = ("=", "+", "-", "@")
-
-
 def bom_cell(text: Any) -> str:
-    """A CSV cell a spreadsheet will not run as a formula (leading = + - @ get a quote)."""
-    s = "" if text is None else str(text)
-    if s.startswith(FORMULA_START):
-        return "'" + s
-    return s
+    """A CSV cell a spreadsheet will not run as a formula: :func:`selector.outputs.spreadsheet_cell`
+    (leading = + - @ tab CR get an apostrophe; plain numbers stay as they are)."""
+    from ..outputs import spreadsheet_cell
+
+    return spreadsheet_cell(text)
 
 
 def bom_rows(d: Design) -> list[dict[str, str]]:
@@ -241,27 +238,28 @@ def bom_rows(d: Design) -> list[dict[str, str]]:
     return rows
 
 
-def write_bom(d: Design, path: str | Any) -> None:
-    """Write the BOM of ``d`` as CSV atomically (temporary file, then rename)."""
+def bom_csv(d: Design) -> str:
+    """The BOM of ``d`` as CSV text (lines end in CRLF, the csv module's default), every cell
+    passed through :func:`bom_cell`."""
     import csv
-    import os
-    import tempfile
-    from pathlib import Path
+    import io
 
-    target = Path(path)
-    rows = bom_rows(d)
     cols = ["Reference", "Value", "Qty", "Description", "Footprint", "Role"]
-    fd, tmp = tempfile.mkstemp(prefix=".bom-", suffix=".csv", dir=target.parent or Path("."))
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
-            w = csv.writer(fh)
-            w.writerow(cols)
-            for r in rows:
-                w.writerow([bom_cell(r[c]) for c in cols])
-        os.replace(tmp, target)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
+    buf = io.StringIO(newline="")
+    w = csv.writer(buf)
+    w.writerow(cols)
+    for r in bom_rows(d):
+        w.writerow([bom_cell(r[c]) for c in cols])
+    return buf.getvalue()
+
+
+def write_bom(d: Design, path: str | Any, outputs: Any = None) -> None:
+    """Write the BOM of ``d`` as CSV atomically (temporary file, then rename; the user's
+    umask). With ``outputs`` (a :class:`selector.outputs.Outputs`) the file is staged there
+    and appears when the command's outputs are committed together."""
+    from ..outputs import write_atomic
+
+    if outputs is not None:
+        outputs.write(path, bom_csv(d), newline="")
+    else:
+        write_atomic(path, bom_csv(d), newline="")

@@ -23,7 +23,6 @@ import datetime as _dt
 import json
 import math
 import os
-import tempfile
 from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 from typing import Any
@@ -272,6 +271,7 @@ def write_report(
     mains: Any = None,
     tolerances: Any = None,
     conditions: Any = None,
+    outputs: Any = None,
 ) -> Path:
     """Write one self-contained HTML report and return its path.
 
@@ -286,7 +286,9 @@ def write_report(
     fresh ``selector.engine.analyse(circuit, mains, tolerances, conditions)`` when ``mains``
     is given (see :mod:`.figures`). ``labels``: schematic role -> label text (see
     :mod:`.schematic`); by default taken from the document. The file is written to a
-    temporary name and renamed, so a failure leaves no half-written report.
+    temporary name and renamed, so a failure leaves no half-written report (the user's
+    umask; :mod:`selector.outputs`). With ``outputs`` (an :class:`selector.outputs.Outputs`)
+    the report is staged there and appears when the command's outputs are committed together.
     """
     html = render_report(
         kind,
@@ -301,19 +303,11 @@ def write_report(
         tolerances=tolerances,
         conditions=conditions,
     )
-    target = Path(path)
-    fd, tmp = tempfile.mkstemp(dir=target.parent or ".", prefix=".dropper-", suffix=".html")
-    mask = os.umask(0)
-    os.umask(mask)
-    os.chmod(tmp, 0o666 & ~mask)  # like any file the user writes, not mkstemp's 0600
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(html)
-        os.replace(tmp, target)
-    finally:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-    return target
+    from ..outputs import write_atomic
+
+    if outputs is not None:
+        return outputs.write(path, html)
+    return write_atomic(path, html)
 
 
 def _json_default(obj: Any) -> Any:
