@@ -61,19 +61,22 @@ def _first_use_note(url: str):
     return progress
 
 
-def _open(db: str | None):
+def _open(db: str | None, read_only: bool = False):
     from ..catalogue import open_catalogue, resolve_url
     from ..catalogue.db import safe_url
 
     url = resolve_url(db)
-    return open_catalogue(url, progress=_first_use_note(safe_url(url)))
+    return open_catalogue(url, progress=_first_use_note(safe_url(url)), read_only=read_only)
 
 
 @parts_app.command("build")
 def build(db: DbOption = None, json: JsonOption = False) -> None:
     """Build (or rebuild) the built-in catalogue from the data files in catalogue/.
 
-    Imported stock rows are kept; only the built-in rows are replaced.
+    Imported stock rows are kept; only the built-in rows are replaced, in one transaction
+    (a design running meanwhile reads the old rows or the new ones).
+    Exit code: 0 built, 2 bad data file or read-only catalogue, 4 catalogue busy (another
+    process kept it locked for $DROPPER_BUSY_TIMEOUT seconds, default 60; nothing written).
     """
     from ..catalogue import build_catalogue, resolve_url
 
