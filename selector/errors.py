@@ -3,26 +3,32 @@
 The library raises these; the CLI turns each into a single ``Error: ...`` line on stderr and
 the exit code the class carries (see ``selector.cli``). Nothing else in the package prints.
 
-Exit codes (the contract, DOMAIN.md section 9): 0 success, 1 findings or infeasible, 2 bad input.
+Exit codes (the contract, DOMAIN.md section 9): 0 success, 1 findings or infeasible, 2 bad input;
+beyond it, 3 a bug in dropper (``selector.cli._app``) and 4 catalogue busy: another process held
+the catalogue's write lock for longer than the busy timeout (:class:`CatalogueBusyError`).
 """
 
 from __future__ import annotations
 
 __all__ = [
     "EXIT_BAD_INPUT",
+    "EXIT_BUSY",
     "EXIT_FINDINGS",
     "EXIT_OK",
     "BadRowError",
     "BadValueError",
+    "CatalogueBusyError",
     "CatalogueError",
     "DropperError",
     "InfeasibleError",
     "OutOfRangeError",
+    "ReadOnlyCatalogueError",
 ]
 
 EXIT_OK = 0
 EXIT_FINDINGS = 1
 EXIT_BAD_INPUT = 2
+EXIT_BUSY = 4
 
 
 class DropperError(Exception):
@@ -56,6 +62,18 @@ class BadRowError(DropperError):
 
 class CatalogueError(DropperError):
     """The catalogue database is missing, outdated or cannot be opened."""
+
+
+class CatalogueBusyError(CatalogueError):
+    """Another process kept the catalogue locked for longer than the busy timeout (exit 4).
+
+    Nothing was written; running the command again later is safe."""
+
+    exit_code = EXIT_BUSY
+
+
+class ReadOnlyCatalogueError(CatalogueError):
+    """A command must write to a catalogue whose file or folder is read-only (exit 2)."""
 
 
 class OutOfRangeError(DropperError, ValueError):

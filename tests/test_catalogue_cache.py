@@ -4,8 +4,8 @@ from the migration files' text, and the data checksum kept under file stats.
 The references each check is held against are outside the cache: the frame read from the
 database by ``parts_frame`` (``pandas.testing.assert_frame_equal``), alembic's own head
 revision, ``build.data_checksum`` reading the files, SQLAlchemy's URL parser, and the SQLite
-file format's header (file change counter at offset 24, file format write version 2 in WAL
-mode; sqlite.org "Database File Format", the database header table). The demo stock list is
+file format's header (file change counter at offset 24, file format read/write versions 2 in
+WAL mode; sqlite.org "Database File Format", the database header table). The demo stock list is
 invented DEMO data (tests/data/demo_stock.csv). No check here is timed.
 """
 
@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import os
 import shutil
+import sqlite3
 import subprocess
 import sys
 import threading
@@ -217,35 +218,51 @@ def test_concurrent_processes_agree(catalogue_copy_url):
     assert [p.name for p in db_file.parent.iterdir() if p.name.endswith(".tmp")] == []
 
 
-def test_wal_database_is_read_without_cache(catalogue_copy_url):
-    engine = make_engine(catalogue_copy_url)
+def test_catalogue_files_are_in_wal_mode_and_cached(catalogue_copy_url):
+    # SQLite file format: read and write version bytes (offsets 18, 19) are 2 in WAL mode
+    assert _file(catalogue_copy_url).read_bytes()[18:20] == b"\x02\x02"
+    first = FC.read_catalogue_frame(catalogue_copy_url)
+    second = FC.read_catalogue_frame(catalogue_copy_url)
+    assert not first.from_cache and second.from_cache
+    assert_frame_equal(second.frame, _db_frame(catalogue_copy_url))
+
+
+def test_wal_commit_by_another_program_invalidates(catalogue_copy_url):
+    """A commit that dropper did not make (no write_generation count) still changes the key:
+    while it sits in the -wal file (SQLite: a commit appends frames to the WAL), and after the
+    checkpoint has copied it into the database file."""
+    db_file = _file(catalogue_copy_url)
+    assert FC.read_catalogue_frame(catalogue_copy_url).from_cache is False
+    other = sqlite3.connect(db_file)
     try:
-        with engine.connect() as conn:
-            conn.exec_driver_sql("PRAGMA journal_mode=WAL")
-    finally:
-        engine.dispose()
-    # SQLite file format: write version byte (offset 18) is 2 in WAL mode
-    assert _file(catalogue_copy_url).read_bytes()[18] == 2
-    for _ in range(2):
+        other.execute("UPDATE parts SET unit_price = 9.5 WHERE id = 1")
+        other.commit()
+        assert db_file.with_name(db_file.name + "-wal").stat().st_size > 0
         got = FC.read_catalogue_frame(catalogue_copy_url)
         assert not got.from_cache
-    assert not FC.cache_path(_file(catalogue_copy_url)).exists()
+        assert got.frame.loc[got.frame["id"] == 1, "unit_price"].item() == 9.5
+    finally:
+        other.close()  # the last connection: checkpoint into the database file
+    got = FC.read_catalogue_frame(catalogue_copy_url)
+    assert got.frame.loc[got.frame["id"] == 1, "unit_price"].item() == 9.5
     assert_frame_equal(got.frame, _db_frame(catalogue_copy_url))
 
 
 def test_header_change_counter_moves_on_every_commit(catalogue_copy_url):
-    """The SQLite header's file change counter (offset 24, big-endian) - the cache's guard
-    against updates that change no row count - increments on a committed write."""
+    """In rollback-journal mode, the SQLite header's file change counter (offset 24,
+    big-endian) - the cache's guard against updates that change no row count - increments on a
+    committed write (sqlite.org "Database File Format")."""
     db_file = _file(catalogue_copy_url)
-    state = FC._db_state(db_file)
-    assert state is not None
-    assert state.change_counter == int.from_bytes(db_file.read_bytes()[24:28], "big")
-    engine = make_engine(catalogue_copy_url)
+    con = sqlite3.connect(db_file)
     try:
-        with engine.begin() as conn:
-            conn.execute(update(Part).where(Part.id == 1).values(stock=7))
+        assert con.execute("PRAGMA journal_mode=DELETE").fetchone()[0] == "delete"
+        state = FC._db_state(db_file)
+        assert state is not None and state.wal is None
+        assert state.change_counter == int.from_bytes(db_file.read_bytes()[24:28], "big")
+        con.execute("UPDATE parts SET stock = 7 WHERE id = 1")
+        con.commit()
     finally:
-        engine.dispose()
+        con.close()
     after = FC._db_state(db_file)
     assert after is not None and after.change_counter > state.change_counter
 

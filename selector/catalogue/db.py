@@ -18,17 +18,39 @@ from __future__ import annotations
 import time
 from collections.abc import Callable
 from datetime import UTC, datetime
-from pathlib import Path
 from typing import Any, Final
 
-from sqlalchemy import Engine, create_engine, delete, event, func, inspect, select, text
+from sqlalchemy import (
+    Connection,
+    Engine,
+    create_engine,
+    delete,
+    event,
+    func,
+    inspect,
+    select,
+    text,
+)
 from sqlalchemy.engine import make_url
 from sqlalchemy.exc import ArgumentError, IntegrityError, SQLAlchemyError
 from sqlalchemy.pool import StaticPool
 
-from ..errors import CatalogueError
+from ..errors import CatalogueBusyError, CatalogueError, ReadOnlyCatalogueError
 from ..resources import migrations_dir
 from .fingerprint import cached_data_checksum, quick_head_revision
+from .locking import (
+    busy_timeout_s,
+    engine_facts,
+    is_read_only,
+    on_connect_hook,
+    read_only_error,
+    read_only_url,
+    sqlite_path,
+    sqlite_problem,
+    where,
+    writable,
+    write_transaction,
+)
 from .models import CatalogueMeta, Part
 from .paths import ENV_VAR, default_path, mask_secrets, mask_url, resolve_url
 
@@ -41,12 +63,14 @@ __all__ = [
     "default_path",
     "downgrade",
     "head_revision",
+    "is_read_only",
     "make_engine",
     "migrate",
     "open_catalogue",
     "read_meta",
     "resolve_url",
     "safe_url",
+    "write_transaction",
 ]
 
 Progress = Callable[[int, int], None]
@@ -78,31 +102,44 @@ def _parse_url(url: str):
     raise CatalogueError(f"cannot read database URL {safe_url(url)}: {problem}") from None
 
 
-def _sqlite_on_connect(dbapi_conn: Any, _record: Any) -> None:
-    cur = dbapi_conn.cursor()
-    cur.execute("PRAGMA foreign_keys=ON")
-    cur.close()
+def make_engine(url: str, read_only: bool = False) -> Engine:
+    """An engine for ``url`` (a plain path is a SQLite file).
 
-
-def make_engine(url: str) -> Engine:
-    """An engine for ``url`` (a plain path is a SQLite file). For SQLite files the folder is
-    created; foreign keys are switched on; an in-memory database keeps one shared connection."""
+    For a SQLite file: the folder is created; foreign keys are switched on; a busy timeout
+    (:func:`busy_timeout_s`) makes a connection wait for another process's lock; a writable
+    file is switched to WAL journal mode; a file that cannot be written (file or folder
+    read-only, or ``read_only=True``) is opened read-only and every connection refuses writes
+    (``PRAGMA query_only``), see :func:`is_read_only`. An in-memory database keeps one shared
+    connection."""
     url = resolve_url(url)
     u = _parse_url(url)
     kwargs: dict[str, Any] = {}
-    if u.get_backend_name() == "sqlite":
-        database = u.database or ""
-        if database in ("", ":memory:") or database.startswith("file::memory:"):
-            kwargs = {"poolclass": StaticPool, "connect_args": {"check_same_thread": False}}
-        else:
-            Path(database).expanduser().parent.mkdir(parents=True, exist_ok=True)
+    sqlite = u.get_backend_name() == "sqlite"
+    path = sqlite_path(u) if sqlite else None
+    if sqlite and path is None:
+        kwargs = {"poolclass": StaticPool, "connect_args": {"check_same_thread": False}}
+    elif sqlite and path is not None:
+        if u.query.get("mode") == "ro" or (read_only and not path.exists()) or not writable(path):
+            # asked for, or a file we cannot write: SQLite's read-only URI (which also never
+            # creates a missing file)
+            read_only = True
+            if not (u.database or "").startswith("file:"):
+                u = read_only_url(u, path)
+        if not read_only:
+            path.parent.mkdir(parents=True, exist_ok=True)
+        kwargs = {"connect_args": {"timeout": busy_timeout_s()}}
     try:
         engine = create_engine(u, **kwargs)
     except (ArgumentError, ImportError) as exc:
         problem = mask_secrets(str(exc))
         raise CatalogueError(f"cannot open catalogue {safe_url(url)}: {problem}") from None
-    if u.get_backend_name() == "sqlite":
-        event.listen(engine, "connect", _sqlite_on_connect)
+    facts = engine_facts(engine)
+    facts["read_only"] = bool(sqlite and path is not None and read_only)
+    if path is not None:
+        facts["file"] = str(path.absolute())
+    if sqlite:
+        on_connect = on_connect_hook(facts["read_only"], path is not None)
+        event.listen(engine, "connect", on_connect)
     return engine
 
 
@@ -127,46 +164,50 @@ def head_revision() -> str:
     return head
 
 
-def current_revision(engine: Engine) -> str | None:
+def current_revision(engine: Engine | Connection) -> str | None:
     """The database's alembic revision (None for an empty database).
 
     Read from alembic's ``alembic_version`` table directly (importing alembic costs more than
     the whole query); only a table with several rows (branches, which dropper does not make)
-    is handed to alembic, which refuses it.
+    is handed to alembic, which refuses it. ``engine`` may be an open connection (a write
+    transaction reads its own view).
     """
+    if isinstance(engine, Connection):
+        return _revision_on(engine)
     with engine.connect() as conn:
-        if not inspect(conn).has_table(_VERSION_TABLE):
-            return None
-        rows = conn.execute(text(f"SELECT version_num FROM {_VERSION_TABLE}")).scalars().all()
-        if len(rows) <= 1:
-            return rows[0] if rows else None
-        from alembic.runtime.migration import MigrationContext
-
-        return MigrationContext.configure(conn).get_current_revision()
+        return _revision_on(conn)
 
 
-def _run(engine: Engine, action: str, revision: str) -> None:
+def _revision_on(conn: Connection) -> str | None:
+    if not inspect(conn).has_table(_VERSION_TABLE):
+        return None
+    rows = conn.execute(text(f"SELECT version_num FROM {_VERSION_TABLE}")).scalars().all()
+    if len(rows) <= 1:
+        return rows[0] if rows else None
+    from alembic.runtime.migration import MigrationContext
+
+    return MigrationContext.configure(conn).get_current_revision()
+
+
+def _alembic(conn: Connection, engine: Engine, action: str, revision: str) -> None:
+    """Run alembic's ``action`` on ``conn``, already inside a write transaction."""
     from alembic import command
     from alembic.util import CommandError
 
-    sqlite = engine.dialect.name == "sqlite"
     try:
-        with engine.connect() as conn:
-            if sqlite:
-                # a batch migration rebuilds a table (create copy, drop, rename); with foreign
-                # keys on, the drop would cascade into price_breaks. The pragma only takes
-                # effect outside a transaction, so set it before alembic begins one.
-                conn.exec_driver_sql("PRAGMA foreign_keys=OFF")
-                conn.commit()
-            try:
-                with conn.begin():
-                    getattr(command, action)(alembic_config(conn), revision)
-            finally:
-                if sqlite:
-                    conn.exec_driver_sql("PRAGMA foreign_keys=ON")
-                    conn.commit()
+        getattr(command, action)(alembic_config(conn), revision)
     except CommandError as exc:
         raise CatalogueError(f"cannot migrate {safe_url(engine)}: {exc}") from None
+
+
+def _run(engine: Engine, action: str, revision: str) -> None:
+    # a batch migration rebuilds a table (create copy, drop, rename); with foreign keys on,
+    # the drop would cascade into price_breaks, hence foreign_keys=False
+    try:
+        with write_transaction(engine, "the migration", foreign_keys=False) as conn:
+            _alembic(conn, engine, action, revision)
+    except (CatalogueBusyError, ReadOnlyCatalogueError):
+        raise
     except SQLAlchemyError as exc:
         raise CatalogueError(f"cannot migrate {safe_url(engine)}: {_reason(exc)}") from None
 
@@ -195,42 +236,76 @@ def read_meta(engine: Engine) -> dict[str, str]:
     return {k: v for k, v in rows}
 
 
+def _unknown_revision(engine: Engine, current: str, head: str) -> CatalogueError | None:
+    from alembic.script import ScriptDirectory
+
+    script = ScriptDirectory.from_config(alembic_config())
+    known = {rev.revision for rev in script.walk_revisions()}
+    if current in known:
+        return None
+    return CatalogueError(
+        f"catalogue {safe_url(engine)} has schema revision {current!r}, unknown to this "
+        f"dropper (newest known: {head!r}); upgrade dropper or use another --db"
+    )
+
+
 def _ensure_schema(engine: Engine) -> None:
+    """Migrate to head when needed. The decision is taken again inside the write lock, so of
+    several processes starting at once on a new file one migrates and the others find the
+    schema made (each migration is one transaction: nobody sees half of it)."""
     current = current_revision(engine)
     if current is not None and current == quick_head_revision():
         return
     head = head_revision()
     if current == head:
         return
-    if current is not None:
-        from alembic.script import ScriptDirectory
-
-        script = ScriptDirectory.from_config(alembic_config())
-        known = {rev.revision for rev in script.walk_revisions()}
-        if current not in known:
-            raise CatalogueError(
-                f"catalogue {safe_url(engine)} has schema revision {current!r}, unknown to this "
-                f"dropper (newest known: {head!r}); upgrade dropper or use another --db"
-            )
-    elif inspect(engine).has_table(Part.__tablename__):
-        raise CatalogueError(
-            f"{safe_url(engine)} has a 'parts' table not made by dropper's migrations; "
-            "use another --db"
+    if is_read_only(engine):
+        if current is not None and (problem := _unknown_revision(engine, current, head)):
+            raise problem
+        state = "holds no catalogue" if current is None else f"has schema {current!r}"
+        raise ReadOnlyCatalogueError(
+            f"catalogue {where(engine)} is read-only and {state}; it needs the migration to "
+            f"{head!r}, which cannot be written. Open it once where it is writable (any "
+            "dropper command) or use another --db"
         )
-    migrate(engine, "head")
+    with write_transaction(engine, "the migration", foreign_keys=False) as conn:
+        current = _revision_on(conn)
+        if current == head:
+            return
+        if current is not None:
+            if problem := _unknown_revision(engine, current, head):
+                raise problem
+        elif inspect(conn).has_table(Part.__tablename__):
+            raise CatalogueError(
+                f"{safe_url(engine)} has a 'parts' table not made by dropper's migrations; "
+                "use another --db"
+            )
+        _alembic(conn, engine, "upgrade", "head")
 
 
-def _rebuild(engine: Engine, checksum: str, progress: Progress | None) -> dict[str, Any]:
+def _stored_checksum(conn: Connection) -> str | None:
+    stmt = select(CatalogueMeta.value).where(CatalogueMeta.key == "data_checksum")
+    return conn.execute(stmt).scalar_one_or_none()
+
+
+def _rebuild(
+    engine: Engine, checksum: str, progress: Progress | None, force: bool = True
+) -> dict[str, Any] | None:
+    """Replace the built-in rows in one write transaction (readers see the old rows or the
+    new ones, never a mix). ``force=False``: skip (return None) when the stored checksum,
+    read inside the write lock, already equals ``checksum`` (another process built first)."""
     from .build import builtin_rows, load_price_model
 
     started = time.perf_counter()
     rows = builtin_rows()  # validates every data file before the database is touched
     total = len(rows)
-    if progress is not None:
-        progress(0, total)
     table = Part.__table__
     try:
-        with engine.begin() as conn:
+        with write_transaction(engine, "the catalogue build") as conn:
+            if not force and _stored_checksum(conn) == checksum:
+                return None
+            if progress is not None:
+                progress(0, total)
             conn.execute(delete(table).where(table.c.source == "builtin"))
             for start in range(0, total, _CHUNK):
                 conn.execute(table.insert(), rows[start : start + _CHUNK])
@@ -270,29 +345,43 @@ def _rebuild(engine: Engine, checksum: str, progress: Progress | None) -> dict[s
     }
 
 
-def _engine_of(url: str | Engine | None) -> Engine:
+def _engine_of(url: str | Engine | None, read_only: bool = False) -> Engine:
     if isinstance(url, Engine):
         return url
-    return make_engine(resolve_url(url))
+    return make_engine(resolve_url(url), read_only=read_only)
 
 
-def open_catalogue(url: str | Engine | None = None, progress: Progress | None = None) -> Engine:
+def open_catalogue(
+    url: str | Engine | None = None, progress: Progress | None = None, read_only: bool = False
+) -> Engine:
     """An engine on the catalogue at ``url`` (see :func:`resolve_url`), ready to query.
 
     Migrates the schema to head; builds the built-in parts on first use and rebuilds them when
     the data files changed (their checksum differs from the one stored at the last build).
-    Imported rows (``source != 'builtin'``) are kept. Raises CatalogueError when the database
-    cannot be opened or carries an unknown schema.
+    Imported rows (``source != 'builtin'``) are kept. Of several processes doing this at once
+    one writes and the others wait for it and find the work done (busy timeout; past it,
+    :class:`CatalogueBusyError`). A read-only catalogue (``read_only=True``, or a file or
+    folder that cannot be written) is served as it is: never migrated (an old schema raises
+    :class:`ReadOnlyCatalogueError`) and never rebuilt (built-in rows of older data files
+    stay). Raises CatalogueError when the database cannot be opened or carries an unknown
+    schema.
     """
-    engine = _engine_of(url)
+    engine = _engine_of(url, read_only)
     try:
         _ensure_schema(engine)
         checksum = cached_data_checksum()
-        if read_meta(engine).get("data_checksum") != checksum:
-            _rebuild(engine, checksum, progress)
+        if not is_read_only(engine) and read_meta(engine).get("data_checksum") != checksum:
+            _rebuild(engine, checksum, progress, force=False)
     except SQLAlchemyError as exc:
+        problem = sqlite_problem(exc, engine, "opening it") if _is_sqlite(engine) else None
+        if problem is not None:
+            raise problem from None
         raise CatalogueError(f"cannot open catalogue {safe_url(engine)}: {_reason(exc)}") from None
     return engine
+
+
+def _is_sqlite(engine: Engine) -> bool:
+    return engine.dialect.name == "sqlite"
 
 
 def build_catalogue(url: str | Engine | None = None, progress: Progress | None = None) -> dict:
@@ -300,14 +389,23 @@ def build_catalogue(url: str | Engine | None = None, progress: Progress | None =
 
     Returns a summary: ``url`` (password hidden), ``builtin_parts``, ``imported_parts``,
     ``data_checksum``, ``built_at`` (UTC, ISO 8601), ``build_time_s``, ``price_note``.
+    Raises :class:`ReadOnlyCatalogueError` for a read-only file, :class:`CatalogueBusyError`
+    when another writer holds it past the busy timeout.
     """
     engine = _engine_of(url)
     try:
+        if is_read_only(engine):
+            raise read_only_error(engine, "the catalogue build")
         _ensure_schema(engine)
         from .build import data_checksum
 
-        return _rebuild(engine, data_checksum(), progress)
+        summary = _rebuild(engine, data_checksum(), progress)
+        assert summary is not None  # force=True always builds
+        return summary
     except SQLAlchemyError as exc:
+        problem = sqlite_problem(exc, engine, "the build") if _is_sqlite(engine) else None
+        if problem is not None:
+            raise problem from None
         raise CatalogueError(f"cannot open catalogue {safe_url(engine)}: {_reason(exc)}") from None
     finally:
         if not isinstance(url, Engine):

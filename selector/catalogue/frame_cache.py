@@ -27,8 +27,18 @@ is the same, so the stored frame belongs to its key.
 (:func:`~selector.catalogue.fingerprint.quick_head_revision`) and the stored data checksum equal
 to the installed data files' (:func:`~selector.catalogue.fingerprint.cached_data_checksum`);
 otherwise :func:`~selector.catalogue.db.open_catalogue` first migrates or rebuilds, as before.
-Databases in WAL mode (whose header counter does not move on every commit), non-file SQLite
-URLs and other servers (PostgreSQL) are always read through SQLAlchemy, without a cache.
+Non-file SQLite URLs and other servers (PostgreSQL) are always read through SQLAlchemy,
+without a cache.
+
+**WAL mode** (dropper switches writable files to it, :mod:`selector.catalogue.locking`). The
+header's change counter does not move on every commit there (SQLite file format: "might not be
+incremented on each transaction in WAL mode"), and a writer may commit while the state is read.
+The key then also holds ``catalogue_meta.write_generation``, which every dropper write counts
+up in its own transaction (so the read transaction's snapshot gives a consistent value), and
+the ``-wal`` file's size, modification time and 32-byte header (salts and checkpoint number),
+which move with any commit, also one made by another program, until the next checkpoint
+writes the pages into the database file (whose size and time then move). As before, a frame is
+stored only when the state read before and after it is the same.
 
 Bump :data:`FRAME_VERSION` whenever ``parts_frame`` changes what it returns.
 """
@@ -61,7 +71,7 @@ FRAME_VERSION: Final[str] = "2"  # 2: rows as stored (stock as float), checked o
 CACHE_SUFFIX: Final[str] = ".frame.pkl"
 _MAGIC: Final[bytes] = b"dropper parts frame\n"
 _SQLITE_MAGIC: Final[bytes] = b"SQLite format 3\x00"
-_META_KEYS: Final[tuple[str, ...]] = ("data_checksum", "built_at")
+_META_KEYS: Final[tuple[str, ...]] = ("data_checksum", "built_at", "write_generation")
 
 
 @dataclass(frozen=True)
@@ -83,6 +93,8 @@ class _State:
     size: int
     mtime_ns: int
     inode: int
+    generation: str | None = None
+    wal: str | None = None  # WAL mode: the -wal file's size, mtime and header (hex)
 
 
 def cache_path(db_file: Path | str) -> Path:
@@ -98,8 +110,7 @@ def _db_state(db_file: Path) -> _State | None:
     except (sqlite3.Error, ValueError):
         return None
     try:
-        if str(con.execute("PRAGMA journal_mode").fetchone()[0]).lower() == "wal":
-            return None
+        wal_mode = str(con.execute("PRAGMA journal_mode").fetchone()[0]).lower() == "wal"
         con.execute("BEGIN")
         revisions = con.execute("SELECT version_num FROM alembic_version").fetchall()
         # the shared lock is held from here to COMMIT: no writer can change the file meanwhile
@@ -113,6 +124,7 @@ def _db_state(db_file: Path) -> _State | None:
             ).fetchall()
         )
         parts, max_id = con.execute("SELECT count(*), max(id) FROM parts").fetchone()
+        wal = _wal_state(db_file) if wal_mode else None
         con.execute("COMMIT")
     except (sqlite3.Error, OSError):
         return None
@@ -130,7 +142,24 @@ def _db_state(db_file: Path) -> _State | None:
         size=st.st_size,
         mtime_ns=st.st_mtime_ns,
         inode=st.st_ino,
+        generation=meta.get("write_generation"),
+        wal=wal,
     )
+
+
+def _wal_state(db_file: Path) -> str:
+    """The -wal file's size, modification time and header, as text; "" when there is none or
+    it is empty (an empty WAL holds no commit: SQLite leaves one behind a read-only reader)."""
+    wal = db_file.with_name(db_file.name + "-wal")
+    try:
+        with open(wal, "rb") as fh:
+            st = os.fstat(fh.fileno())
+            header = fh.read(32)
+    except FileNotFoundError:
+        return ""
+    if st.st_size == 0:
+        return ""
+    return f"{st.st_size}:{st.st_mtime_ns}:{header.hex()}"
 
 
 def _key(state: _State) -> str:
@@ -226,6 +255,9 @@ def read_catalogue_frame(
             return FrameRead(
                 parts_frame(engine, stock_only=stock_only, min_stock=min_stock), from_cache=False
             )
+        # closing the pool's connections checkpoints a WAL that the first-use build (or a
+        # migration) just filled, so the key below is the one the next start will read
+        engine.dispose()
         before = _db_state(db_file)
         # the cache holds the rows as stored; the range check runs on every read, so a
         # change of selector.ranges never meets a stale cache

@@ -2,7 +2,9 @@
 
 Each row is compared with what is stored under its stable code (``S:<supplier>:<supplier
 code>``); only new and changed rows are written, by ``INSERT .. ON CONFLICT`` so that two
-imports at once on PostgreSQL do not lose rows. A dry run counts and rolls back.
+imports at once on PostgreSQL do not lose rows. On SQLite the transaction holds the write lock
+from its start (:func:`~selector.catalogue.locking.write_transaction`), so two imports at once
+run one after the other. A dry run only reads: it sends no write statement at all.
 """
 
 from __future__ import annotations
@@ -15,6 +17,7 @@ from typing import Any, Final
 from sqlalchemy import Engine, select
 
 from ..errors import CatalogueError
+from .locking import write_transaction
 from .models import Part, PriceBreak, Supplier
 from .stock_rows import TEMPLATE_COLUMNS, StockRow
 
@@ -66,60 +69,80 @@ def write_stock_rows(
     (or the process dying there) rolls everything back. It reports ``offset`` + this write's
     share of ``total - offset``."""
     counts = WriteCounts()
-    chunk = 500
-    with engine.begin() as conn:
-        _ensure_supplier(conn, supplier, currency)
-        for start in range(0, len(rows), chunk):
-            batch = rows[start : start + chunk]
-            codes = [row.values["code"] for row in batch]
-            stored = {
-                rec.code: rec
-                for rec in conn.execute(
-                    select(Part.__table__).where(Part.code.in_(codes))
-                ).mappings()
-            }
-            stored_breaks: dict[int, list[tuple[int, float]]] = {}
-            ids = [rec["id"] for rec in stored.values()]
-            if ids:
-                for part_id, min_qty, price in conn.execute(
-                    select(PriceBreak.part_id, PriceBreak.min_qty, PriceBreak.unit_price).where(
-                        PriceBreak.part_id.in_(ids)
-                    )
-                ):
-                    stored_breaks.setdefault(part_id, []).append((min_qty, price))
-            changed: list[StockRow] = []
-            for row in batch:
-                rec = stored.get(row.values["code"])
-                if rec is None:
-                    counts.inserted += 1
-                    changed.append(row)
-                    continue
-                if rec["source"] != row.values["source"]:
-                    raise CatalogueError(
-                        f"code {row.values['code']!r} already belongs to {rec['source']!r}"
-                    )
-                same = all(
-                    _same(rec[column], row.values.get(column)) for column in COMPARED
-                ) and sorted(stored_breaks.get(rec["id"], [])) == sorted(row.breaks)
-                if same:
-                    counts.unchanged += 1
-                else:
-                    counts.updated += 1
-                    changed.append(row)
-            if changed and not dry_run:
-                _upsert(conn, changed)
-            done = min(start + chunk, len(rows))
-            if progress is not None:
-                # scaled so that the last batch reports total even when rows were refused
-                progress(offset + (done * (total - offset)) // max(len(rows), 1), total)
-        if keep_codes is not None:
-            keep = keep_codes | {row.values["code"] for row in rows}
-            counts.withdrawn = _withdraw(conn, supplier, keep, dry_run)
-        if dry_run:
+    if dry_run:
+        # a dry run reads only: no write statement is sent, not even one rolled back, so a
+        # read-only catalogue can be checked and the file's bytes stay as they were
+        with engine.connect() as conn:
+            _compare_and_write(
+                conn, supplier, rows, True, progress, offset, total, keep_codes, counts
+            )
             conn.rollback()
-            return counts
+        return counts
+    with write_transaction(engine, f"the import of {supplier!r}") as conn:
+        _ensure_supplier(conn, supplier, currency)
+        _compare_and_write(conn, supplier, rows, False, progress, offset, total, keep_codes, counts)
     counts.written = True
     return counts
+
+
+def _compare_and_write(
+    conn: Any,
+    supplier: str,
+    rows: list[StockRow],
+    dry_run: bool,
+    progress: Callable[[int, int], None] | None,
+    offset: int,
+    total: int,
+    keep_codes: set[str] | None,
+    counts: WriteCounts,
+) -> None:
+    """Count new, changed, unchanged and withdrawn rows into ``counts``; unless ``dry_run``,
+    upsert the new and changed rows and withdraw the stale ones."""
+    chunk = 500
+    for start in range(0, len(rows), chunk):
+        batch = rows[start : start + chunk]
+        codes = [row.values["code"] for row in batch]
+        stored = {
+            rec.code: rec
+            for rec in conn.execute(select(Part.__table__).where(Part.code.in_(codes))).mappings()
+        }
+        stored_breaks: dict[int, list[tuple[int, float]]] = {}
+        ids = [rec["id"] for rec in stored.values()]
+        if ids:
+            for part_id, min_qty, price in conn.execute(
+                select(PriceBreak.part_id, PriceBreak.min_qty, PriceBreak.unit_price).where(
+                    PriceBreak.part_id.in_(ids)
+                )
+            ):
+                stored_breaks.setdefault(part_id, []).append((min_qty, price))
+        changed: list[StockRow] = []
+        for row in batch:
+            rec = stored.get(row.values["code"])
+            if rec is None:
+                counts.inserted += 1
+                changed.append(row)
+                continue
+            if rec["source"] != row.values["source"]:
+                raise CatalogueError(
+                    f"code {row.values['code']!r} already belongs to {rec['source']!r}"
+                )
+            same = all(
+                _same(rec[column], row.values.get(column)) for column in COMPARED
+            ) and sorted(stored_breaks.get(rec["id"], [])) == sorted(row.breaks)
+            if same:
+                counts.unchanged += 1
+            else:
+                counts.updated += 1
+                changed.append(row)
+        if changed and not dry_run:
+            _upsert(conn, changed)
+        done = min(start + chunk, len(rows))
+        if progress is not None:
+            # scaled so that the last batch reports total even when rows were refused
+            progress(offset + (done * (total - offset)) // max(len(rows), 1), total)
+    if keep_codes is not None:
+        keep = keep_codes | {row.values["code"] for row in rows}
+        counts.withdrawn = _withdraw(conn, supplier, keep, dry_run)
 
 
 def _withdraw(conn: Any, supplier: str, keep: set[str], dry_run: bool) -> int:

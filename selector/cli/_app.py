@@ -18,7 +18,8 @@ import typer.core
 
 from ..errors import EXIT_BAD_INPUT, DropperError
 
-#: exit code for a bug in dropper itself (outside the 0 / 1 / 2 contract, so scripts notice)
+#: exit code for a bug in dropper itself (outside the 0 / 1 / 2 contract, so scripts notice);
+#: 4 (catalogue busy) is ``selector.errors.EXIT_BUSY``
 EXIT_INTERNAL = 3
 
 __all__ = [
@@ -82,10 +83,17 @@ def _error(message: str, code: int) -> None:
     sys.exit(code)
 
 
+_EXIT_CODES = (
+    "Exit codes: 0 ok, 1 findings or no feasible design, 2 bad input (or a write to a read-only "
+    "catalogue), 3 a bug in dropper, 4 catalogue busy (locked by another process for longer "
+    "than $DROPPER_BUSY_TIMEOUT seconds, default 60; nothing written)."
+)
+
 app = typer.Typer(
     cls=_Group,
     name="dropper",
     help="Select, check and audit parts for capacitive-dropper (transformerless) mains supplies.",
+    epilog=_EXIT_CODES,
     add_completion=False,
     no_args_is_help=True,
     pretty_exceptions_enable=False,

@@ -61,21 +61,25 @@ def _first_use_note(url: str):
     return progress
 
 
-def _open(db: str | None, create: bool = False):
+def _open(db: str | None, create: bool = False, read_only: bool = False):
     """The catalogue of ``--db`` (a missing file refused unless ``create``, see
-    :func:`~selector.cli._app.catalogue_url`), built on first use."""
+    :func:`~selector.cli._app.catalogue_url`), built on first use; ``read_only`` opens it
+    without writing (``--dry-run``)."""
     from ..catalogue import open_catalogue
     from ..catalogue.db import safe_url
 
     url = catalogue_url(db, create)
-    return open_catalogue(url, progress=_first_use_note(safe_url(url)))
+    return open_catalogue(url, progress=_first_use_note(safe_url(url)), read_only=read_only)
 
 
 @parts_app.command("build")
 def build(db: DbOption = None, json: JsonOption = False) -> None:
     """Build (or rebuild) the built-in catalogue from the data files in catalogue/.
 
-    Imported stock rows are kept; only the built-in rows are replaced.
+    Imported stock rows are kept; only the built-in rows are replaced, in one transaction
+    (a design running meanwhile reads the old rows or the new ones).
+    Exit code: 0 built, 2 bad data file or read-only catalogue, 4 catalogue busy (another
+    process kept it locked for $DROPPER_BUSY_TIMEOUT seconds, default 60; nothing written).
     """
     from ..catalogue import build_catalogue, resolve_url
 

@@ -57,7 +57,11 @@ def import_(
         typer.Option(help="Name the rows are filed under (default: the file name without suffix)."),
     ] = None,
     dry_run: Annotated[
-        bool, typer.Option("--dry-run", help="Validate and count; write nothing.")
+        bool,
+        typer.Option(
+            "--dry-run",
+            help="Validate and count; write nothing (works on a read-only catalogue).",
+        ),
     ] = False,
     partial: Annotated[
         bool,
@@ -91,12 +95,15 @@ def import_(
     Columns are recognised by their headers (the mapping is shown); each row is validated and
     every refused row is listed with file, row and column. Nothing is written when a row is
     refused, unless --partial. Importing the same list again updates rows in place.
-    Exit code: 0 imported, 1 imported with refused rows (--partial), 2 nothing written.
+    Two imports at once into one SQLite file run one after the other.
+    Exit code: 0 imported, 1 imported with refused rows (--partial), 2 nothing written (bad
+    rows, or a read-only catalogue), 4 catalogue busy: another process kept it locked for
+    $DROPPER_BUSY_TIMEOUT seconds (default 60); nothing written, try again.
     """
     from ..catalogue.importer import import_stock
 
     column_map = _parse_maps(map_)
-    engine = _open(db, create)
+    engine = _open(db, create, read_only=dry_run)
     bar = None
     if not json and _count_rows(file) > PROGRESS_ROWS:
         bar = _Bar(f"importing {file.name}")
