@@ -86,6 +86,7 @@ class Ratings:
     vf_v: float | None = None
     rs_ohm: float | None = None
     zz_ohm: float | None = None
+    pitch_mm: float | None = None  # lead pitch of a film capacitor [mm], as the catalogue keeps it
     words: list[str] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
     assumed: dict[str, str] = field(default_factory=dict)
@@ -181,6 +182,10 @@ _LIFE_RE = re.compile(
     r"(?<![\w.])(?P<num>\d+(?:\.\d+)?)\s*(?P<k>K)?\s*(?:H|HRS?|HOURS?)(?![A-Z0-9])"
 )
 _GRADE_RE = re.compile(r"(?:HUMIDITY\s+)?GRADE\s+(?P<grade>III|II|I)(?:\s*[AB])?(?![A-Z0-9])")
+_PITCH_RE = re.compile(
+    rf"PITCH\s*[=:]?\s*(?P<num>{_NUM})\s*(?:MM)?(?![A-Z0-9])"
+    rf"|(?<![A-Z0-9])P\s?(?P<num2>{_NUM})\s*(?:MM)?(?![A-Z0-9.])"
+)
 _TOL_RE = re.compile(r"(?:±|\+/-)?\s*(?P<num>\d+(?:\.\d+)?)\s*%")
 _ZENER_CODE_RE = re.compile(r"(?<!\d)(?P<a>\d{1,3})V(?P<b>\d)(?!\d)")
 _SPLIT_RE = re.compile(r"[\s,;_]+|(?<!\d)/|/(?!\d)")
@@ -434,6 +439,10 @@ def read_ratings(
         m = _LIFE_RE.search(up)
         if m:  # a rated life written on the line: '10000h', '5000 hours', '2k h'
             r.rated_life_h = float(m.group("num")) * (1e3 if m.group("k") else 1.0)
+    if kind in ("x_capacitor", "film_capacitor", "capacitor"):
+        m = _PITCH_RE.search(up)
+        if m:  # 'pitch 22.5mm', 'P15': a lead pitch in millimetres (a bare number, no unit)
+            r.pitch_mm = parse_value(m.group("num") or m.group("num2"))
     m = _GRADE_RE.search(up)
     if m and kind not in ("electrolytic", "zener", "diode", "bridge", "fuse", "resistor"):
         r.humidity_grade = m.group("grade")  # IEC 60384-14 Amd 1 humidity robustness grade
@@ -487,7 +496,9 @@ def _assign_voltages(r: Ratings, volts: list[tuple[float, str | None]]) -> None:
             r.notes.append("limiting voltage stated in V AC; compared with peak stress as is")
         return
     if r.kind == "fuse":
-        return  # a fuse's rated voltage is not a stress the dropper rules check
+        # no dropper rule checks a fuse's rated voltage; kept (AC or unmarked) for the catalogue
+        r.rated_voltage_ac_v = next((v for v, tag in volts if tag != "dc"), None)
+        return
     for v, tag in volts:
         if tag == "ac":
             r.rated_voltage_ac_v = r.rated_voltage_ac_v or v
