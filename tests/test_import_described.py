@@ -200,3 +200,29 @@ def test_cli_prints_where_the_figures_came_from(catalogue_copy_url, tmp_path):
     )  # fmt: skip
     assert doc["provenance"]["value"]["description"] == len(rows)
     assert doc["refused_by_column"] == {}
+
+
+def test_a_package_named_in_the_description_picks_the_family_package(engine):
+    import_stock(engine, DESCRIBED, supplier="trial")
+    stored = _stored(engine, "trial")
+    melf = stored["TD-0207"]  # "Thin film MELF resistor 470k 0207 1%"
+    # generic MELF 0207 data, DOMAIN.md table 5: 1/2-1 W, 300-350 V (not the 0204's 1/4 W)
+    assert (melf["package"], melf["power_w"], melf["limiting_voltage_v"]) == ("0207", 0.5, 300.0)
+    assert stored["TD-0206"]["package"] == "1206"
+
+
+def test_stock_only_design_from_a_description_only_list(catalogue_copy_url):
+    runner = CliRunner()
+    done = runner.invoke(
+        app, ["parts", "import", str(DESCRIBED), "--supplier", "trial", "--db", catalogue_copy_url]
+    )
+    assert done.exit_code == 0, done.output
+    # a one-year, dry life that the demo list's grade I X2 parts can meet (Peck's model)
+    made = runner.invoke(
+        app,
+        ["design", "--load", "10m", "--vout", "5.1", "--stock-only", "--life", "1y",
+         "--humidity", "40", "--json", "--db", catalogue_copy_url],
+    )  # fmt: skip
+    assert made.exit_code == 0, made.output
+    parts = json.loads(made.stdout)["designs"][0]["parts"]
+    assert parts and all(part["code"].startswith("S:trial:") for part in parts)

@@ -122,6 +122,10 @@ def matching_package(ratings: Ratings | None, parts: Sequence[Mapping[str, Any]]
     for part in parts:
         if part["package"] and _letters_digits(part["package"]) == wanted:
             return str(part["package"])
+    for part in parts:  # the reader's name holds the family's: melf_0207 -> 0207
+        name = _letters_digits(part["package"])
+        if len(name) >= 3 and name in wanted:
+            return str(part["package"])
     return None
 
 
