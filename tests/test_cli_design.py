@@ -92,7 +92,10 @@ def test_bom_file(catalogue_url, tmp_path):
     )  # fmt: skip
     assert r.exit_code == 0, r.output
     rows = list(csv.DictReader(bom.open(encoding="utf-8")))
-    assert list(rows[0]) == ["Reference", "Value", "Qty", "Description", "Footprint", "Role"]
+    assert list(rows[0]) == [
+        "Reference", "Value", "Qty", "Description", "Footprint", "Role",
+        "Catalogue code", "Supplier", "Ratings",
+    ]  # fmt: skip
     assert {row["Role"] for row in rows} >= ROLES
     x = next(row for row in rows if row["Role"] == "x_capacitor")
     assert "VAC" in x["Description"] and x["Description"].startswith("X")

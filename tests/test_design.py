@@ -277,7 +277,10 @@ def test_bom_written_atomically_with_formula_cells_escaped(tmp_path):
     out = tmp_path / "bom.csv"
     D.write_bom(d, out)
     rows = list(csv.DictReader(out.open(encoding="utf-8")))
-    assert list(rows[0]) == ["Reference", "Value", "Qty", "Description", "Footprint", "Role"]
+    assert list(rows[0]) == [
+        "Reference", "Value", "Qty", "Description", "Footprint", "Role",
+        "Catalogue code", "Supplier", "Ratings",
+    ]  # fmt: skip
     assert rows[0]["Description"] == "'=HYPERLINK(evil)"
     assert sum(int(r["Qty"]) for r in rows) == d.part_count
     assert {r["Role"] for r in rows} >= {"x_capacitor", "series_resistor", "bleeder", "zener"}

@@ -45,7 +45,7 @@ def test_empty_to_head_creates_the_tables(empty_db_url):
     try:
         assert current_revision(engine) is None
         migrate(engine)
-        assert current_revision(engine) == head_revision() == "0006"
+        assert current_revision(engine) == head_revision() == "0007"
         assert _tables(engine) == CATALOGUE_TABLES
     finally:
         engine.dispose()
@@ -139,7 +139,7 @@ def test_alembic_command_line_with_the_ini_file(tmp_path: Path):
     assert done.returncode == 0, done.stderr
     engine = make_engine(f"sqlite:///{db}")
     try:
-        assert current_revision(engine) == "0006"
+        assert current_revision(engine) == "0007"
         assert _tables(engine) == CATALOGUE_TABLES
     finally:
         engine.dispose()
@@ -207,9 +207,13 @@ def test_builtin_codes_are_renamed_up_and_back_down(empty_db_url):
 
     mig = _codes_migration()
     # the rows as they stood at 0002/0003: no long-life family, no varistors, no columns of
-    # 0004 (rated life) or 0006 (clamp current)
+    # 0004 (rated life), 0006 (clamp current) or 0007 (minimum order quantity)
     built = [
-        {k: v for k, v in row.items() if k not in ("rated_life_h", "clamp_current_a")}
+        {
+            k: v
+            for k, v in row.items()
+            if k not in ("rated_life_h", "clamp_current_a", "min_order_qty")
+        }
         for row in builtin_rows()
         if not row["code"].startswith("elcap.105clong") and row["kind"] != "varistor"
     ]
@@ -256,5 +260,29 @@ def test_0006_adds_and_removes_the_varistor_clamp_current(tmp_path: Path):
         downgrade(engine, "0003")
         cols = {c["name"] for c in inspect(engine).get_columns("parts")}
         assert "clamp_current_a" not in cols
+    finally:
+        engine.dispose()
+
+
+def test_0007_keeps_rows_and_their_minimum_order_quantity_up_and_down(tmp_path: Path):
+    # the minimum order quantity (migration 0007) goes up and down with imported rows in place
+    engine = make_engine(f"sqlite:///{tmp_path / 'moq.sqlite'}")
+    try:
+        migrate(engine, "0006")
+        with engine.begin() as conn:
+            conn.execute(Part.__table__.insert().values(**{
+                k: v for k, v in _part("S:t:A1").items()
+            }))  # fmt: skip
+        migrate(engine)
+        with engine.begin() as conn:
+            assert conn.execute(select(Part.min_order_qty)).scalar_one() is None
+            conn.execute(Part.__table__.update().values(min_order_qty=5000))
+        downgrade(engine, "0006")
+        assert "min_order_qty" not in {c["name"] for c in inspect(engine).get_columns("parts")}
+        with engine.connect() as conn:
+            assert conn.execute(text("select code from parts")).scalars().all() == ["S:t:A1"]
+        migrate(engine)
+        with engine.connect() as conn:
+            assert conn.execute(select(Part.code, Part.min_order_qty)).all() == [("S:t:A1", None)]
     finally:
         engine.dispose()

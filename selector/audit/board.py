@@ -271,12 +271,21 @@ def _rule_parts(
     """The rule engine's RatedParts by role (a resistor's share of its string's stress by its
     value), and whether a placeholder stands in for a missing bleeder."""
     parts_by_role: dict[str, list] = {}
+    series_total = sum(a.ratings.value or 0.0 for a in by_role.get("series_resistor", []))
     for role, group in by_role.items():
         total = sum(a.ratings.value or 0.0 for a in group)
         rated = []
         for members in equal_groups(group):
             if role in ("series_resistor", "bleeder") and total > 0:
                 share = sum(a.ratings.value or 0.0 for a in members) / total
+            elif (
+                role == "fuse"
+                and series_total > 0
+                and any(members[0] is a for a in by_role.get("series_resistor", []))
+            ):
+                # a fusible series resistor serving as the fuse carries its share of the series
+                # string's fault power, as in the design solver (R_i / R_total)
+                share = sum(a.ratings.value or 0.0 for a in members) / series_total
             else:
                 share = 1.0
             rated.append(rated_part(role, members, share, ARRANGEMENT[role]))

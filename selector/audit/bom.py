@@ -71,6 +71,9 @@ class BomPart:
     power: str = ""
     tolerance: str = ""
     role: str = ""
+    code: str = ""
+    supplier: str = ""
+    ratings: str = ""
 
 
 @dataclass
@@ -248,6 +251,9 @@ def read_bom(
                     power=cell(cells, "power"),
                     tolerance=cell(cells, "tolerance"),
                     role=cell(cells, "role"),
+                    code=cell(cells, "code"),
+                    supplier=cell(cells, "supplier"),
+                    ratings=cell(cells, "ratings"),
                 )
             )
     if blank:

@@ -107,6 +107,11 @@ HEADER_SPELLINGS: Final[dict[str, tuple[tuple[str, float], ...]]] = {
         ("not fitted", 1.0),
     ),
     "fitted": (("fitted", 1.0), ("populate", 1.0), ("populated", 1.0), ("mounted", 1.0)),
+    # written by `dropper design --bom`: the catalogue code, its supplier and the ratings the
+    # design's rules used (``name=number`` in SI, the JSON keys), read back by the audit
+    "code": (("catalogue code", 1.0), ("catalog code", 1.0), ("dropper code", 1.0)),
+    "supplier": (("supplier", 1.0), ("vendor", 0.95), ("distributor", 0.95)),
+    "ratings": (("ratings", 1.0), ("rule ratings", 1.0), ("rated figures", 1.0)),
 }
 
 FIELDS: Final[tuple[str, ...]] = tuple(HEADER_SPELLINGS)

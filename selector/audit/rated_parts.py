@@ -15,7 +15,7 @@ from typing import Final
 from ..errors import BadRowError, BadValueError
 from .bom import BomPart, BomTable
 from .fill import CATALOGUE_KIND, ratings_key, x_subclass
-from .ratings import Ratings, read_ratings
+from .ratings import Ratings, apply_stated_ratings, read_ratings
 from .roles import Assigned
 
 #: kinds stated as not safety-rated: the X-capacitor rule fails them rather than warn
@@ -140,6 +140,7 @@ def line_ratings(
             part.voltage,
             part.power,
             part.tolerance,
+            part.ratings,
         )
         hit = memo.get(key)
         if hit is None:
@@ -154,7 +155,7 @@ def _read_line(table: BomTable, part: BomPart, kind: str | None) -> Ratings:
     """The line's ratings read as ``kind`` (None: as its text says); a bad value becomes a
     BadRowError naming the file, row and column."""
     try:
-        return read_ratings(
+        ratings = read_ratings(
             part.ref,
             part.value,
             part.description,
@@ -164,6 +165,9 @@ def _read_line(table: BomTable, part: BomPart, kind: str | None) -> Ratings:
             part.tolerance,
             kind=kind,
         )
+        if part.ratings:
+            apply_stated_ratings(ratings, part.ratings)
+        return ratings
     except BadValueError as exc:
         message = str(exc)
         field_name, _, rest = message.partition(": ")

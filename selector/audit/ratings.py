@@ -30,7 +30,7 @@ from typing import Final
 from ..errors import BadValueError
 from ..units import parse_tolerance, parse_value
 
-__all__ = ["KINDS", "Ratings", "kind_of", "read_ratings"]
+__all__ = ["KINDS", "STATED_FIELDS", "Ratings", "apply_stated_ratings", "kind_of", "read_ratings"]
 
 #: kinds of part the auditor tells apart (catalogue kinds plus ceramic/unknown capacitor, other)
 KINDS: Final[tuple[str, ...]] = (
@@ -86,6 +86,8 @@ class Ratings:
     vf_v: float | None = None
     rs_ohm: float | None = None
     zz_ohm: float | None = None
+    pitch_mm: float | None = None  # lead pitch of a film capacitor [mm], as the catalogue keeps it
+    impulse_v: float | None = None  # X capacitor: peak impulse voltage in service [V]
     words: list[str] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
     assumed: dict[str, str] = field(default_factory=dict)
@@ -181,6 +183,10 @@ _LIFE_RE = re.compile(
     r"(?<![\w.])(?P<num>\d+(?:\.\d+)?)\s*(?P<k>K)?\s*(?:H|HRS?|HOURS?)(?![A-Z0-9])"
 )
 _GRADE_RE = re.compile(r"(?:HUMIDITY\s+)?GRADE\s+(?P<grade>III|II|I)(?:\s*[AB])?(?![A-Z0-9])")
+_PITCH_RE = re.compile(
+    rf"PITCH\s*[=:]?\s*(?P<num>{_NUM})\s*(?:MM)?(?![A-Z0-9])"
+    rf"|(?<![A-Z0-9])P\s?(?P<num2>{_NUM})\s*(?:MM)?(?![A-Z0-9.])"
+)
 _TOL_RE = re.compile(r"(?:±|\+/-)?\s*(?P<num>\d+(?:\.\d+)?)\s*%")
 _ZENER_CODE_RE = re.compile(r"(?<!\d)(?P<a>\d{1,3})V(?P<b>\d)(?!\d)")
 _SPLIT_RE = re.compile(r"[\s,;_]+|(?<!\d)/|/(?!\d)")
@@ -434,6 +440,10 @@ def read_ratings(
         m = _LIFE_RE.search(up)
         if m:  # a rated life written on the line: '10000h', '5000 hours', '2k h'
             r.rated_life_h = float(m.group("num")) * (1e3 if m.group("k") else 1.0)
+    if kind in ("x_capacitor", "film_capacitor", "capacitor"):
+        m = _PITCH_RE.search(up)
+        if m:  # 'pitch 22.5mm', 'P15': a lead pitch in millimetres (a bare number, no unit)
+            r.pitch_mm = parse_value(m.group("num") or m.group("num2"))
     m = _GRADE_RE.search(up)
     if m and kind not in ("electrolytic", "zener", "diode", "bridge", "fuse", "resistor"):
         r.humidity_grade = m.group("grade")  # IEC 60384-14 Amd 1 humidity robustness grade
@@ -487,7 +497,9 @@ def _assign_voltages(r: Ratings, volts: list[tuple[float, str | None]]) -> None:
             r.notes.append("limiting voltage stated in V AC; compared with peak stress as is")
         return
     if r.kind == "fuse":
-        return  # a fuse's rated voltage is not a stress the dropper rules check
+        # no dropper rule checks a fuse's rated voltage; kept (AC or unmarked) for the catalogue
+        r.rated_voltage_ac_v = next((v for v, tag in volts if tag != "dc"), None)
+        return
     for v, tag in volts:
         if tag == "ac":
             r.rated_voltage_ac_v = r.rated_voltage_ac_v or v
@@ -502,3 +514,79 @@ def _assign_voltages(r: Ratings, volts: list[tuple[float, str | None]]) -> None:
             r.rated_voltage_v = r.rated_voltage_v or v
             if r.kind in ("film_capacitor", "capacitor"):
                 r.notes.append(f"{v:g} V read as V DC (no AC/DC mark on a non-safety capacitor)")
+
+
+#: the ratings a BOM's ``Ratings`` column may state (``name=value``; the names are the
+#: catalogue's columns and the JSON keys, numbers in SI base units as in ``--json``)
+STATED_FIELDS: Final[tuple[str, ...]] = (
+    "tolerance",
+    "safety_class",
+    "humidity_grade",
+    "fusible",
+    "rated_voltage_v",
+    "rated_voltage_ac_v",
+    "limiting_voltage_v",
+    "power_w",
+    "derate_start_c",
+    "derate_end_c",
+    "pulse_energy_j",
+    "impulse_v",
+    "dvdt_v_per_s",
+    "vrrm_v",
+    "if_av_a",
+    "ifsm_a",
+    "vf_v",
+    "rs_ohm",
+    "zz_ohm",
+    "tj_max_c",
+    "ripple_a",
+    "temp_max_c",
+    "rated_life_h",
+    "i2t_a2s",
+)
+_TEXT_FIELDS: Final[frozenset[str]] = frozenset({"safety_class", "humidity_grade"})
+
+
+def stated_ratings(text: str) -> dict[str, float | str | bool]:
+    """Read a ``Ratings`` cell: ``power_w=1; limiting_voltage_v=350; fusible=1``.
+
+    Names are those of :data:`STATED_FIELDS`; numbers are read by
+    :func:`selector.units.parse_value` (plain SI numbers, as ``--json`` prints them). Raises
+    :class:`BadValueError` starting ``ratings:`` for an unknown name or a number that does not
+    read.
+
+    >>> stated_ratings("power_w=0.5; limiting_voltage_v=300; fusible=0")
+    {'power_w': 0.5, 'limiting_voltage_v': 300.0, 'fusible': False}
+    """
+    out: dict[str, float | str | bool] = {}
+    for chunk in re.split(r"[;|]", text):
+        chunk = chunk.strip()
+        if not chunk:
+            continue
+        name, sep, figure = (piece.strip() for piece in chunk.partition("="))
+        if not sep or not figure:
+            raise BadValueError(f"ratings: {chunk!r} is not name=value (e.g. power_w=0.5)")
+        if name not in STATED_FIELDS:
+            raise BadValueError(
+                f"ratings: unknown rating {name!r}; one of {', '.join(STATED_FIELDS)}"
+            )
+        if name in _TEXT_FIELDS:
+            out[name] = figure
+        elif name == "fusible":
+            if figure.lower() not in ("0", "1", "yes", "no", "true", "false"):
+                raise BadValueError(f"ratings: fusible={figure!r}; write fusible=1 or fusible=0")
+            out[name] = figure.lower() in ("1", "yes", "true")
+        else:
+            try:
+                out[name] = parse_value(figure)
+            except BadValueError as exc:
+                raise BadValueError(f"ratings: {name}: {exc}") from None
+    return out
+
+
+def apply_stated_ratings(ratings: Ratings, text: str) -> None:
+    """Set the ratings a ``Ratings`` cell states (:func:`stated_ratings`) on ``ratings``; they
+    win over what the line's text says, and a stated figure is never filled from a family."""
+    for name, figure in stated_ratings(text).items():
+        setattr(ratings, name, figure)
+        ratings.assumed.pop(name, None)

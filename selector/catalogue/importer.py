@@ -47,6 +47,7 @@ from sqlalchemy import Engine
 from sqlalchemy.orm import Session
 
 from ..errors import BadRowError, BadValueError, CatalogueError
+from .stock_described import SOURCES
 from .stock_families import FamilyInfo, catalogue_families, recognise_family
 from .stock_reading import (
     FIELD_SPELLINGS,
@@ -79,7 +80,7 @@ __all__ = [
 
 Progress = Callable[[int, int], None]
 
-#: the fields a stock list must have a column for
+#: the fields a stock list must have a column for ("value" may be read from a description)
 _REQUIRED: Final[tuple[str, ...]] = ("supplier_code", "value")
 
 
@@ -113,6 +114,22 @@ class ImportResult:
     written: bool = False
     dry_run: bool = False
     families: dict[str, int] = field(default_factory=dict)
+    #: parts column -> source (column, description, family, none) -> accepted rows
+    provenance: dict[str, dict[str, int]] = field(default_factory=dict)
+
+    def count_sources(self, row: StockRow) -> None:
+        """Add one accepted row's figure sources to :attr:`provenance`."""
+        for column, source in row.sources.items():
+            counts = self.provenance.setdefault(column, dict.fromkeys(SOURCES, 0))
+            counts[source] += 1
+
+    def refused_by_column(self) -> dict[str, int]:
+        """Refused rows per column of the file that refused them ('(row)' for no column)."""
+        out: dict[str, int] = {}
+        for problem in self.problems:
+            key = problem.column or "(row)"
+            out[key] = out.get(key, 0) + 1
+        return dict(sorted(out.items()))
 
     @property
     def accepted(self) -> int:
@@ -137,6 +154,10 @@ class ImportResult:
             "written": self.written,
             "dry_run": self.dry_run,
             "families": dict(sorted(self.families.items())),
+            "provenance": {
+                column: dict(counts) for column, counts in sorted(self.provenance.items())
+            },
+            "refused_by_column": self.refused_by_column(),
             "mapping": [
                 {
                     "header": match.header,
@@ -229,6 +250,8 @@ def import_stock(
         (i, match.min_qty or 1, match.header) for i, match in enumerate(mapping) if match.min_qty
     ]
     for required in _REQUIRED:
+        if required == "value" and "description" in columns:
+            continue  # each row's value is read from its description where the column lacks
         if required not in columns:
             raise BadRowError(
                 str(file),
@@ -274,6 +297,7 @@ def import_stock(
                 good.append(row)
                 family = row.values["family"]
                 result.families[family] = result.families.get(family, 0) + 1
+                result.count_sources(row)
             except BadRowError as exc:
                 code_cell = (
                     cells[columns["supplier_code"]] if columns["supplier_code"] < len(cells) else ""
@@ -285,6 +309,7 @@ def import_stock(
                 progress(done, total)
     if result.problems and not partial:
         result.families = {}
+        result.provenance = {}
         return result
     set_working_voltages(good)
     counts = write_stock_rows(

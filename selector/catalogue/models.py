@@ -148,6 +148,8 @@ class Part(Base):
     withdrawn: Mapped[bool] = mapped_column(Boolean, server_default=sa_false())
     # added by migration 0006
     clamp_current_a: Mapped[float | None] = mapped_column(Float)
+    # added by migration 0007: the supplier's minimum order quantity [pieces] (None: no minimum)
+    min_order_qty: Mapped[int | None] = mapped_column(Integer)
 
     __table_args__ = (Index("ix_parts_kind_value", "kind", "value"),)
 

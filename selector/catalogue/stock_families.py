@@ -68,6 +68,14 @@ def _family_texts(family: FamilyInfo) -> list[str]:
     return [_fnorm(family.name), _fnorm(family.title), _fnorm(f"{family.kind} {family.name}")]
 
 
+class AmbiguousFamilyError(BadValueError):
+    """A family text that fits several families; ``candidates`` lists them, best first."""
+
+    def __init__(self, message: str, candidates: Sequence[FamilyInfo]) -> None:
+        super().__init__(message)
+        self.candidates = tuple(candidates)
+
+
 def recognise_family(text: str, families: Sequence[FamilyInfo]) -> FamilyInfo:
     """The family a stock row's family text names.
 
@@ -77,7 +85,8 @@ def recognise_family(text: str, families: Sequence[FamilyInfo]) -> FamilyInfo:
     a tie with another kind or safety class is refused (a general-purpose capacitor must never
     be taken for an X capacitor by a guess); a tie within one kind is broken by
     ``token_sort_ratio`` (the closer whole text) only when it leads by :data:`FAMILY_CLEAR`.
-    Raises :class:`BadValueError` naming the nearest families.
+    Raises :class:`BadValueError` naming the nearest families (an
+    :class:`AmbiguousFamilyError` carrying the tied families for a tie).
     """
     from rapidfuzz import fuzz
 
@@ -113,5 +122,8 @@ def recognise_family(text: str, families: Sequence[FamilyInfo]) -> FamilyInfo:
     ]
     if rivals:
         names = ", ".join(family.name for family in [best, *rivals[:3]])
-        raise BadValueError(f"family {text!r} is ambiguous: it fits {names}; write the family name")
+        raise AmbiguousFamilyError(
+            f"family {text!r} is ambiguous: it fits {names}; write the family name",
+            [best, *rivals],
+        )
     return best

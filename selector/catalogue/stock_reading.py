@@ -27,6 +27,7 @@ FIELD_SPELLINGS: Final[dict[str, tuple[str, ...]]] = {
         "supplier code",
         "supplier part",
         "supplier part number",
+        "supplier sku",
         "order code",
         "order number",
         "ordering code",

@@ -19,13 +19,23 @@ from typing import Any, Final
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from ..audit.fill import x_subclass
+from ..audit.ratings import Ratings
 from ..errors import BadRowError, BadValueError, CatalogueError
 from ..ranges import check_count, check_range
 from ..units import parse_tolerance, parse_value
 from .build import resistor_working_voltage
 from .models import VALUE_UNITS, Part
 from .row_ranges import escape_controls, has_controls, out_of_range_columns
-from .stock_families import FamilyInfo, recognise_family
+from .stock_described import (
+    DESCRIBED_COLUMNS,
+    PROVENANCE_FIELDS,
+    described_value,
+    fits_description,
+    matching_package,
+    read_description,
+)
+from .stock_families import AmbiguousFamilyError, FamilyInfo, recognise_family
 from .stock_reading import cell_text, normalise_text
 
 #: columns copied from the template part (never the identity, price or stock columns)
@@ -82,6 +92,8 @@ class StockRow:
     row: int
     values: dict[str, Any]
     breaks: list[tuple[int, float]]
+    #: parts column -> where its figure came from: column, description, family (default), none
+    sources: dict[str, str] = field(default_factory=dict)
 
 
 def stock_code(supplier: str, supplier_code: str) -> str:
@@ -257,7 +269,12 @@ class _RowCells:
 
 
 def _row_family(row: _RowCells, lookup: Lookup) -> FamilyInfo:
-    """The family the row's family text (else its description) names."""
+    """The family the row's family text (else its description) names.
+
+    A description that fits several families of one kind and one safety class (``Zener diode
+    12V 1W DO-41`` fits the 1 W and the 5 W Zener families by its words) is read by the BOM
+    reader; the one family with a built-in part of the stated power and package wins. Ties
+    across kinds or classes are never broken."""
     family_text = row.text("family") if "family" in row.columns else ""
     family_field = "family"
     if not family_text:
@@ -266,8 +283,44 @@ def _row_family(row: _RowCells, lookup: Lookup) -> FamilyInfo:
         raise row.fail("family" if "family" in row.columns else None, "no family (nor description)")
     try:
         return lookup.family(family_text)
+    except AmbiguousFamilyError as exc:
+        tied = exc.candidates
+        same = {(family.kind, family.safety_class or "") for family in tied}
+        if family_field == "description" and len(same) == 1:
+            try:
+                said = read_description(family_text, tied[0].kind, row.text("value"))
+            except BadValueError:
+                said = None
+            if said is not None:
+                fitting = [f for f in tied if fits_description(said, lookup.family_parts(f))]
+                if len(fitting) == 1:
+                    return fitting[0]
+        raise row.fail(family_field, str(exc)) from None
     except BadValueError as exc:
         raise row.fail(family_field, str(exc)) from None
+
+
+def _row_description(row: _RowCells, family: FamilyInfo) -> Ratings | None:
+    """The row's description read by the BOM reader as the family's kind (None without one);
+    a description that contradicts the family's safety class is refused."""
+    if "description" not in row.columns or not row.text("description"):
+        return None
+    try:
+        said = read_description(row.text("description"), family.kind, row.text("value"))
+    except BadValueError as exc:
+        message = str(exc)
+        if row.text("value") and message.startswith("value: "):
+            return Ratings(kind=family.kind)  # the value column decides; the text is not read
+        raise row.fail("description", message) from None
+    if said is not None and family.kind == "x_capacitor" and said.safety_class:
+        named = x_subclass(said.safety_class)
+        if named and named != (family.safety_class or "").upper():
+            raise row.fail(
+                "description",
+                f"class {named} in the description contradicts family {family.name} "
+                f"({family.safety_class})",
+            )
+    return said
 
 
 def _row_rating(row: _RowCells, field_name: str, unit: str) -> float | None:
@@ -370,16 +423,44 @@ def validate_row(
             )
     family = _row_family(row, lookup)
     unit = VALUE_UNITS[family.kind]
-    try:
-        value = parse_value(row.cell("value") if row.text("value") else "", unit)
-    except BadValueError as exc:
-        raise row.fail("value", str(exc)) from None
+    said = _row_description(row, family)
+    told = described_value(said, family.kind) if said is not None else None
+    sources: dict[str, str] = {}
+    if row.text("value") or told is None:
+        try:
+            value = parse_value(row.cell("value") if row.text("value") else "", unit)
+        except BadValueError as exc:
+            field_name = "value" if "value" in columns or "description" not in columns else None
+            problem = str(exc) if field_name else f"no value in the description ({exc})"
+            raise row.fail(field_name or "description", problem) from None
+        sources["value"] = "column"
+    else:
+        value, sources["value"] = told, "description"
     if not value > 0:
         raise row.fail("value", f"the value must be > 0, got {row.text('value')!r}")
     package = row.text("package") or None
+    if package:
+        sources["package"] = "column"
+    else:
+        package = matching_package(said, lookup.family_parts(family))
+        if package:
+            sources["package"] = "description"
+    voltage_column = VOLTAGE_COLUMN.get(family.kind)
     voltage = _row_rating(row, "voltage", "V")
+    if voltage is not None and voltage_column:
+        sources[voltage_column] = "column"
     power = _row_rating(row, "power", "W")
+    if power is not None:
+        sources["power_w"] = "column"
+    described = _described_columns(said, family.kind)
+    if voltage is None and voltage_column and voltage_column in described:
+        voltage = described[voltage_column]
+    if power is None and "power_w" in described:
+        power = described["power_w"]
     values: dict[str, Any] = dict(template(lookup, family, value, package, voltage, power))
+    for column, figure in described.items():
+        if column not in sources:
+            values[column], sources[column] = figure, "description"
     values.update(
         code=stock_code(supplier, code_text),
         kind=family.kind,
@@ -404,6 +485,7 @@ def validate_row(
             values["tolerance"] = parse_tolerance(row.cell("tolerance"))
         except BadValueError as exc:
             raise row.fail("tolerance", str(exc)) from None
+        sources["tolerance"] = "column"
     if power is not None:
         values["power_w"] = power
     if row.text("safety_class"):
@@ -420,11 +502,13 @@ def validate_row(
             )
         except BadValueError as exc:
             raise row.fail("temp_max", str(exc)) from None
+        sources["temp_max_c"] = "column"
     if row.text("ripple"):
         try:
             values["ripple_a"] = parse_value(row.cell("ripple"), "A")
         except BadValueError as exc:
             raise row.fail("ripple", str(exc)) from None
+        sources["ripple_a"] = "column"
     values["stock"] = _row_stock(row)
     breaks = _row_price_breaks(row, break_columns)
     values["unit_price"] = _price_at(breaks, qty)
@@ -438,7 +522,23 @@ def validate_row(
             check_range(price, "price", "a price")
         except BadValueError as exc:
             raise row.fail("price_breaks", str(exc)) from None
-    return StockRow(number, values, breaks)
+    for column in PROVENANCE_FIELDS.get(family.kind, ()):
+        if column not in sources:
+            sources[column] = "family" if values.get(column) is not None else "none"
+    return StockRow(number, values, breaks, sources)
+
+
+def _described_columns(said: Ratings | None, kind: str) -> dict[str, Any]:
+    """The parts columns the description sets for a part of ``kind`` (only the figures whose
+    source is reported, so a temperature on a Zener line does not become a capacitor's class)."""
+    if said is None:
+        return {}
+    wanted = PROVENANCE_FIELDS.get(kind, ())
+    return {
+        column: getattr(said, column)
+        for column in DESCRIBED_COLUMNS
+        if column in wanted and getattr(said, column, None) is not None
+    }
 
 
 #: the stock-list field a parts column comes from (for naming the file's column in errors)

@@ -49,6 +49,26 @@ def _count_rows(path: Path) -> int:
         return 0
 
 
+def _echo_provenance(result) -> None:
+    """Per figure: how many accepted rows took it from a column, from the description, from
+    the family default (the nearest built-in part), or have none; refused rows per column."""
+    if result.provenance:
+        typer.echo("Where the figures came from (rows: column / description / family default):")
+        width = max(len(column) for column in result.provenance)
+        for column, counts in sorted(result.provenance.items()):
+            none = f"; {counts['none']} without" if counts["none"] else ""
+            typer.echo(
+                f"  {column:<{width}}  {counts['column']} / {counts['description']} / "
+                f"{counts['family']}{none}"
+            )
+    refused = result.refused_by_column()
+    if refused:
+        typer.echo(
+            "Refused rows by column: "
+            + ", ".join(f"{column} {count}" for column, count in refused.items())
+        )
+
+
 @parts_app.command("import")
 def import_(
     file: Annotated[Path, typer.Argument(help="Stock list or distributor export: CSV, TSV, XLSX.")],
@@ -143,6 +163,7 @@ def import_(
             if m.how == "given":
                 target += "  (--map)"
         typer.echo(f"  {m.header:<{width}}  ->  {target}")
+    _echo_provenance(result)
     for p in result.problems:
         typer.echo(f"refused: {p}", err=True)
     verb = "would be" if dry_run else "were"

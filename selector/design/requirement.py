@@ -96,6 +96,11 @@ class DesignPart:
     package: str | None
     price_note: str | None
     ratings: dict[str, Any]
+    #: the supplier of an imported part (None for a built-in one)
+    supplier: str | None = None
+    #: every rating and model figure of the catalogue row that the rules and the engine read
+    #: (names of ``selector.audit.ratings.STATED_FIELDS``), written to the BOM's Ratings column
+    rule_ratings: dict[str, Any] = field(default_factory=dict)
 
 
 @dataclass

@@ -55,7 +55,34 @@ def design_part(setup, role, rows, arrangement) -> DesignPart:
         package=row.get("package"),
         price_note=row.get("price_note"),
         ratings=ratings,
+        supplier=_imported_supplier(row),
+        rule_ratings=_row_ratings(row),
     )
+
+
+def _row_ratings(row: Any) -> dict[str, Any]:
+    """The catalogue row's figures that the rules and the engine read (the RatedPart the
+    verification built comes from the same row: ``rules.rated_part_from_row``)."""
+    from ..audit.ratings import STATED_FIELDS
+
+    out: dict[str, Any] = {}
+    for name in STATED_FIELDS:
+        figure = row.get(name)
+        if figure is None or (isinstance(figure, float) and math.isnan(figure)):
+            continue
+        out[name] = figure.item() if hasattr(figure, "item") else figure
+    return out
+
+
+def _imported_supplier(row: Any) -> str | None:
+    """The supplier of a part from an imported list (built-in rows have none)."""
+    source = str(row.get("source", "") or "")
+    supplier = row.get("supplier")
+    if not source.startswith("import:") or supplier is None:
+        return None
+    if isinstance(supplier, float) and math.isnan(supplier):
+        return None
+    return str(supplier)
 
 
 def to_design(setup: SearchSetup, rank: int, res) -> Design:
@@ -149,6 +176,7 @@ def design_to_dict(d: Design) -> dict[str, Any]:
                 "area_mm2": p.area_mm2,
                 "mount": p.mount,
                 "package": p.package,
+                "supplier": p.supplier,
                 **{k: v for k, v in p.ratings.items()},
             }
             for p in d.parts
@@ -197,11 +225,49 @@ def bom_cell(text: Any) -> str:
     return spreadsheet_cell(text)
 
 
+#: the columns of a design's BOM, in order
+BOM_COLUMNS: Final[tuple[str, ...]] = (
+    "Reference",
+    "Value",
+    "Qty",
+    "Description",
+    "Footprint",
+    "Role",
+    "Catalogue code",
+    "Supplier",
+    "Ratings",
+)
+
+
+def rule_ratings_text(ratings: dict[str, Any]) -> str:
+    """A part's rule ratings (:attr:`DesignPart.rule_ratings`) as a BOM's ``Ratings`` cell:
+    ``name=number; ...`` with plain SI numbers (12 significant digits, as
+    :func:`selector.units.parse_value` reads them back); ``fusible`` only when true.
+
+    >>> rule_ratings_text({"power_w": 0.5, "limiting_voltage_v": 250.0, "fusible": True})
+    'power_w=0.5; limiting_voltage_v=250; fusible=1'
+    """
+    cells = []
+    for name, figure in ratings.items():
+        if isinstance(figure, bool) or name == "fusible":
+            if not figure:
+                continue
+            text = "1"
+        elif isinstance(figure, (int, float)):
+            text = f"{float(figure):.12g}"
+        else:
+            text = str(figure)
+        cells.append(f"{name}={text}")
+    return "; ".join(cells)
+
+
 def bom_rows(d: Design) -> list[dict[str, str]]:
-    """BOM lines of a design: Reference, Value, Qty, Description, Footprint, Role.
+    """BOM lines of a design (:data:`BOM_COLUMNS`).
 
     Descriptions are the catalogue's, which carry the ratings in text (class, voltage, power,
-    limiting voltage), so that `dropper audit` can read them back.
+    limiting voltage); the ``Ratings`` column carries every rating the design's rules read
+    (:func:`rule_ratings_text`), the catalogue code and the supplier of an imported part come
+    with it, so that `dropper audit` of this BOM evaluates the parts the design evaluated.
     """
     from ..units import format_value
 
@@ -233,6 +299,9 @@ def bom_rows(d: Design) -> list[dict[str, str]]:
                 "Description": p.description,
                 "Footprint": p.package or "",
                 "Role": p.role,
+                "Catalogue code": p.code,
+                "Supplier": p.supplier or "",
+                "Ratings": rule_ratings_text(p.rule_ratings),
             }
         )
     return rows
@@ -244,7 +313,7 @@ def bom_csv(d: Design) -> str:
     import csv
     import io
 
-    cols = ["Reference", "Value", "Qty", "Description", "Footprint", "Role"]
+    cols = list(BOM_COLUMNS)
     buf = io.StringIO(newline="")
     w = csv.writer(buf)
     w.writerow(cols)
