@@ -235,3 +235,53 @@ def test_harmonics_reach_the_audit(catalogue_url):
     doc1, p1 = stress("--harmonics", "en50160")
     assert doc0["mains"]["harmonics"] == [] and len(doc1["mains"]["harmonics"]) == 3
     assert p1 > 1.1 * p0
+
+
+def _with_varistor(tmp_path, line: str) -> str:
+    path = tmp_path / "vent_with_varistor.csv"
+    path.write_text((DATA / "audit_vent_sound.csv").read_text() + line + "\n")
+    return str(path)
+
+
+def test_varistor_line_is_rated_and_passes(catalogue_url, tmp_path):
+    # issue 11: a varistor in the BOM is recognised, modelled across the line in the surge and
+    # judged by the varistor.* rules (its figures: the built-in family, invented demo data);
+    # 230 V + 10 % = 253 V against its 275 V ac continuous rating (DOMAIN.md section 3)
+    bom = _with_varistor(
+        tmp_path,
+        'RV1,1,275VAC,"Varistor, metal oxide, 14 mm disc, 275 VAC, 430 V at 1 mA, '
+        '710 V at 50 A, 80 J",RV_Disc_D15.5mm,DEMO-MOV14',
+    )
+    result = invoke(bom, "--freq", "50,60", "--db", catalogue_url, "--json")
+    doc = json.loads(result.stdout)
+    rules = {f["rule"]: f for f in doc["findings"] if f["rule"].startswith("varistor.")}
+    assert set(rules) == {
+        "varistor.continuous_voltage",
+        "varistor.surge_energy",
+        "varistor.surge_current",
+    }
+    assert all(f["severity"] == "pass" and f["ref"] == "RV1" for f in rules.values())
+    assert rules["varistor.continuous_voltage"]["stress"] == pytest.approx(253.0)
+    assert rules["varistor.surge_energy"]["rating"] == 80.0
+    assert result.exit_code == 0, result.output
+    human = invoke(bom, "--freq", "50,60", "--db", catalogue_url).stdout
+    assert "role varistor: RV1 (across the line)" in human
+
+
+def test_under_rated_varistor_fails_with_named_rules(catalogue_url, tmp_path):
+    # a 7 mm disc stated only by size and rating: its figures come from the catalogue family
+    # (17 J, 1.2 kA, invented); at 4 kV it takes ~1.7 kA / ~26 J (the same figures as
+    # check --varistor, tests/test_cli_check_varistor.py): both rules fail, exit 1
+    bom = _with_varistor(tmp_path, 'RV1,1,275VAC,"Varistor, 7 mm disc",RV_Disc_D9mm,DEMO-MOV7')
+    result = invoke(bom, "--freq", "50,60", "--surge", "4k", "--db", catalogue_url, "--json")
+    doc = json.loads(result.stdout)
+    failed = {f["rule"] for f in doc["findings"] if f["severity"] == "fail" and f["ref"] == "RV1"}
+    assert failed == {"varistor.surge_energy", "varistor.surge_current"}
+    assert result.exit_code == 1
+    # a 250 V ac part on 230 V + 10 % = 253 V: the continuous rule alone fails at 1 kV
+    bom = _with_varistor(tmp_path, 'RV1,1,250VAC,"Varistor 14 mm disc",RV_Disc,DEMO-MOV14')
+    result = invoke(bom, "--freq", "50,60", "--db", catalogue_url, "--json")
+    doc = json.loads(result.stdout)
+    failed = [(f["rule"], f["ref"]) for f in doc["findings"] if f["severity"] == "fail"]
+    assert failed == [("varistor.continuous_voltage", "RV1")]
+    assert result.exit_code == 1

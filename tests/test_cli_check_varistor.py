@@ -59,14 +59,23 @@ def test_varistor_rules_fail_on_a_small_disc_at_4kv(catalogue_url: str) -> None:
     assert "FAIL" in lines["varistor.surge_energy"]
     assert "ok" in lines["varistor.continuous_voltage"]
     assert "Safety cautions:" in r.stdout
+    # the verdict names both failed varistor rules and comes after the varistor block
+    out = r.stdout.splitlines()
+    at = next(i for i, ln in enumerate(out) if ln.startswith("bridge dropper:"))
+    assert "NOT ACCEPTED" in out[at]
+    assert "(varistor.surge_current)" in out[at] and "(varistor.surge_energy)" in out[at]
+    assert max(i for i, ln in enumerate(out) if ln.startswith("  varistor.")) < at
+    assert at < out.index("Safety cautions:")
 
 
 def test_continuous_rating_below_high_line_fails(catalogue_url: str) -> None:
     # a 250 V ac varistor on 230 V + 10 % = 253 V: the continuous-voltage rule fails
     r = invoke(*BASE, "--surge", "1k", "--varistor", "250VAC", "--db", catalogue_url, "--json")
-    rules = {f["rule"]: f for f in json.loads(r.stdout)["varistor"]["findings"]}
+    doc = json.loads(r.stdout)
+    rules = {f["rule"]: f for f in doc["varistor"]["findings"]}
     assert not rules["varistor.continuous_voltage"]["ok"]
     assert r.exit_code == 1
+    assert "varistor.continuous_voltage" in [f["rule"] for f in doc["failures"]]
 
 
 def test_unknown_varistor_is_bad_input(catalogue_url: str) -> None:

@@ -246,6 +246,9 @@ def _circuit(
         notes.append(f"--topology {setup.topology} used; the BOM looks {role_map.topology}")
     tolerances = _bom_tolerances(by_role, setup, notes)
     model = _model_parameters(by_role, setup)
+    varistor = _varistor(by_role, where, notes)
+    if varistor is not None:
+        model["varistor"] = varistor
     try:
         circuit = setup.circuit_cls(
             topology=topology,
@@ -263,6 +266,44 @@ def _circuit(
             f"{where}: the BOM's values are outside the engine's range: {exc}"
         ) from None
     return circuit, tolerances
+
+
+def _varistor(by_role: dict[str, list[Assigned]], where: str, notes: list[str]) -> Any:
+    """The engine's clamp model of the board's varistor across the line
+    (:class:`selector.engine.varistor.Varistor`) from its line and the catalogue fill, or None
+    when there is none or its clamp figures are unknown (a note says so; the varistor rules
+    then warn). Raises when several varistors sit in the varistor role."""
+    group = by_role.get("varistor", [])
+    if not group:
+        return None
+    if len(group) > 1:
+        raise BadValueError(
+            f"{where}: several varistors ({', '.join(a.part.ref for a in group)}); the audit "
+            f"models one across the line: name the others with --role {group[1].part.ref}=other"
+        )
+    a = group[0]
+    r = a.ratings
+    if r.value is None or r.limiting_voltage_v is None or r.clamp_current_a is None:
+        notes.append(
+            f"{a.part.ref}: varistor without its clamp figures (voltage at 1 mA, clamping "
+            "voltage at a current) and no catalogue family like it: the surge is analysed "
+            "without it"
+        )
+        return None
+    from ..engine.varistor import Varistor
+
+    try:
+        return Varistor(
+            v_1ma_v=r.value,
+            clamp_v=r.limiting_voltage_v,
+            clamp_a=r.clamp_current_a,
+            continuous_ac_v=r.rated_voltage_ac_v,
+            energy_j=r.pulse_energy_j,
+            peak_current_a=r.ifsm_a,
+            code=a.part.ref,
+        )
+    except OutOfRangeError as exc:
+        raise BadValueError(f"{where}: varistor {a.part.ref}: {exc}") from None
 
 
 def _rule_parts(

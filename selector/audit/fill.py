@@ -27,6 +27,7 @@ CATALOGUE_KIND: Final[dict[str, str]] = {
     "diode": "diode",
     "electrolytic": "electrolytic",
     "fuse": "fuse",
+    "varistor": "varistor",
 }
 #: ratings a family may supply, and which way is the conservative choice within the family
 _FILL_LOW: Final[tuple[str, ...]] = (
@@ -51,6 +52,10 @@ _FILL_HIGH: Final[tuple[str, ...]] = ("tolerance",)
 #: model parameters (not ratings): the family's median (one value per family in the built-in
 #: catalogue, so the audit builds the same circuit the design solver analysed)
 _FILL_TYPICAL: Final[tuple[str, ...]] = ("vf_v", "rs_ohm", "zz_ohm")
+#: a varistor's clamp model (varistor voltage at 1 mA, clamping voltage and its current): taken
+#: together from one row, the family's least capable one (lowest energy rating) among the rows
+#: like the line, so that the model is a real part's and never a mix of rows
+_FILL_VARISTOR_MODEL: Final[tuple[str, ...]] = ("value", "limiting_voltage_v", "clamp_current_a")
 
 #: search words for a family, from what the line says
 _WORD_TERMS: Final[dict[str, tuple[str, ...]]] = {
@@ -65,6 +70,7 @@ _WORD_TERMS: Final[dict[str, tuple[str, ...]]] = {
     "glass": ("glass", "do-35", "do35"),
     "time-lag": ("time-lag", "slow"),
     "fast": ("fast",),
+    "varistor": ("varistor",),
 }
 #: a stated rating that some row of the family also has: (column, points)
 _STATED_MATCH: Final[tuple[tuple[str, float], ...]] = (
@@ -142,7 +148,12 @@ class CatalogueIndex:
         if frame is None or len(frame) == 0:
             return
         wanted = (
-            ("value",) + _FILL_LOW + _FILL_HIGH + _FILL_TYPICAL + tuple(c for c, _ in _STATED_MATCH)
+            ("value",)
+            + _FILL_LOW
+            + _FILL_HIGH
+            + _FILL_TYPICAL
+            + _FILL_VARISTOR_MODEL
+            + tuple(c for c, _ in _STATED_MATCH)
         )
         for (kind, family), rows in frame.groupby(["kind", "family"], sort=False):
             package_names = (
@@ -207,9 +218,22 @@ def _best_family(ratings: Ratings, families: list[_Family]) -> _Family | None:
                     score += points
         if best is None or score > best[0]:
             best = (score, family)
+        elif score == best[0] and ratings.kind == "varistor":
+            # a varistor of unstated size: the family of the least energy (conservative)
+            if _least_energy(family) < _least_energy(best[1]):
+                best = (score, family)
     if best is None or best[0] < 3:
         return None
     return best[1]
+
+
+def _least_energy(family: _Family) -> float:
+    import numpy as np
+
+    energy = family.cols.get("pulse_energy_j")
+    if energy is None or not np.any(~np.isnan(energy)):
+        return float("inf")
+    return float(np.nanmin(energy))
 
 
 def _family_fill(ratings: Ratings, family: _Family, missing: Sequence[str]) -> dict[str, float]:
@@ -239,6 +263,21 @@ def _family_fill(ratings: Ratings, family: _Family, missing: Sequence[str]) -> d
     if ratings.power_w is not None and "power_w" in family.cols:
         narrow(np.abs(family.cols["power_w"] - ratings.power_w) < 1e-9)
     filled: dict[str, float] = {}
+    if ratings.kind == "varistor":
+        stated_ac = ratings.rated_voltage_ac_v
+        if stated_ac is not None and "rated_voltage_ac_v" in family.cols:
+            narrow(np.abs(family.cols["rated_voltage_ac_v"] - stated_ac) <= 1e-6 * stated_ac)
+        model = [name for name in _FILL_VARISTOR_MODEL if getattr(ratings, name) is None]
+        energy = family.cols.get("pulse_energy_j")
+        rows = np.flatnonzero(keep)
+        if model and len(rows) and all(name in family.cols for name in model):
+            order = np.nan_to_num(energy[rows], nan=np.inf) if energy is not None else rows
+            row = int(rows[int(np.argmin(order))])
+            for name in model:
+                value = float(family.cols[name][row])
+                if not np.isnan(value):
+                    filled[name] = value
+        missing = [name for name in missing if name not in _FILL_VARISTOR_MODEL]
     for name in missing:
         column_values = family.cols.get(name)
         if column_values is None:
@@ -266,14 +305,20 @@ def fill_from_catalogue(ratings: Ratings, fields: Sequence[str], catalogue: Any)
     best family scoring >= 3 wins (ties: first in the catalogue). Within it, rows of the same
     package (and value and power, when present) are kept and each missing rating takes the
     family's most conservative figure (lowest rating, highest tolerance). The safety class and
-    the value are never filled. Returns the family's name, or None when nothing matched (the
-    ratings stay unknown and the rules warn). Records each filled field in ``ratings.assumed``.
+    the value are never filled, except a varistor's clamp model (value = voltage at 1 mA,
+    clamping voltage and current), taken together from one row (``_FILL_VARISTOR_MODEL``).
+    Returns the family's name, or None when nothing matched (the ratings stay unknown and the
+    rules warn). Records each filled field in ``ratings.assumed``.
     """
     kind = CATALOGUE_KIND.get(ratings.kind)
+    fillable = _FILL_LOW + _FILL_HIGH + _FILL_TYPICAL
+    if ratings.kind == "varistor":
+        fields = tuple(fields) + _FILL_VARISTOR_MODEL
+        fillable = fillable + _FILL_VARISTOR_MODEL
     missing = tuple(
-        name
-        for name in fields
-        if name in _FILL_LOW + _FILL_HIGH + _FILL_TYPICAL and getattr(ratings, name, None) is None
+        dict.fromkeys(
+            name for name in fields if name in fillable and getattr(ratings, name, None) is None
+        )
     )
     if kind is None or not missing or catalogue is None:
         return None

@@ -76,6 +76,7 @@ ARRANGEMENT: Final[dict[str, str]] = {
     "reservoir": "parallel",
     "rectifier": "single",
     "fuse": "series",
+    "varistor": "single",
 }
 
 
@@ -107,6 +108,7 @@ ROLE_KINDS: Final[dict[str, tuple[tuple[str, ...], str]]] = {
         "electrolytic",
     ),
     "fuse": (("fuse", "resistor"), "fuse"),
+    "varistor": (("varistor",), "varistor"),
 }
 
 

@@ -44,6 +44,7 @@ KINDS: Final[tuple[str, ...]] = (
     "bridge",
     "zener",
     "fuse",
+    "varistor",
     "other",
 )
 
@@ -88,6 +89,8 @@ class Ratings:
     zz_ohm: float | None = None
     pitch_mm: float | None = None  # lead pitch of a film capacitor [mm], as the catalogue keeps it
     impulse_v: float | None = None  # X capacitor: peak impulse voltage in service [V]
+    #: a varistor's clamping current [A] (its clamping voltage is ``limiting_voltage_v``)
+    clamp_current_a: float | None = None
     words: list[str] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
     assumed: dict[str, str] = field(default_factory=dict)
@@ -123,7 +126,8 @@ _BRIDGE_RE = re.compile(r"BRIDGE|(?<![A-Z0-9])(MBS|MBF|ABS|KBP|GBU|DBS|DB-?1)(?!
 _FUSE_RE = re.compile(r"\bFUSE\b|\bFUSES\b")
 _FUSIBLE_RE = re.compile(r"FUSIBLE|FUSE\s+RESISTOR|FUSING\s+RESISTOR")
 _PULSE_RE = re.compile(r"PULSE|ANTI[\s-]*SURGE|SURGE[\s-]*PROOF|HIGH[\s-]*SURGE")
-_OTHER_RE = re.compile(r"\bLED\b|\bTVS\b|VARISTOR|\bMOV\b|\bNTC\b|\bPTC\b|THERMISTOR")
+_OTHER_RE = re.compile(r"\bLED\b|\bTVS\b|\bNTC\b|\bPTC\b|THERMISTOR")
+_VARISTOR_RE = re.compile(r"VARISTOR|\bMOV\b|\bVDR\b")
 _GLASS_RE = re.compile(r"\bGLASS\b")
 _SLOW_RE = re.compile(r"TIME[\s-]*LAG|SLOW[\s-]*BLOW|\bSLOW\b|\(T\)|TIME[\s-]*DELAY")
 _FAST_RE = re.compile(r"FAST[\s-]*ACTING|\bFAST\b|QUICK[\s-]*ACTING|\(F\)")
@@ -205,6 +209,10 @@ def kind_of(ref: str, text: str) -> str:
     """
     up = text.upper()
     prefix = re.match(r"[A-Za-z]*", ref).group(0).upper()  # type: ignore[union-attr]
+    if prefix in ("MOV", "VDR") or (
+        _VARISTOR_RE.search(up) and prefix not in ("U", "IC", "Q", "T", "K", "LED")
+    ):
+        return "varistor"
     if prefix in ("RV", "VR", "MOV", "VAR", "TH", "NTC", "PTC", "LED", "U", "IC", "Q", "T", "K"):
         return "other"
     if _OTHER_RE.search(up) and not _ZENER_RE.search(up):
@@ -355,6 +363,9 @@ def read_ratings(
             break
     if r.package is None and "glass" in r.words and kind == "zener":
         r.package, r.mount = "do35", "tht"
+    if kind == "varistor":
+        _read_varistor(r, up)
+        return r
     # ---- value
     quantity = _QUANTITY.get(kind)
     if quantity is not None:
@@ -453,6 +464,63 @@ def read_ratings(
         if m:
             r.if_av_a = _read(m.group("num") + ("m" if m.group("m") else "") + "A", "A")
     return r
+
+
+#: a varistor's figures: "430 V at 1 mA" (varistor voltage), "710 V at 50 A" (clamping
+#: voltage at its current), "80 J" (energy), "4.5 kA" (8/20 us peak current), "14 mm" (disc)
+_AT_CURRENT_RE = re.compile(
+    rf"(?<![\w.])(?P<v>{_NUM})\s*V\s*(?:AT|@)\s*(?P<a>{_NUM})\s*(?P<p>[MK])?\s*A(?![A-Z0-9])"
+)
+_ENERGY_RE = re.compile(rf"(?<![\w.])(?P<num>{_NUM})\s*(?P<m>M)?\s*J(?:OULES?)?(?![A-Z0-9])")
+_PEAK_A_RE = re.compile(rf"(?<![\w.])(?P<num>{_NUM})\s*(?P<p>K)?\s*A(?:MPS?)?(?![A-Z0-9])")
+_DISC_RE = re.compile(
+    rf"(?<![\w.])(?P<num>{_NUM})\s*MM\s*(?:DISC|DIA)|DISC\s*(?P<num2>{_NUM})\s*MM"
+)
+
+
+def _read_varistor(r: Ratings, up: str) -> None:
+    """A varistor line's figures into ``r``: the varistor voltage at 1 mA (``value``), the
+    clamping voltage and its current (``limiting_voltage_v``, ``clamp_current_a``), the
+    continuous AC voltage (``rated_voltage_ac_v``; a voltage without an AC/DC mark and not
+    "at" a current is read as V AC: varistors are named by their continuous AC rating, common
+    practice), the energy (``pulse_energy_j``), the 8/20 us peak current (``ifsm_a``) and the
+    disc diameter (``package`` 'disc N mm'). Every figure is read by selector.units; a missing
+    one stays None (filled from the catalogue family, else the rule warns)."""
+    r.words.append("varistor")
+    rest = up
+    for m in _AT_CURRENT_RE.finditer(up):
+        volts = _read(m.group("v") + "V", "V")
+        amps = _read(
+            m.group("a") + (m.group("p") or "").replace("M", "m").replace("K", "k") + "A", "A"
+        )
+        if abs(amps - 1e-3) <= 1e-9:
+            r.value = r.value or volts
+        elif r.limiting_voltage_v is None:
+            r.limiting_voltage_v, r.clamp_current_a = volts, amps
+        rest = rest.replace(m.group(0), " ")
+    m = _ENERGY_RE.search(rest)
+    if m:
+        r.pulse_energy_j = _read(m.group("num") + ("m" if m.group("m") else "") + "J", "J")
+        rest = rest.replace(m.group(0), " ")
+    m = _DISC_RE.search(rest)
+    if m:
+        size = m.group("num") or m.group("num2")
+        r.package = f"disc {size} mm"
+        r.mount = r.mount or "tht"
+        rest = rest.replace(m.group(0), " ")
+    for v, tag in _voltages(rest):
+        if tag == "ac" and r.rated_voltage_ac_v is None:
+            r.rated_voltage_ac_v = v
+        elif tag is None and r.rated_voltage_ac_v is None:
+            r.rated_voltage_ac_v = v
+            r.notes.append(
+                f"{v:g} V read as V AC: varistors are named by their continuous AC rating "
+                "(common practice)"
+            )
+    rest = _VOLT_RE.sub(" ", rest)
+    m = _IFSM_RE.search(rest) or _PEAK_A_RE.search(rest)
+    if m:
+        r.ifsm_a = _read(m.group("num") + ("k" if m.groupdict().get("p") else "") + "A", "A")
 
 
 _NAMES = {"F": "capacitance", "ohm": "resistance", "V": "voltage", "A": "current"}

@@ -16,7 +16,8 @@ Inference, for parts the user did not name (each decision is written to ``RoleMa
 * a fusible resistor is the series resistor and, with no fuse fitted, also the fuse;
 * a Zener -> ``zener`` (several: in series, voltages add); a bridge, or four or more rectifier
   diodes -> ``rectifier`` of a bridge; one diode with a Zener -> ``rectifier`` of a half-wave;
-* a fuse -> ``fuse``; everything else (ceramic capacitors, ICs, LEDs, varistors, ...) -> other.
+* a fuse -> ``fuse``; a varistor -> ``varistor`` (across the line; one per board);
+  everything else (ceramic capacitors, ICs, LEDs, thermistors, ...) -> other.
 
 The 100 kohm split between series resistor and bleeder is common practice (no source): series
 resistors are tens of ohms to a few kohm, bleeders hundreds of kohm to a few Mohm.
@@ -61,6 +62,7 @@ AUDIT_ROLES: Final[tuple[str, ...]] = (
     "zener",
     "reservoir",
     "fuse",
+    "varistor",
     "other",
 )
 _ROLE_ALIASES: Final[dict[str, str]] = {
@@ -74,6 +76,7 @@ _ROLE_ALIASES: Final[dict[str, str]] = {
     "bridge": "rectifier",
     "diode": "rectifier",
     "electrolytic": "reservoir",
+    "mov": "varistor",
 }
 #: resistors at or above this are bleeders, below it series resistors [ohm] (common practice)
 BLEEDER_MIN_OHM: Final[float] = 100e3
@@ -213,6 +216,7 @@ def infer_roles(
 
     have = {a.role for a in out}
     xcaps, reservoirs, resistors, zeners, bridges, diodes, fuses, other = ([] for _ in range(8))
+    varistors: list[tuple[BomPart, Ratings]] = []
     for p, r in rest:
         k = r.kind
         if k == "x_capacitor" or k == "film_capacitor":
@@ -237,6 +241,8 @@ def infer_roles(
             diodes.append((p, r))
         elif k == "fuse":
             fuses.append((p, r))
+        elif k == "varistor":
+            varistors.append((p, r))
         else:
             other.append((p, r))
 
@@ -344,6 +350,15 @@ def infer_roles(
         take(fuses, "fuse", f"fuse: {_label(fuses)}")
     else:
         take(fuses, "other")
+    if "varistor" not in have:
+        if len(varistors) > 1:
+            raise BadValueError(
+                f"{_where(board)}several varistors ({_label(varistors)}); name the one across "
+                f"the line with --role {varistors[0][0].ref}=varistor and the others =other"
+            )
+        take(varistors, "varistor", f"varistor: {_label(varistors)} (across the line)")
+    else:
+        take(varistors, "other")
     take(other, "other", f"other (not audited): {_label(other)}" if other else None)
 
     roles_now = [a.role for a in out]

@@ -112,7 +112,8 @@ def check(
     ] = None,
 ) -> None:
     """Worst-case stresses, margins and transients of given values (exit 1: load not met at
-    some corner, or the discharge rule fails, or a rule of the --varistor part fails)."""
+    some corner, the discharge rule fails, the surge lifts the bus above --vout-max, a set
+    standby limit is exceeded, or a rule of the --varistor part fails)."""
     from ..outputs import check_outputs
 
     check_outputs([("--report", report)])  # a missing folder is refused before any work
@@ -156,7 +157,6 @@ def check(
 
     pol, limit_source = standby_policy(Policy(), standby_limit, product_class)
     standby = standby_record(result.worst_case.no_load_real_power_w, pol, limit_source)
-    ok = bool(result.ok and standby["ok"])
     from ..rules import stresses_from_analysis
     from ..rules.life import life_context, life_record
 
@@ -170,11 +170,14 @@ def check(
     )
     life_doc = life_record(life_stresses)
     mov_doc = None if mov_row is None else varistor_section(result, circuit, mov_row, supply)
-    ok = ok and (mov_doc is None or mov_doc["ok"])
+    failures = check_failures(result, standby, mov_doc)
+    ok = not failures
     doc = {
         "topology": result.topology,
         "ambient_c": result.ambient_c,
         "ok": ok,
+        # every verdict that refuses the values, each {"rule": id, "reason": text}
+        "failures": failures,
         "standby": standby,
         "life": life_doc,
         "mains": mains_record(supply),
@@ -215,9 +218,39 @@ def check(
         if mov_doc is not None:
             typer.echo(render_varistor(mov_doc))
         typer.echo(describe_mains(doc["mains"]))
+        # the verdict comes after every block that feeds it, the cautions after the verdict
+        typer.echo(render_verdict(result.topology, failures))
         echo_cautions()
     if not ok:
         raise typer.Exit(EXIT_FINDINGS)
+
+
+def check_failures(result: Analysis, standby: dict, mov_doc: dict | None) -> list[dict]:
+    """Every verdict that refuses the checked values, each ``{"rule", "reason"}``: the
+    analysis's own (:attr:`selector.engine.Analysis.failures`: load, discharge, surge bus peak),
+    the standby limit when one is set (``whole.standby_power``) and each failed rule of the
+    --varistor part. ``check`` accepts the values only when the list is empty."""
+    out = list(result.failures)
+    if not standby["ok"]:
+        out.append({"rule": "whole.standby_power", "reason": standby["note"]})
+    if mov_doc is not None:
+        for f in mov_doc["findings"]:
+            if f.severity == "fail":
+                out.append(
+                    {
+                        "rule": f.rule,
+                        "reason": f"{_f(f.stress, f.unit)} against {_f(f.limit, f.unit)}",
+                    }
+                )
+    return out
+
+
+def render_verdict(topology: str, failures: list[dict]) -> str:
+    """The closing verdict line: ACCEPTED, or NOT ACCEPTED with each failure and its rule."""
+    if not failures:
+        return f"\n{topology} dropper: ACCEPTED"
+    reasons = "; ".join(f"{f['reason']} ({f['rule']})" for f in failures)
+    return f"\n{topology} dropper: NOT ACCEPTED: {reasons}"
 
 
 def varistor_section(result: Analysis, circuit, row: dict, supply) -> dict:
@@ -343,7 +376,8 @@ def _surge_rows(s) -> list[tuple[str, str, str, str]]:
 
 
 def render_table(a: Analysis, vout_max_v: float | None = None) -> str:
-    """The human report: one aligned table (quantity, nominal, worst, corner) and verdicts."""
+    """The human report: one aligned table (quantity, nominal, worst, corner); the verdict is
+    :func:`render_verdict`, printed after every other block."""
     n, w, i, s, d = a.nominal, a.worst_case, a.inrush, a.surge, a.discharge
     rows: list[tuple[str, str, str, str]] = [
         (
@@ -508,14 +542,4 @@ def render_table(a: Analysis, vout_max_v: float | None = None) -> str:
     lines.append("-" * (sum(widths) + 6 + len(head[3])))
     for r in rows:
         lines.append(f"{r[0]:<{widths[0]}}  {r[1]:>{widths[1]}}  {r[2]:>{widths[2]}}  {r[3]}")
-    verdict = "ACCEPTED" if a.ok else "NOT ACCEPTED"
-    reasons = []
-    if not w.load_met:
-        reasons.append("load not met at every corner")
-    if not d.ok:
-        reasons.append(f"discharge too slow ({d.rule})")
-    lines.append("")
-    lines.append(
-        f"{a.topology} dropper: {verdict}" + (f": {'; '.join(reasons)}" if reasons else "")
-    )
     return "\n".join(lines)

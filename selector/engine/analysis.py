@@ -192,9 +192,46 @@ class Analysis:
     exact_solves: int
 
     @property
+    def failures(self) -> list[dict[str, str]]:
+        """The analysis's own verdicts that refuse these values, each ``{"rule", "reason"}``.
+
+        ``rule`` is the id in ``selector.rules.RULES`` that judges the same figure, so that
+        ``check`` names what design and audit would name: the load at every corner
+        (``whole.min_current``; here without the policy margin), the discharge profile
+        (``bleeder.discharge``) and, when the surge ran through the whole circuit, the bus peak
+        during the surge against the highest voltage the load tolerates
+        (``whole.bus_surge_peak``, :func:`selector.rules.whole.bus_surge_peak_vs_vout_max`).
+        ``ok`` is their absence, the one verdict every caller reads.
+        """
+        from ..units import format_value
+
+        out: list[dict[str, str]] = []
+        if not self.worst_case.load_met:
+            out.append({"rule": "whole.min_current", "reason": "load not met at every corner"})
+        if not self.discharge.ok:
+            out.append(
+                {
+                    "rule": "bleeder.discharge",
+                    "reason": f"discharge too slow ({self.discharge.rule})",
+                }
+            )
+        s = self.surge
+        if s.bus_ok is False:
+            out.append(
+                {
+                    "rule": "whole.bus_surge_peak",
+                    "reason": f"surge bus peak {format_value(s.bus_peak_v, 'V')} above the "
+                    f"load's limit {format_value(s.vout_max_v, 'V')} (--vout-max)",
+                }
+            )
+        return out
+
+    @property
     def ok(self) -> bool:
-        """True when the load is met at every corner and the discharge rule holds."""
-        return bool(self.worst_case.load_met and self.discharge.ok)
+        """True when no verdict of :attr:`failures` refuses the values: the load is met at
+        every corner, the discharge rule holds and the surge keeps the bus within the load's
+        limit."""
+        return not self.failures
 
 
 def corners(circuit: Circuit, mains: Mains, tol: Tolerances) -> list[Corner]:
