@@ -124,7 +124,10 @@ def options_of_parts(
     attrs["fuse_time_lag"] = []
     time_lag = np.full(len(idx), np.nan)
     if role == "fuse":  # the fuse's type (time-lag or fast-acting) from its description, code
-        cols = [df[c].fillna("").astype(str).to_numpy()[idx] for c in ("description", "code")]
+        cols = [
+            df[c].fillna("").astype(str).to_numpy()[idx] if c in df else np.full(len(idx), "")
+            for c in ("description", "code")
+        ]
         time_lag = np.array(
             [R.fuse_time_lag_of_text(f"{d} {c}") for d, c in zip(*cols, strict=True)]
         )
