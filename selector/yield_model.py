@@ -312,6 +312,8 @@ def unit_stresses(
     s["inrush_rectifier_peak_current_a"] = _anchor(ins.rectifier_peak_current_a, v / r, V / R)
     s["inrush_i2t_a2s"] = _anchor(ins.i2t_a2s, v * v * c / r, V * V * C / R)
     s["inrush_x_cap_dvdt_v_per_s"] = _anchor(ins.x_cap_dvdt_v_per_s, v / (r * c), V / (R * C))
+    # k0 = 2 I^2t / C^2 ~ V^2 / (R C)
+    s["inrush_x_cap_k0_v2_per_s"] = _anchor(ins.x_cap_k0_v2_per_s, v * v / (r * c), V * V / (R * C))
     dis = analysis.discharge
     if circuit.has_bleeder and math.isfinite(dis.time_s):
         k = dis.corner

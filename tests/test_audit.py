@@ -365,3 +365,31 @@ def test_fuse_against_a_shorted_x2_capacitor_is_a_warning_only(catalogue):
     r = run("audit_vent_fuse_film.csv", catalogue)
     assert ("fuse.opens_on_short", "F1") in fails(r)
     assert ("x_cap.safety_class", "C1") in fails(r)
+
+
+@pytest.mark.parametrize(
+    "description, grade, assumed",
+    [
+        # the line states its grade (IEC 60384-14 Amd 1): read, nothing assumed
+        ("Capacitor X2, 305VAC, 10%, humidity grade IIIB", "IIIB", None),
+        # the line names a catalogue family: its grade, reported as assumed from that family
+        ("Capacitor X2 305VAC 10% x2-film-humid", "III", "humidity_grade assumed from family"),
+        # neither: grade I (the least robust), and the audit says so in an assumption line
+        ("Capacitor X2, metallized polypropylene, 305VAC, 10%", "I", "taken as grade I"),
+    ],
+)
+def test_x_capacitor_humidity_grade_from_line_family_or_assumed(
+    catalogue, tmp_path, description, grade, assumed
+):
+    text = (DATA / "audit_vent_sound.csv").read_text(encoding="utf-8")
+    old = '"Capacitor X2, metallized polypropylene, 305VAC, 10%, humidity grade IIIB"'
+    p = tmp_path / "bom.csv"
+    p.write_text(text.replace(old, f'"{description}"'), encoding="utf-8")
+    r = run(p, catalogue)
+    notes = [a for a in r.boards[0].assumed if a.startswith("C1: ")]
+    life_note = " ".join(r.boards[0].life["notes"])
+    assert f"grade {grade}" in life_note
+    if assumed is None:
+        assert not any("humidity" in a for a in notes)
+    else:
+        assert any(assumed in a for a in notes), notes

@@ -168,3 +168,55 @@ def test_surge_cuts_hold(case):
     for k in _X_CUT_STRESSES + _R_CUT_STRESSES:
         lo, hi = min(v[k] for v in variants), max(v[k] for v in variants)
         assert hi <= lo * (1 + SURGE_CUT_TOLERANCE), (k, hi / lo)
+
+
+@pytest.mark.parametrize("case", CIRCUITS[:12], ids=lambda c: c[0])
+@pytest.mark.parametrize("profile", ["iec60335", "iec60950"])
+def test_switch_on_bounds_stay_below_the_engine_after_a_replug(case, profile):
+    # the switch-on bounds (with the re-plug residual the profile allows, the engine's own
+    # formula) never exceed the engine's exact switch-on figures (RC charging, textbook [S])
+    top, circ, tol, mains, level = case
+    cond = Conditions(40.0, profile, level)
+    an = analyse(circ, mains, tol, cond)
+    assert an.inrush.replug_residual_v > 0
+    req = Requirement(load_a=0.005, vout_v=5.1, mains=mains, conditions=cond,
+                      cap_loss=tol.cap_loss, topology=top)  # fmt: skip
+    b = B.screen_bounds(req, top, circ.zener_voltage_v, np.array([circ.x_capacitance_f]),
+                        np.array([tol.cap_tol]), np.array([circ.series_resistance_ohm]),
+                        np.array([tol.r_tol]), circ.diode_drop_v, circ.diode_drop_v,
+                        surge=False)  # fmt: skip
+    ins = an.inrush
+    assert b["inrush_peak_current_a"][0] <= ins.peak_current_a
+    assert b["inrush_series_r_energy_j"][0] <= ins.series_r_energy_j
+    assert b["inrush_i2t_a2s"][0] <= ins.i2t_a2s
+    assert b["inrush_x_cap_dvdt_v_per_s"][0] <= ins.x_cap_dvdt_v_per_s
+    assert b["inrush_x_cap_k0_v2_per_s"][0] <= ins.x_cap_k0_v2_per_s
+
+
+@pytest.mark.parametrize("case", CIRCUITS[:12], ids=lambda c: c[0])
+def test_end_of_life_screen_never_rejects_what_the_exact_rule_passes(case):
+    # whole.end_of_life_current on the screen's upper bound of the minimum current, with each
+    # X option's exact end-of-life factor, against the rule on the engine's exact figure
+    from selector.design.candidates import rule_by_id
+    from selector.policy import Policy
+    from selector.rules.life import EOL_LOSS_KEY
+
+    top, circ, tol, mains, level = case
+    cond = Conditions(40.0, "iec60335", level)
+    an = analyse(circ, mains, tol, cond)
+    req = Requirement(load_a=0.005, vout_v=5.1, mains=mains, conditions=cond,
+                      cap_loss=tol.cap_loss, topology=top)  # fmt: skip
+    b = B.screen_bounds(req, top, circ.zener_voltage_v, np.array([circ.x_capacitance_f]),
+                        np.array([tol.cap_tol]), np.array([circ.series_resistance_ohm]),
+                        np.array([tol.r_tol]), circ.diode_drop_v, circ.diode_drop_v,
+                        surge=False)  # fmt: skip
+    assert b["min_dc_current_a"][0] >= an.worst_case.min_dc_current_a
+    rule = rule_by_id("whole.end_of_life_current")
+    exact_i = an.worst_case.min_dc_current_a
+    for loss in (0.05, 0.2, 0.5):
+        for load in (0.3 * exact_i, 0.6 * exact_i, 0.9 * exact_i):
+            ctx = {"load_a": load, EOL_LOSS_KEY: loss, "cap_loss_in_analysis": tol.cap_loss}
+            st, lim, _ = rule.check({**ctx, "min_dc_current_a": exact_i}, None, Policy())
+            st_b, lim_b, _ = rule.check({**ctx, "min_dc_current_a": b["min_dc_current_a"]},
+                                        None, Policy())  # fmt: skip
+            assert (st <= lim) <= (st_b <= lim_b)  # exact pass implies screen pass

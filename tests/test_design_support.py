@@ -46,7 +46,9 @@ def _part(code, kind, family, value, price, area, mount="tht", **kw):
 
 def small_catalogue() -> pd.DataFrame:
     """A handful of parts of every kind (invented demo figures, plausible ratios)."""
-    x = dict(safety_class="X2", rated_voltage_ac_v=275.0, impulse_v=2500.0, tolerance=0.2)
+    # rated DC voltage 560 V: the 275 VAC X2 rows of the built-in catalogue (invented demo data)
+    x = dict(safety_class="X2", rated_voltage_ac_v=275.0, rated_voltage_v=560.0, impulse_v=2500.0,
+             tolerance=0.2)  # fmt: skip
     res = dict(derate_start_c=70.0, derate_end_c=155.0)
     rows = [
         # humidity grades (IEC 60384-14 Amd 1): grade I does not last a 10-year life in the
@@ -342,12 +344,19 @@ def standin_analyse(circuit, mains, tol, cond):
         load_met=imin[0] >= demand,
         load_margin_a=imin[0] - demand,
     )
-    ipk = vpk_hi / r_min
+    # switch-on after a re-plug at the opposite crest: the step is the crest plus the residual
+    # the discharge profile allows (the engine's own formula), RC charging from a step [S]
+    from selector.engine.transients import replug_residual_v
+
+    tau_slow = rb * (1 + tol.r_tol) * c_max
+    v_on = vpk_hi + replug_residual_v(cond.profile, vpk_hi, c, tau_slow, cond.replug_delay_s)
+    ipk = v_on / r_min
     inrush = SimpleNamespace(
         peak_current_a=ipk,
-        series_r_energy_j=0.5 * c_max * vpk_hi**2,
-        i2t_a2s=vpk_hi**2 * c_max / (2 * r_min),
+        series_r_energy_j=0.5 * c_max * v_on**2,
+        i2t_a2s=v_on**2 * c_max / (2 * r_min),
         x_cap_dvdt_v_per_s=ipk / c_max,
+        x_cap_k0_v2_per_s=v_on**2 / (r_min * c_max),
         rectifier_peak_current_a=ipk,
         duration_s=r_min * c_max,
     )

@@ -14,7 +14,15 @@ import pytest
 
 from selector.engine import Circuit, Load, solve_steady_state
 from selector.engine.steady_state import build_system
-from selector.engine.transients import discharge, holdup, inrush, startup, surge, surge_wave
+from selector.engine.transients import (
+    discharge,
+    holdup,
+    inrush,
+    replug_residual_v,
+    startup,
+    surge,
+    surge_wave,
+)
 
 
 def circuit(**kw) -> Circuit:
@@ -35,6 +43,45 @@ def test_switch_on_energy_is_half_c_v_squared() -> None:
         assert res.i2t_a2s == pytest.approx(vpk**2 * 330e-9 / (2 * r), rel=0.02)
         # peak = V / R at the instant of switching
         assert res.peak_current_a == pytest.approx((vpk - 1.6) / r, rel=1e-3)
+        # k0 = 2 integral (dV/dt)^2 dt = V^2 / (R C) for an RC step (textbook RC charging)
+        assert res.x_cap_k0_v2_per_s == pytest.approx(vpk**2 / (r * 330e-9), rel=0.02)
+
+
+def test_replug_residual_worked_examples() -> None:
+    # RC discharge V(t) = V0 exp(-t / RC) (textbook [S]) that just meets the profile:
+    # IEC 60335-1 22.5, 34 V after 1 s [S]: 357.8 V -> 357.8 (34 / 357.8)^0.2 = 223.4 V at 0.2 s
+    crest = math.sqrt(2) * 253
+    assert replug_residual_v("iec60335", crest, 330e-9, 0.3, 0.2) == pytest.approx(223.4, abs=0.1)
+    # IEC 60950-1 2.1.1.7, R C <= 1 s [S]: 357.8 exp(-0.2) = 292.9 V
+    assert replug_residual_v("iec60950", crest, 330e-9, 0.3, 0.2) == pytest.approx(292.9, abs=0.1)
+    # IEC 62368-1 5.5.2.2, 60 V [M] after 2 s [S]: 357.8 (60 / 357.8)^0.1 = 299.2 V
+    assert replug_residual_v("iec62368", crest, 330e-9, 0.3, 0.2) == pytest.approx(299.2, abs=0.1)
+    # C <= 0.1 uF is exempt (IEC 60335-1 [S]): its own bleeder decides, RC = 0.1 s -> e^-2
+    assert replug_residual_v("iec60335", crest, 100e-9, 0.1, 0.2) == pytest.approx(
+        crest * math.exp(-2.0)
+    )
+    # ... and without a bleeder it keeps the crest: the full 2 Vpk step
+    assert replug_residual_v("iec60335", crest, 100e-9, math.inf, 0.2) == pytest.approx(crest)
+    # no delay: the crest itself
+    assert replug_residual_v("iec60335", crest, 330e-9, 0.3, 0.0) == pytest.approx(crest)
+
+
+def test_replug_at_the_opposite_crest_scales_the_switch_on_pulse() -> None:
+    # a step of Vpk + V_res from -V_res: energy 0.5 C (Vpk + V_res)^2, peak (Vpk + V_res) / R
+    # (RC charging from a step, textbook [S]); with V_res = Vpk the step is 2 Vpk, so the peak
+    # current doubles and the energy quadruples (DOMAIN.md section 10 [P])
+    vpk = math.sqrt(2) * 230
+    c = circuit(series_resistance_ohm=100.0, diode_resistance_ohm=0.0)
+    empty = inrush(c, 230, 50, {})
+    for res in (0.5 * vpk, vpk):
+        got = inrush(c, 230, 50, {}, residual_v=res, replug_delay_s=0.2)
+        v = vpk + res
+        assert got.series_r_energy_j == pytest.approx(0.5 * 330e-9 * v**2, rel=0.02)
+        assert got.peak_current_a == pytest.approx((v - 1.6) / 100.0, rel=1e-3)
+        assert got.replug_residual_v == res
+    full = inrush(c, 230, 50, {}, residual_v=vpk)
+    assert full.peak_current_a / empty.peak_current_a == pytest.approx(2.0, rel=0.01)
+    assert full.series_r_energy_j / empty.series_r_energy_j == pytest.approx(4.0, rel=0.03)
 
 
 def test_surge_wave_shape_meets_iec61000_4_5() -> None:

@@ -43,6 +43,9 @@ def _s(**kw):
         "max_output_voltage_v": 0.0,
         "max_reservoir_ripple_current_a": 0.0,
         "inrush_i2t_a2s": 0.0,
+        "inrush_x_cap_k0_v2_per_s": 0.0,
+        # one switch-on: the pulse-count deratings are 1 (the single-pulse limits)
+        "switch_ons": 1.0,
         "series_resistance_ohm": 470.0,
         "load_a": 0.0,
         "min_dc_current_a": 1.0,
@@ -377,3 +380,92 @@ def test_rated_part_from_catalogue_row_and_arrangement_validation():
     assert p.voltage_share == 0.5 and p.power_share == 0.5
     with pytest.raises(ValueError, match="valid"):
         R.RatedPart("bleeder", arrangement="diagonal")
+
+
+# --- repeated switch-on (DOMAIN.md section 10) -------------------------------------------------
+
+
+def test_fuse_pulse_curves_at_their_recalled_points():
+    # fuse makers' pulse-cycle withstand charts [M] from memory, not checked: a fast-acting fuse
+    # withstands 1e5 pulses of 22 % of its melting I^2t; a time-lag one about 30 % (DOMAIN.md 10)
+    from selector.rules.fuse import fuse_pulse_fraction
+
+    assert fuse_pulse_fraction(1e5, 0.0) == pytest.approx(0.22)
+    assert fuse_pulse_fraction(1e5, 1.0) == pytest.approx(0.30)
+    # log-linear between the points: 3e4 lies 0.477 decades above 1e4 (0.29 -> 0.22)
+    assert fuse_pulse_fraction(3e4, 0.0) == pytest.approx(0.29 - 0.07 * math.log10(3), rel=1e-9)
+    # a fuse of unstated type takes the fast-acting (lower) curve
+    assert fuse_pulse_fraction(3e4, math.nan) == fuse_pulse_fraction(3e4, 0.0)
+    # the curves fall with the count, and end at 1e6 (no extrapolation)
+    counts = np.geomspace(1, 1e6, 50)
+    assert np.all(np.diff(fuse_pulse_fraction(counts, 0.0)) <= 0)
+    assert np.all(fuse_pulse_fraction(counts, 0.0) <= fuse_pulse_fraction(counts, 1.0))
+    with pytest.raises(OutOfRangeError):
+        fuse_pulse_fraction(2e6, 1.0)
+
+
+@pytest.mark.parametrize(
+    ("description", "lag"),
+    [
+        ("5 x 20 mm glass cartridge fuse, time-lag (T), 100 mA 250 VAC", 1.0),
+        ("T100mA 5x20", 1.0),
+        ("fuse 500mAT", 1.0),
+        ("slow-blow fuse 1A", 1.0),
+        ("5 x 20 mm glass cartridge fuse, fast-acting (F), 100 mA 250 VAC", 0.0),
+        ("F500mA", 0.0),
+        ("quick-acting 315 mA", 0.0),
+        ("fuse 250 mA", math.nan),
+    ],
+)
+def test_fuse_type_from_text(description, lag):
+    # speed letters T (time-lag) and F (fast-acting) of IEC 60127 [M] from memory
+    got = R.fuse_time_lag_of_text(description)
+    assert (math.isnan(got) and math.isnan(lag)) or got == lag
+
+
+def test_fuse_switch_on_rule_derated_for_the_count_and_type():
+    # switch-on I^2t of RC charging V^2 C / (2 R) [S]: 357.8^2 x 330n / (2 x 47) = 4.49e-4 A^2 s
+    i2t = (math.sqrt(2) * 253) ** 2 * 330e-9 / (2 * 47)
+    lag = R.RatedPart("fuse", value=0.1, i2t_a2s=0.002, description="time-lag (T)")
+    fast = R.RatedPart("fuse", value=0.1, i2t_a2s=0.002, description="fast-acting (F)")
+    # one switch-on: the single-pulse fraction 0.5 of the policy (0.001 A^2 s) - both pass
+    for part in (lag, fast):
+        f = _find(_eval({"fuse": part}, inrush_i2t_a2s=i2t), "fuse.inrush_i2t")
+        assert f.ok and f.limit == pytest.approx(0.001)
+    # 1e5 switch-ons: time-lag 0.30 x 0.002 = 6.0e-4 (passes), fast 0.22 x 0.002 = 4.4e-4 (fails)
+    f = _find(_eval({"fuse": lag}, inrush_i2t_a2s=i2t, switch_ons=1e5), "fuse.inrush_i2t")
+    assert f.ok and f.limit == pytest.approx(6.0e-4) and "time-lag" in f.note
+    f = _find(_eval({"fuse": fast}, inrush_i2t_a2s=i2t, switch_ons=1e5), "fuse.inrush_i2t")
+    assert not f.ok and f.limit == pytest.approx(4.4e-4) and "fast-acting" in f.note
+
+
+def test_series_r_switch_on_energy_derated_for_repetition():
+    # 0.5 C V^2 of RC charging [S]: 0.5 x 330n x 357.8^2 = 21.1 mJ, one element
+    e = 0.5 * 330e-9 * (math.sqrt(2) * 253) ** 2
+    assert e == pytest.approx(21.1e-3, abs=0.05e-3)
+    part = R.RatedPart("series_resistor", value=470.0, pulse_energy_j=0.05)
+    one = _find(_eval({"series_resistor": part}, inrush_series_r_energy_j=e),
+                "series_r.switch_on_energy")  # fmt: skip
+    assert one.ok and one.limit == pytest.approx(0.05)
+    # 1e5 switch-ons: RESISTOR_PULSE_CURVE 0.3 (an assumption, no source) -> 15 mJ: fails
+    many = _find(_eval({"series_resistor": part}, inrush_series_r_energy_j=e, switch_ons=1e5),
+                 "series_r.switch_on_energy")  # fmt: skip
+    assert not many.ok and many.limit == pytest.approx(0.015) and "switch-ons" in many.note
+
+
+def test_x_cap_k0_rule_worked_example():
+    # RC step of height V: dV/dt = V/(RC) exp(-t/RC), k0 = 2 integral (dV/dt)^2 dt = V^2/(RC)
+    # (textbook RC charging [S]); rating 2 U_R (dV/dt)_R [M] from memory of makers' notes.
+    # 716 V (twice the 253 V crest) through 10 ohm into 330 nF: 1.553e11 V^2/s against
+    # 2 x 630 V x 100 V/us = 1.26e11 V^2/s: fails; through 47 ohm: 3.30e10, passes.
+    x = R.RatedPart("x_capacitor", value=330e-9, safety_class="X2", rated_voltage_v=630.0,
+                    dvdt_v_per_s=100e6, rated_voltage_ac_v=305.0)  # fmt: skip
+    for r, ok in ((10.0, False), (47.0, True)):
+        k0 = 716.0**2 / (r * 330e-9)
+        f = _find(_eval({"x_capacitor": x}, inrush_x_cap_k0_v2_per_s=k0), "x_cap.k0_switch_on")
+        assert f.ok is ok and f.limit == pytest.approx(1.26e11)
+    assert 716.0**2 / (10 * 330e-9) == pytest.approx(1.553e11, rel=1e-3)
+    # a part without a rated DC voltage is not rated for k0: a warning, never a pass
+    bare = R.RatedPart("x_capacitor", value=330e-9, safety_class="X2", dvdt_v_per_s=100e6)
+    f = _find(_eval({"x_capacitor": bare}), "x_cap.k0_switch_on")
+    assert f.severity == "warn" and "rated_voltage_v" in f.note

@@ -20,7 +20,7 @@ from ..errors import BadRowError, BadValueError, OutOfRangeError
 from ..rules.life import life_context
 from .bom import BomTable
 from .corners import corners_of
-from .fill import fill_from_catalogue
+from .fill import fill_from_catalogue, humidity_grade_from_family
 from .rated_parts import ARRANGEMENT, equal_groups, rated_part
 from .results import AuditFinding, BoardAudit
 from .roles import Assigned, RoleMap
@@ -141,13 +141,35 @@ def _fill_missing_ratings(by_role: dict[str, list[Assigned]], setup: AuditSetup)
             if id(assigned.ratings) in seen:
                 continue
             seen.add(id(assigned.ratings))
-            family = fill_from_catalogue(assigned.ratings, wanted, setup.catalogue)
-            if family:
-                fields = ", ".join(sorted(assigned.ratings.assumed))
+            families = [fill_from_catalogue(assigned.ratings, wanted, setup.catalogue)]
+            if role == "x_capacitor" and assigned.ratings.humidity_grade is None:
+                families.append(_x_cap_humidity_grade(assigned, setup, assumed_refs))
+            for family in dict.fromkeys(f for f in families if f):
+                assumed = assigned.ratings.assumed
+                fields = ", ".join(sorted(k for k, v in assumed.items() if v == family))
                 assumed_refs.setdefault(f"{fields} assumed from family {family}", []).append(
                     assigned.part.ref
                 )
     return [f"{', '.join(refs)}: {text}" for text, refs in assumed_refs.items()]
+
+
+#: the assumption line of an X capacitor whose line states no humidity grade and names no family
+NO_GRADE_NOTE: Final[str] = (
+    "no humidity grade stated and no catalogue family named: taken as grade I (the least "
+    "robust of IEC 60384-14 Amd 1) for the end-of-life capacitance loss"
+)
+
+
+def _x_cap_humidity_grade(
+    assigned: Assigned, setup: AuditSetup, assumed_refs: dict[str, list[str]]
+) -> str | None:
+    """The humidity grade of an X-capacitor line that states none: from the family its text
+    names (returns that family), else an assumption line that grade I is taken (returns None)."""
+    text = " ".join(str(t) for t in (assigned.part.value, assigned.part.description) if t)
+    family = humidity_grade_from_family(assigned.ratings, text, setup.catalogue)
+    if family is None:
+        assumed_refs.setdefault(NO_GRADE_NOTE, []).append(assigned.part.ref)
+    return family
 
 
 def _bom_values(table: BomTable, by_role: dict[str, list[Assigned]]) -> _BomValues:

@@ -131,6 +131,8 @@ class _Family:
     cols: dict[str, Any]  # column -> numpy array over the family's rows
     packages: Any  # numpy array of normalised package names
     safety: frozenset[str]
+    #: the humidity robustness grades of the family's rows (X capacitors; IEC 60384-14 Amd 1)
+    grades: frozenset[str] = frozenset()
 
 
 class CatalogueIndex:
@@ -176,8 +178,15 @@ class CatalogueIndex:
                 if "safety_class" in rows
                 else frozenset()
             )
+            grades = (
+                frozenset(str(g) for g in rows["humidity_grade"].dropna().unique())
+                if "humidity_grade" in rows
+                else frozenset()
+            )
             self.by_kind.setdefault(str(kind), []).append(
-                _Family(str(family), str(kind), text, _norm(text), columns, packages, safety)
+                _Family(
+                    str(family), str(kind), text, _norm(text), columns, packages, safety, grades
+                )
             )
 
 
@@ -344,3 +353,29 @@ def fill_from_catalogue(ratings: Ratings, fields: Sequence[str], catalogue: Any)
         setattr(ratings, name, value)
         ratings.assumed[name] = family_name  # type: ignore[assignment]
     return family_name if values else None
+
+
+def humidity_grade_from_family(ratings: Ratings, line_text: str, catalogue: Any) -> str | None:
+    """Fill an X capacitor's missing humidity grade from the catalogue family its line names.
+
+    A family is named when its name appears in the line's text (letters and digits compared,
+    'x2-film-humid' in 'C1 330n X2-FILM-HUMID 305VAC'); the longest such name wins, and it must
+    give one grade to all its rows. Sets ``ratings.humidity_grade``, records it in
+    ``ratings.assumed`` and returns the family's name; None when the line names no family (the
+    life model then takes grade I, the least robust, and the audit says so).
+    """
+    if ratings.humidity_grade is not None or catalogue is None:
+        return None
+    index = catalogue if isinstance(catalogue, CatalogueIndex) else CatalogueIndex(catalogue)
+    text = _norm(line_text)
+    named = [
+        f
+        for f in index.by_kind.get("x_capacitor", [])
+        if _norm(f.name) and _norm(f.name) in text and len(f.grades) == 1
+    ]
+    if not named:
+        return None
+    family = max(named, key=lambda f: len(_norm(f.name)))
+    ratings.humidity_grade = next(iter(family.grades))
+    ratings.assumed["humidity_grade"] = family.name  # type: ignore[assignment]
+    return family.name

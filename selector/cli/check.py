@@ -486,11 +486,17 @@ def render_table(a: Analysis, vout_max_v: float | None = None) -> str:
             ),
         ]
     ic = describe_corner(i.corner)
+    if i.replug_delay_s is not None:
+        ic += (
+            f", re-plugged at the opposite crest after {format_value(i.replug_delay_s, 's')}"
+            f" ({_f(i.replug_residual_v, 'V')} left on the X cap)"
+        )
     rows += [
         ("Switch-on peak current", "", _f(i.peak_current_a, "A"), ic),
         ("Switch-on energy in R", "", _f(i.series_r_energy_j, "J"), ic),
         ("Switch-on I²t", "", f"{i.i2t_a2s:.3g} A²s", ic),
         ("Switch-on X cap dV/dt", "", _f(i.x_cap_dvdt_v_per_s, "V/s"), ic),
+        ("Switch-on X cap k0", "", f"{i.x_cap_k0_v2_per_s:.3g} V²/s", ic),
     ]
     if s.peak_current_a is not None and s.corners is None:
         sc = f"{format_value(s.level_v, 'V')} IEC 61000-4-5, 2 Ω"

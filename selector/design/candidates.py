@@ -121,6 +121,16 @@ def options_of_parts(
     attrs: dict[str, list[np.ndarray]] = {c: [] for c in NUMERIC_COLUMNS}
     attrs["class_impulse_v"] = []
     attrs["fusible_flag"] = []
+    attrs["fuse_time_lag"] = []
+    time_lag = np.full(len(idx), np.nan)
+    if role == "fuse":  # the fuse's type (time-lag or fast-acting) from its description, code
+        cols = [
+            df[c].fillna("").astype(str).to_numpy()[idx] if c in df else np.full(len(idx), "")
+            for c in ("description", "code")
+        ]
+        time_lag = np.array(
+            [R.fuse_time_lag_of_text(f"{d} {c}") for d, c in zip(*cols, strict=True)]
+        )
     prices, areas, counts = [], [], []
     for q in qtys:
         rows.extend((int(i),) * q for i in idx)
@@ -136,6 +146,7 @@ def options_of_parts(
             ci = np.full(len(idx), np.nan)
         attrs["class_impulse_v"].append(ci)
         attrs["fusible_flag"].append(fus)
+        attrs["fuse_time_lag"].append(time_lag)
         prices.append(price * q)
         areas.append(area * q)
         counts.append(np.full(len(idx), q))

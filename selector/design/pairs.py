@@ -23,7 +23,7 @@ from .groups import NO_BOUND, ZenerGroup, prune_for_group, series_necessary
 from .lookups import cheapest_at_least
 from .requirement import bus_demand, objective_key
 from .series import unequal_series_pairs
-from .setup import SearchSetup
+from .setup import X_SIGNATURE, SearchSetup
 
 
 def parallel_pairs(single: OptionTable, i: np.ndarray, j: np.ndarray, minimize: str) -> OptionTable:
@@ -37,6 +37,8 @@ def parallel_pairs(single: OptionTable, i: np.ndarray, j: np.ndarray, minimize: 
             attrs[k] = arr[i] + arr[j]
         elif k == "tolerance":
             attrs[k] = (v[i] * t[i] + v[j] * t[j]) / (v[i] + v[j])
+        elif k == "x_eol_loss":  # the worse part's loss, as rules.life.end_of_life_loss takes
+            attrs[k] = np.fmax(arr[i], arr[j])
         else:
             attrs[k] = np.fmin(arr[i], arr[j])
     rows = [single.rows[a] + single.rows[b] for a, b in zip(i.tolist(), j.tolist(), strict=True)]
@@ -172,7 +174,7 @@ def add_x_pairs(setup: SearchSetup, groups: list[ZenerGroup], budget: int, stats
     if len(ia) == 0:
         return
     pairs = parallel_pairs(xs, ia, ib, setup.req.minimize)
-    pairs = keep_best_per_signature(pairs, ("value", "tolerance", "dvdt_v_per_s"), setup.req.top)
+    pairs = keep_best_per_signature(pairs, X_SIGNATURE, setup.req.top)
     start = len(setup.xo)
     setup.xo = concat_options([setup.xo, pairs])
     new = np.arange(start, len(setup.xo))

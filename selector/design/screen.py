@@ -20,6 +20,7 @@ import numpy as np
 
 from ..policy import Policy, standby_bound_w
 from ..rules import X_CAP_IEC60384_14_KEY
+from ..rules.life import EOL_LOSS_KEY
 from .bounds import (
     SCREEN_SLACK,
     SURGE_SLACK,
@@ -57,7 +58,7 @@ def screen_x_and_series_rules(
             return True
         return (rid in SURGE_RULES) == (which == "surge")
 
-    for rid in ("x_cap.dvdt_switch_on", "x_cap.dvdt_surge"):
+    for rid in ("x_cap.dvdt_switch_on", "x_cap.k0_switch_on", "x_cap.dvdt_surge"):
         if wanted(rid):
             st, lim, _ = rule_by_id(rid).check(s, xns, pol)
             ok &= ~(st > lim)
@@ -76,6 +77,16 @@ def screen_x_and_series_rules(
     if which != "surge":
         st, lim, _ = rule_by_id("whole.min_current").check(s, None, pol)
         ok &= np.asarray(st <= lim)
+        loss = getattr(xns, "x_eol_loss", None)
+        if loss is not None and "cap_loss_in_analysis" in s:
+            # whole.end_of_life_current on the bound: the exact figure is the minimum DC
+            # current x (1 - loss) / (1 - loss in the analysis), with that factor exact per
+            # X option (its own loss, the worse part's for a pair) and at most 1, so the upper
+            # bound of the minimum current times it bounds the end-of-life current from above
+            st, lim, _ = rule_by_id("whole.end_of_life_current").check(
+                {**s, EOL_LOSS_KEY: loss}, None, pol
+            )
+            ok &= np.asarray(st <= lim)
     return ok
 
 
@@ -361,7 +372,11 @@ def cheapest_fuse_per_point(fo, ro, rg, b, s0, pol, fusible, x_exempt=False):
         fok &= np.asarray(st <= lim) | ~fusible
     if len(fo):
         fns = fo.ns()
-        i2t_cap = fns.i2t_a2s * pol.fuse_i2t_fraction
+        # the rule's own limit: melting I^2t derated for the switch-on count and the fuse type
+        _, i2t_cap, _ = rule_by_id("fuse.inrush_i2t").check(
+            {**s0, "inrush_i2t_a2s": np.zeros(len(fo))}, fns, pol
+        )
+        i2t_cap = np.asarray(i2t_cap, dtype=float)
         need_fault = fns.value * pol.fuse_fault_factor
         fault = s0["mains_min_v"] / np.maximum(b["series_resistance_ohm"], 1e-3)
         # fault current upper bound: R at its low tolerance -> series_resistance_ohm = r_min

@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, Final
 
 import numpy as np
 import pandas as pd
@@ -119,15 +119,29 @@ def rows_of_kind(df: pd.DataFrame, kinds: Sequence[str]) -> np.ndarray:
     return np.flatnonzero(df["kind"].isin(kinds).to_numpy())
 
 
-def x_part_can_last(row: Any, s0: dict[str, Any]) -> bool:
-    """False when the part's end-of-life loss by Peck's model (its humidity grade, the target
-    life, ambient, humidity and highest mains) is total, so ``whole.end_of_life_current``
-    fails whatever else is chosen (a necessary condition: nothing feasible is dropped)."""
+#: columns that tell two X options apart in the rules (``keep_best_per_signature``): the
+#: end-of-life loss too, so a less humidity-robust part never stands for a robust one
+X_SIGNATURE: Final[tuple[str, ...]] = (
+    "value",
+    "tolerance",
+    "dvdt_v_per_s",
+    "rated_voltage_v",
+    "x_eol_loss",
+)
+
+
+def x_part_end_of_life_loss(row: Any, s0: dict[str, Any]) -> float:
+    """The part's capacitance loss at the end of the target life, the figure
+    ``whole.end_of_life_current`` uses for it (``rules.life.end_of_life_loss``: the
+    ``--cap-loss`` override, else Peck's model from its humidity grade at the ambient, humidity
+    and highest mains). A total loss (>= 1) fails that rule whatever else is chosen, so such a
+    part is dropped (a necessary condition: nothing feasible is dropped); the others carry it
+    as the option attribute ``x_eol_loss`` for the screen (``screen_x_and_series_rules``)."""
     if "end_of_life_loss_override" in s0:
-        return float(s0["end_of_life_loss_override"]) < 1.0
+        return float(s0["end_of_life_loss_override"])
     part = R.rated_part_from_row(row, "x_capacitor")
     loss, _ = end_of_life_loss([part], s0)
-    return loss < 1.0
+    return float(loss)
 
 
 def prepare(df_all: pd.DataFrame, req: Requirement, policy: Policy) -> SearchSetup:
@@ -137,8 +151,10 @@ def prepare(df_all: pd.DataFrame, req: Requirement, policy: Policy) -> SearchSet
     s0 = context_scalars(req)
     # X capacitors: only parts of an X subclass that pass the role-intrinsic rules
     xi = rows_of_kind(df, ["x_capacitor"])
-    xi = xi[[x_part_can_last(df.iloc[int(i)], s0) for i in xi]] if len(xi) else xi
+    losses = np.array([x_part_end_of_life_loss(df.iloc[int(i)], s0) for i in xi], dtype=float)
+    xi = xi[losses < 1.0]
     xs = options_of_parts(df, xi, "x_capacitor", mz, [1], "single")
+    xs.attrs["x_eol_loss"] = losses[losses < 1.0]
     if len(xs):
         ns = xs.ns()
         okm = np.ones(len(xs), dtype=bool)
@@ -146,7 +162,7 @@ def prepare(df_all: pd.DataFrame, req: Requirement, policy: Policy) -> SearchSet
             st, lim, _ = rule_by_id(rid).check(s0, ns, policy)
             okm &= np.asarray(st <= lim)
         xs = xs.take(np.flatnonzero(okm))
-    xs = keep_best_per_signature(xs, ("value", "tolerance", "dvdt_v_per_s"), k)
+    xs = keep_best_per_signature(xs, X_SIGNATURE, k)
     xo = xs  # pairs join later, within the capacitance window and the cost budget
     # series resistance: one resistor, two equal, or two different ones in series (a fusible
     # one with a plain one, or two plain), up to the largest total that can still meet the load

@@ -46,6 +46,7 @@ from .transients import (
     Surge,
     discharge,
     inrush,
+    replug_residual_v,
     startup,
     surge,
 )
@@ -601,7 +602,13 @@ def analyse(
     cin = corner_circuit(circuit, k_in)
     # switch-on at the higher crest of the supply states (the distorted one when it peaks)
     hs_on = hs_given if mains.crest_factor > 1.0 else ()
-    ins = inrush(cin, mains.high_v, f_hi, record(k_in, hs_on, False), harmonics=hs_on)
+    # ... after a re-plug at the opposite crest: the X capacitor keeps the charge the discharge
+    # profile allows after the re-plug delay (an exempt one decays at C max, Rb max)
+    tau_slow = max(k.bleeder_ohm for k in grid) * c_max
+    c_nom = circuit.x_capacitance_f
+    res_v = replug_residual_v(cond.profile, crest_hi, c_nom, tau_slow, cond.replug_delay_s)
+    ins = inrush(cin, mains.high_v, f_hi, record(k_in, hs_on, False), harmonics=hs_on,
+                 residual_v=res_v, replug_delay_s=cond.replug_delay_s)  # fmt: skip
     # the surge rides on the fundamental (the surge model carries the mains as a sine)
     if cond.surge_v <= 0 or surge_model not in ("circuit", "loop"):
         if surge_model not in ("circuit", "loop"):

@@ -358,6 +358,11 @@ VOUT_MIN_FACTOR = 0.9
 
 #: default target life: 10 years of continuous operation, 87600 h [P]
 DEFAULT_LIFE_S = 10 * 8760 * 3600.0
+#: time between unplugging and plugging back in (or switching off and on again) for the
+#: re-plug at the opposite crest [s]: 0.2 s, a wall switch turned off and on, or a plug pulled
+#: and pushed back at once. An assumption of this project, no source [P]; the shorter it is, the
+#: more charge the X capacitor keeps (0 gives the full 2 Vpk step).
+REPLUG_DELAY_S = 0.2
 
 
 @dataclass(frozen=True)
@@ -378,6 +383,9 @@ class Conditions:
     humidity: float = 0.6
     #: plug-ins / power-ups over the life (default 30 000) [P]
     switch_ons: float = 30_000.0
+    #: re-plug delay [s] for the switch-on after a re-plug at the opposite crest (see
+    #: ``REPLUG_DELAY_S``; selector.engine.transients.replug_residual_v)
+    replug_delay_s: float = REPLUG_DELAY_S
     #: X capacitor loss at the end of the life, fraction (``--cap-loss``); None: from the
     #: part's humidity grade by Peck's model (selector.engine.life)
     end_of_life_loss: float | None = None
@@ -399,7 +407,14 @@ class Conditions:
         )
         _need(0 < self.life_s <= 100 * 8760 * 3600.0, f"life {self.life_s} s outside 0..100 y")
         _need(0 <= self.humidity <= 1, f"humidity {self.humidity} outside 0..1 (0..100 %)")
-        _need(0 <= self.switch_ons <= 1e8, f"switch-ons {self.switch_ons} outside 0..1e8")
+        _need(
+            0 <= self.replug_delay_s <= 60, f"re-plug delay {self.replug_delay_s} s outside 0..60 s"
+        )
+        # the pulse-count derating curves (selector.rules.fuse) end at 1e6 pulses
+        _need(
+            0 <= self.switch_ons <= 1e6,
+            f"switch-ons {self.switch_ons:g} outside 0..1e6 (the pulse-derating curves end there)",
+        )
 
     @property
     def life_h(self) -> float:

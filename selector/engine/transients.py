@@ -27,6 +27,7 @@ __all__ = [
     "discharge",
     "holdup",
     "inrush",
+    "replug_residual_v",
     "startup",
     "surge",
     "surge_wave",
@@ -54,6 +55,12 @@ class Inrush:
     rectifier_peak_current_a: float
     duration_s: float
     corner: dict
+    #: the pulse characteristic k0 = 2 * integral (dV/dt)^2 dt of the X capacitor [V^2/s]
+    x_cap_k0_v2_per_s: float = 0.0
+    #: the X capacitor's charge of the opposite polarity at the re-plug [V] (0: empty) and the
+    #: re-plug delay it was computed for [s] (:func:`replug_residual_v`)
+    replug_residual_v: float = 0.0
+    replug_delay_s: float | None = None
 
 
 @dataclass
@@ -140,6 +147,40 @@ class Startup:
     holdup: Holdup | None
 
 
+def replug_residual_v(
+    profile: str,
+    crest_v: float,
+    c_nominal_f: float,
+    tau_s: float,
+    delay_s: float,
+) -> float:
+    """The X capacitor's voltage ``delay_s`` after unplugging at the crest ``crest_v`` [V]: the
+    worst that the discharge profile allows, ``V0 (V_lim / V0)^(delay / t_allowed)`` (an RC
+    decay that just meets the profile's limit ``V_lim`` at its time ``t_allowed``; for the
+    time-constant rule of IEC 60950-1, ``V0 exp(-delay / 1 s)``); a capacitor the profile exempts
+    (<= 0.1 uF) decays through its bleeder, ``V0 exp(-delay / tau_s)`` (``tau_s`` = Rb C at the
+    slowest corner, inf without a bleeder: no decay). Never above ``crest_v``.
+
+    Any bleeder that passes the profile decays at least this fast, so the figure does not
+    depend on the bleeder chosen (RC discharge, textbook [S]; profiles in ``DISCHARGE_RULES``).
+    Example: iec60335 (34 V after 1 s [S]), crest 357.8 V, 0.2 s: 357.8 x (34 / 357.8)^0.2 =
+    223.4 V; re-plugged at the opposite crest the step is 357.8 + 223.4 = 581.2 V (x 1.62).
+    """
+    if profile not in DISCHARGE_RULES:
+        raise OutOfRangeError(f"unknown discharge profile {profile!r}")
+    if crest_v <= 0 or delay_s < 0:
+        raise OutOfRangeError(f"re-plug: crest {crest_v} V and delay {delay_s} s must be >= 0")
+    limit, allowed, _ = DISCHARGE_RULES[profile]
+    exempt = c_nominal_f <= _EXEMPT_C_F * (1 + 1e-9) and profile in ("iec60335", "iec60950")
+    if exempt:
+        return crest_v * math.exp(-delay_s / tau_s) if tau_s > 0 else 0.0
+    if limit is None:
+        return crest_v * math.exp(-delay_s / allowed)
+    if crest_v <= limit:
+        return crest_v
+    return crest_v * (limit / crest_v) ** (delay_s / allowed)
+
+
 def inrush(
     circuit: Circuit,
     mains_v: float,
@@ -147,17 +188,23 @@ def inrush(
     corner: dict,
     window_tau: float = 8.0,
     harmonics: tuple[Harmonic, ...] = (),
+    residual_v: float = 0.0,
+    replug_delay_s: float | None = None,
 ) -> Inrush:
-    """Switch-on at the crest (``u = +Vpk`` at t0), all capacitors empty; exact PWL simulation.
+    """Switch-on at the crest (``u = +Vpk`` at t0), the reservoir empty and the X capacitor
+    charged to ``residual_v`` of the opposite polarity (``v_c = -residual_v``: the re-plug at
+    the opposite crest, :func:`replug_residual_v`; 0: empty); exact PWL simulation.
 
     With ``harmonics`` (a distorted mains) the switch-on is at the instant of the distorted
     wave's largest ``|u|`` (:func:`~selector.engine.distortion.waveform_peak`), and the source
     keeps all its tones during the pulse.
 
     The pulse is integrated over ``window_tau`` time constants ``tau = (R + r_d) C C_r/(C + C_r)``
-    (capped at a quarter cycle): energy in R, I^2 t, peak current, X capacitor dV/dt (= i / C).
-    Check: for R C << 1/f the energy tends to ``0.5 C Vpk^2`` and ``I^2 t`` to ``Vpk^2 C / (2 R)``
-    (RC charging from a step, textbook [S]) - see tests/test_engine_transients.py. The diodes
+    (capped at a quarter cycle): energy in R, I^2 t, peak current, X capacitor dV/dt (= i / C)
+    and its pulse characteristic k0 = 2 * integral (i / C)^2 dt = 2 I^2t / C^2.
+    Check: for R C << 1/f the energy tends to ``0.5 C V^2``, ``I^2 t`` to ``V^2 C / (2 R)``
+    and k0 to ``V^2 / (R C)`` with the step ``V = Vpk + residual_v`` (RC charging from a step,
+    textbook [S]) - see tests/test_engine_transients.py. The diodes
     are the circuit's pulse diode (:meth:`Circuit.pulse_diode`, the high-current line).
     """
     circuit = circuit.for_pulses()
@@ -172,7 +219,12 @@ def inrush(
     window = min(window_tau * tau, system.period / 4.0)
     key = (0, 0, 0)
     _, _, _, tr = system.run(
-        key, (0.0, 0.0), t0, t0 + window, collect=True, quad_dt=min(system.period / 240, tau / 16)
+        key,
+        (-float(residual_v), 0.0),
+        t0,
+        t0 + window,
+        collect=True,
+        quad_dt=min(system.period / 240, tau / 16),
     )
     i = tr.out["i_line"]
     r = circuit.series_resistance_ohm
@@ -186,6 +238,9 @@ def inrush(
         rectifier_peak_current_a=float(np.max(tr.out["i_rect"])),
         duration_s=tau,
         corner=corner,
+        x_cap_k0_v2_per_s=2.0 * i2t / (c * c),
+        replug_residual_v=float(residual_v),
+        replug_delay_s=replug_delay_s,
     )
 
 

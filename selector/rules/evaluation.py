@@ -9,11 +9,13 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
-from typing import Any
+from typing import Any, Final
 
 from ..policy import COMMON_STANDBY_LIMIT_W, Policy
+from .fuse import fuse_pulse_fraction, pulse_curve_fraction
 from .life import EOL_LOSS_KEY, EOL_NOTE_KEY, end_of_life_loss
 from .parts import Finding, RatedPart, is_iec60384_14_class
+from .resistors import RESISTOR_PULSE_CURVE
 from .stresses import stresses_from_analysis
 from .table import RULES, X_CAP_IEC60384_14_KEY, Rule
 
@@ -145,6 +147,8 @@ def _finding(
         note = "exempt under the profile"
     if rule.id == "x_cap.safety_class" and part is not None:
         note = f"class {part.safety_class}" + ("" if ok else " is not an X subclass")
+    if rule.id in PULSE_COUNT_RULES and part is not None:
+        note = pulse_count_note(rule.id, float(stresses["switch_ons"]), part)
     if rule.id == "whole.end_of_life_current":
         note = f"loss {float(stresses[EOL_LOSS_KEY]):.1%} ({stresses.get(EOL_NOTE_KEY, '')})"
     waiver = rule.waiver(stresses) if (not ok and rule.waiver is not None) else None
@@ -162,6 +166,28 @@ def _finding(
         note=note,
         **common,
     )
+
+
+#: rules whose limit is derated for the pulse count (``switch_ons``)
+PULSE_COUNT_RULES: Final[frozenset[str]] = frozenset(
+    {"fuse.inrush_i2t", "series_r.switch_on_energy"}
+)
+
+
+def pulse_count_note(rule_id: str, switch_ons: float, part: RatedPart) -> str:
+    """The derating a pulse-count rule applied, for its finding.
+
+    Example: fuse.inrush_i2t, 30000 switch-ons, a fuse of unstated type -> '30000 switch-ons:
+    0.257 of the melting I^2t (type not stated: taken as fast-acting)'.
+    """
+    if rule_id == "fuse.inrush_i2t":
+        lag = part.fuse_time_lag
+        fraction = float(fuse_pulse_fraction(switch_ons, lag))
+        kinds = {1.0: "time-lag", 0.0: "fast-acting"}
+        kind = kinds.get(lag, "type not stated: taken as fast-acting")
+        return f"{switch_ons:.0f} switch-ons: {fraction:.3g} of the melting I^2t ({kind})"
+    fraction = float(pulse_curve_fraction(RESISTOR_PULSE_CURVE, switch_ons))
+    return f"{switch_ons:.0f} switch-ons: {fraction:.3g} of the single-pulse energy"
 
 
 def blocking(findings: Sequence[Finding]) -> list[Finding]:

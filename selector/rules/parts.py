@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import re
 from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any, Final
@@ -111,6 +112,33 @@ class RatedPart:
     @property
     def class_impulse_v(self) -> float | None:
         return x_class_impulse_v(self.safety_class)
+
+    @property
+    def fuse_time_lag(self) -> float:
+        """Fuse: 1.0 time-lag, 0.0 fast-acting, NaN not stated (:func:`fuse_time_lag_of_text`
+        on the description and code)."""
+        return fuse_time_lag_of_text(" ".join(t for t in (self.description, self.code) if t))
+
+
+_TIME_LAG_RE: Final = re.compile(
+    r"TIME[\s-]*LAG|SLOW[\s-]*BLOW|\bSLOW\b|\(T\)|TIME[\s-]*DELAY|\bT\d|\d\s*M?AT\b"
+)
+_FAST_RE: Final = re.compile(r"FAST[\s-]*ACTING|\bFAST\b|QUICK[\s-]*ACTING|\(F\)|\bF\d|\d\s*M?AF\b")
+
+
+def fuse_time_lag_of_text(text: str | None) -> float:
+    """1.0 when a fuse's text says time-lag (``time-lag``, ``slow-blow``, ``(T)``, ``T100mA``,
+    ``100mAT``), 0.0 when it says fast-acting (``fast``, ``quick-acting``, ``(F)``, ``F500mA``),
+    NaN when it says neither (speed letters T and F of IEC 60127 [M] from memory).
+
+    Example: '5 x 20 mm glass cartridge fuse, time-lag (T), 100 mA' -> 1.0; 'F500mA' -> 0.0.
+    """
+    up = (text or "").upper()
+    if _TIME_LAG_RE.search(up):
+        return 1.0
+    if _FAST_RE.search(up):
+        return 0.0
+    return math.nan
 
 
 #: the subclasses of IEC 60384-14 (X and Y safety capacitors) [S]

@@ -76,6 +76,7 @@ from .x_capacitor import (
     surge_level_vs_class_impulse,
     surge_total_vs_class_impulse,
     switch_on_dvdt_vs_rating,
+    switch_on_k0_vs_rating,
 )
 
 SOURCE_P: Final[str] = "[P] common practice, no source"
@@ -190,6 +191,14 @@ def burst_given(stresses: Mapping[str, Any], part: Any) -> bool:
 _PULSE_FACTOR_SOURCE: Final[str] = (
     SOURCE_P + "; pulse factor from IEC 60115-1 short-time overload [M]"
 )
+_FUSE_PULSE_SOURCE: Final[str] = (
+    "pulse-count derating: fast-acting 0.22 at 1e5 pulses, time-lag 0.3 [M] from memory of "
+    "fuse makers' pulse-cycle charts; other points an assumption (rules.fuse.FUSE_PULSE_CURVES)"
+)
+_RESISTOR_PULSE_SOURCE: Final[str] = (
+    "repetition derating an assumption of this project, no source "
+    "(rules.resistors.RESISTOR_PULSE_CURVE)"
+)
 _SURGE_SOURCE: Final[str] = "surge per IEC 61000-4-5, through the whole circuit"
 _RESISTOR_DERATING_SOURCE: Final[str] = (
     SOURCE_P + "; derating 70 C -> 155 C from generic datasheets [S]"
@@ -217,10 +226,19 @@ RULES: Final[tuple[Rule, ...]] = (
          "V", surge_level_vs_class_impulse,
          ratings=("safety_class",), stress_keys=("surge_level_v",)),
     Rule("x_cap.dvdt_switch_on", "x_capacitor",
-         "dV/dt at switch-on at the crest <= rated dV/dt",
-         SOURCE_P,
+         "dV/dt at switch-on at the crest (repeated at every switch-on) <= rated dV/dt, "
+         "taken as the rating for repeated pulses at the rated voltage, no count derating",
+         SOURCE_P + "; makers rate dV/dt for repeated pulses [M] from memory",
          "V/s", switch_on_dvdt_vs_rating,
          ratings=("dvdt_v_per_s",), stress_keys=("inrush_x_cap_dvdt_v_per_s",)),
+    Rule("x_cap.k0_switch_on", "x_capacitor",
+         "pulse characteristic of the switch-on pulse, k0 = 2 x integral (dV/dt)^2 dt <= "
+         "2 x rated DC voltage x rated dV/dt x policy fraction (at every switch-on)",
+         "k0 and its rating 2 U_R (dV/dt)_R from film-capacitor makers' application notes [M] "
+         "from memory, not checked; k0 = V^2 / (R C) of an RC step [S]",
+         "V2/s", switch_on_k0_vs_rating,
+         ratings=("dvdt_v_per_s", "rated_voltage_v"),
+         stress_keys=("inrush_x_cap_k0_v2_per_s",)),
     Rule("x_cap.dvdt_surge", "x_capacitor",
          "dV/dt during the mains surge <= rated dV/dt",
          SOURCE_P + "; surge per IEC 61000-4-5",
@@ -242,10 +260,12 @@ RULES: Final[tuple[Rule, ...]] = (
          ratings=("power_w",), stress_keys=("max_series_r_power_w", "ambient_c"),
          corner_key="max_series_r_power_w"),
     Rule("series_r.switch_on_energy", "series_resistor",
-         "switch-on pulse energy per element (0.5 C V^2) within the family's pulse capability",
-         SOURCE_P + "; energy 0.5 C V^2 of RC charging [S]",
+         "switch-on pulse energy per element (0.5 C V^2 of the step) <= single-pulse "
+         "capability x policy fraction x repetition derating for --switch-ons",
+         SOURCE_P + "; energy 0.5 C V^2 of RC charging [S]; " + _RESISTOR_PULSE_SOURCE,
          "J", switch_on_energy_vs_pulse_rating,
-         ratings=("pulse_energy_j",), stress_keys=("inrush_series_r_energy_j",)),
+         ratings=("pulse_energy_j",), stress_keys=("inrush_series_r_energy_j", "switch_ons"),
+         corner_key="inrush_series_r_energy_j"),
     Rule("series_r.surge_energy", "series_resistor",
          "surge pulse energy per element within the family's pulse capability",
          SOURCE_P + "; surge per IEC 61000-4-5",
@@ -374,10 +394,12 @@ RULES: Final[tuple[Rule, ...]] = (
          ratings=("temp_max_c",), stress_keys=("ambient_c",)),
     # --- fuse (fuse.py) ---------------------------------------------------------------------
     Rule("fuse.inrush_i2t", "fuse",
-         "the fuse does not open at switch-on: switch-on I^2t <= melting I^2t x policy fraction",
-         SOURCE_P + "; I^2t = Vpk^2 C / (2 R) of RC charging [S]",
+         "the fuse carries the switch-on pulse at every switch-on: switch-on I^2t <= melting "
+         "I^2t x min(policy fraction, pulse-count derating of its type for --switch-ons; an "
+         "unstated type counts as fast-acting)",
+         SOURCE_P + "; I^2t = Vpk^2 C / (2 R) of RC charging [S]; " + _FUSE_PULSE_SOURCE,
          "A2s", switch_on_i2t_vs_melting_i2t,
-         ratings=("i2t_a2s",), stress_keys=("inrush_i2t_a2s",),
+         ratings=("i2t_a2s",), stress_keys=("inrush_i2t_a2s", "switch_ons"),
          applies=not_fusible_resistor),
     Rule("fuse.surge_i2t", "fuse",
          "the fuse does not open on the surge: surge I^2t <= melting I^2t x policy fraction",
