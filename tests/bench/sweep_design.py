@@ -65,6 +65,12 @@ def run(quick: bool) -> list[dict]:
             conditions=Conditions(40.0, "iec60335", 1000.0),
             topology=top,
         )
+        try:  # a fresh CLI call keeps nothing from the request before (selector.engine.reuse)
+            from selector.engine import reuse
+
+            reuse.clear()
+        except ImportError:
+            pass
         t = time.perf_counter()
         row = {"load_a": load, "vout_v": vout, "mains_v": volts, "topology": top}
         try:
