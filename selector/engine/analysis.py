@@ -36,8 +36,9 @@ import numpy as np
 
 from ..errors import OutOfRangeError
 from . import closed_form as cf
+from . import reuse
 from .circuit import Circuit, Conditions, Mains, Tolerances
-from .steady_state import SteadyState, solve_steady_state
+from .steady_state import SteadyState
 from .transients import (
     Discharge,
     Holdup,
@@ -352,14 +353,12 @@ def min_dc_current(circuit: Circuit, mains: Mains, tolerances: Tolerances | None
     cc = corner_circuit(circuit, k)
     hs_given = tuple(mains.harmonics)
     states: tuple[tuple, ...] = (hs_given, ()) if hs_given else ((),)
-    solves = [(hs, solve_steady_state(cc, k.mains_v, k.freq_hz, harmonics=hs)) for hs in states]
+    solves = [(hs, reuse.steady_state(cc, k.mains_v, k.freq_hz, hs)) for hs in states]
     hs_min, s_min = min(solves, key=lambda t: t[1].dc_current_a)
     if s_min.zener_current_a > 1e-9 or circuit.load.is_zero:
         return float(s_min.dc_current_a)
     return float(
-        solve_steady_state(
-            cc, k.mains_v, k.freq_hz, harmonics=hs_min, load_a=0.0, load_g=0.0
-        ).dc_current_a
+        reuse.steady_state(cc, k.mains_v, k.freq_hz, hs_min, load_a=0.0, load_g=0.0).dc_current_a
     )
 
 
@@ -453,7 +452,7 @@ def analyse(
         if key not in cache:
             cc = corner_circuit(circuit, k)
             kw = {} if loaded else {"load_a": 0.0, "load_g": 0.0}
-            cache[key] = solve_steady_state(cc, k.mains_v, k.freq_hz, harmonics=hs, **kw)
+            cache[key] = reuse.steady_state(cc, k.mains_v, k.freq_hz, hs, **kw)
             done[0] += 1
             if progress is not None:
                 progress(min(done[0], total), total)

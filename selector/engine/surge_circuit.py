@@ -262,7 +262,13 @@ def worst_surge_many(jobs, level_v: float, phases_deg=SURGE_PHASES_DEG):
     """:func:`worst_surge` of each (circuit, grid) of ``jobs``, simulated in one batch per
     topology (the simulation is vectorised over its cases, so many small circuits cost far
     less together than one by one). Returns the (values, corner records) of each job, in
-    order."""
+    order.
+
+    Each case's runs are kept in :data:`.reuse.SURGE_CASES` and only cases not seen before are
+    simulated: a case (:func:`surge_case`) holds every number its runs depend on, so the runs
+    are the same whichever job asks (see :mod:`.reuse`)."""
+    from .reuse import SURGE_CASES
+
     out: list = [None] * len(jobs)
     by_topology: dict[str, list[int]] = {}
     for j, (circuit, _) in enumerate(jobs):
@@ -273,24 +279,48 @@ def worst_surge_many(jobs, level_v: float, phases_deg=SURGE_PHASES_DEG):
             circuit, grid = jobs[j]
             cases += [surge_case(circuit, k, phases_deg) for k in grid]
             owner += [(j, k) for k in grid]
-        run = simulate(cases, level_v)
-        job_of_run = np.array([owner[c][0] for c in run.case])
+        runs = [SURGE_CASES.get(c, level_v) for c in cases]
+        todo = list(dict.fromkeys(c for c, r in zip(cases, runs, strict=True) if r is None))
+        if todo:
+            fresh = _case_runs(simulate(todo, level_v), len(todo))
+            for c, r in zip(todo, fresh, strict=True):
+                SURGE_CASES.put(c, level_v, r)
+            new = dict(zip(todo, fresh, strict=True))
+            runs = [new[c] if r is None else r for c, r in zip(cases, runs, strict=True)]
         for j in members:
             circuit = jobs[j][0]
-            rows = np.flatnonzero(job_of_run == j)
+            mine = [n for n, (jj, _) in enumerate(owner) if jj == j]
+            table = np.concatenate([runs[n] for n in mine])
+            case_of_row = np.concatenate([np.full(len(runs[n]), n) for n in mine])
             values, where = {}, {}
             names = SURGE_STRESSES
             if circuit.varistor is not None:
                 names = SURGE_STRESSES + VARISTOR_STRESSES
             for name in names:
-                arr = getattr(run, name)[rows]
-                r = int(rows[int(np.argmax(arr))])
-                values[name] = float(getattr(run, name)[r])
+                arr = table[:, _RUN_FIELDS.index(name)]
+                r = int(np.argmax(arr))
+                values[name] = float(arr[r])
                 where[name] = {
-                    **owner[int(run.case[r])][1].record(circuit),
+                    **owner[int(case_of_row[r])][1].record(circuit),
                     "load_a": 0.0,
-                    "phase_deg": float(run.phase_deg[r]),
-                    "polarity": int(run.polarity[r]),
+                    "phase_deg": float(table[r, _RUN_FIELDS.index("phase_deg")]),
+                    "polarity": int(table[r, _RUN_FIELDS.index("polarity")]),
                 }
             out[j] = (values, where)
     return out
+
+
+#: the columns of a case's kept runs (:func:`_case_runs`)
+_RUN_FIELDS = ("phase_deg", "polarity") + SURGE_STRESSES + VARISTOR_STRESSES
+
+
+def _case_runs(run: SurgeRun, n_cases: int) -> list[np.ndarray]:
+    """The rows of ``run`` of each case 0..n_cases-1 as one (runs x :data:`_RUN_FIELDS`) array,
+    in the simulation's order (a missing varistor figure is NaN)."""
+    n = len(run.case)
+    cols = []
+    for name in _RUN_FIELDS:
+        v = getattr(run, name, None)
+        cols.append(np.full(n, np.nan) if v is None else np.asarray(v, float))
+    table = np.stack(cols, axis=1)
+    return [table[run.case == c] for c in range(n_cases)]
