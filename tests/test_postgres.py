@@ -244,7 +244,7 @@ def test_cli_import_with_db_url(pg_url):
     args = ["parts", "import", str(DEMO_XLSX), "--supplier", "shelf", "--db", pg_url]
     first = runner.invoke(app, args, catch_exceptions=False)
     assert first.exit_code == 0, first.output
-    assert first.stdout.splitlines()[-1].startswith("38 rows: 38 new, 0 updated, 0 unchanged")
+    assert first.stdout.splitlines()[-1].startswith("38 rows: 38 new, 0 changed, 0 unchanged")
     second = runner.invoke(app, [*args, "--json"], catch_exceptions=False)
     doc = json.loads(second.stdout)
     assert (doc["inserted"], doc["updated"], doc["unchanged"]) == (0, 0, DEMO_ROWS)
