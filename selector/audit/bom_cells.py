@@ -10,6 +10,7 @@ from __future__ import annotations
 import codecs
 import csv
 import io
+import math
 from pathlib import Path
 from typing import Any
 
@@ -126,7 +127,7 @@ def _cell_text(value: object) -> str:
     if isinstance(value, bool):
         return str(value)
     if isinstance(value, float):
-        if value == int(value) and abs(value) < 1e15:
+        if math.isfinite(value) and abs(value) < 1e15 and value == int(value):
             return str(int(value))
         return f"{value:.12g}"
     return str(value).strip()

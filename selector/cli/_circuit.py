@@ -26,7 +26,7 @@ from ..engine.circuit import (
     TOPOLOGIES,
     Harmonic,
 )
-from ..errors import BadValueError, OutOfRangeError
+from ..errors import BadValueError, DropperError, OutOfRangeError
 from ..policy import PRODUCT_CLASSES, Policy, product_class_limit
 from ..ranges import check_range
 from ..units import (
@@ -345,7 +345,7 @@ def parse_harmonics(text: str | None) -> tuple[tuple[Harmonic, ...], str | None]
             order_f = float(order_text.strip())
         except ValueError:
             raise bad(f"order {order_text.strip()!r} is not a number") from None
-        if order_f != int(order_f):
+        if not math.isfinite(order_f) or order_f != int(order_f):
             raise bad(f"order {order_f:g} is not a whole number")
         try:
             pct = parse_value(pct_text.strip().rstrip("%").strip(), None)
@@ -368,13 +368,28 @@ def mains_from_options(
 ) -> Mains:
     """Mains from the option texts (``harmonics``: see :func:`parse_harmonics`)."""
     hs, source = parse_harmonics(harmonics)
-    return Mains(
-        nominal_v=option_value(mains, "V", "--mains"),
-        tolerance=option_percent(mains_tol, "--mains-tol"),
-        frequencies_hz=parse_frequencies(freq),
-        harmonics=hs,
-        harmonics_source=source,
-    )
+    nominal_v = option_value(mains, "V", "--mains")
+    tolerance = option_percent(mains_tol, "--mains-tol")
+    frequencies_hz = parse_frequencies(freq)
+    try:
+        return Mains(
+            nominal_v=nominal_v,
+            tolerance=tolerance,
+            frequencies_hz=frequencies_hz,
+            harmonics=hs,
+            harmonics_source=source,
+        )
+    except DropperError as exc:
+        # the model's own range check (20..440 V, tolerance below 50 %): name the option
+        text = str(exc)
+        option = (
+            "--mains-tol"
+            if "tolerance" in text
+            else "--freq"
+            if "frequenc" in text
+            else ("--mains")
+        )
+        raise BadValueError(f"{option}: {text}") from None
 
 
 def describe_mains(record: dict) -> str:

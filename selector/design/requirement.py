@@ -60,9 +60,9 @@ class Requirement:
 
     def __post_init__(self) -> None:
         if not self.load_a > 0:
-            raise BadValueError(f"load current must be > 0 A, got {self.load_a}")
+            raise BadValueError(f"--load: the load current must be > 0 A, got {self.load_a}")
         if not self.vout_v > 0:
-            raise BadValueError(f"output voltage must be > 0 V, got {self.vout_v}")
+            raise BadValueError(f"--vout: the output voltage must be > 0 V, got {self.vout_v}")
         if self.topology not in ("bridge", "half-wave", "any"):
             raise BadValueError(
                 f"unknown topology '{self.topology}'; valid: bridge, half-wave, any"
@@ -76,7 +76,7 @@ class Requirement:
         if self.smd_only and self.tht_only:
             raise BadValueError("--smd-only and --tht-only exclude each other")
         if self.burst_current_a > 0 and not (0 < self.burst_duration_s < self.burst_period_s):
-            raise BadValueError("a burst needs 0 < duration < period (e.g. 30m/5ms/1s)")
+            raise BadValueError("--burst: a burst needs 0 < duration < period (e.g. 30m/5ms/1s)")
 
 
 @dataclass
