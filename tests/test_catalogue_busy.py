@@ -281,6 +281,10 @@ def test_a_read_only_url_serves_queries(catalogue_copy_url, tmp_path, form):
     )  # fmt: skip
     assert audit.returncode == 0, audit.stderr
     assert "mains potential" in audit.stdout  # the cautions, as on any catalogue
+    if form == 0:  # one design is enough to show the solver reads a read-only file
+        design = _cli("design", "--load", "12m", "--vout", "5.1", "--mains", "230", "--db", url)
+        assert design.returncode == 0, design.stderr
+        assert "mains potential" in design.stdout
     dry = _cli("parts", "import", str(_stock_list(tmp_path / "s.csv")), "--dry-run", "--db", url)
     assert dry.returncode == 0, dry.stderr
     assert "dry run: nothing written" in dry.stdout
