@@ -108,7 +108,13 @@ def design(
         ),
     ] = False,
     build_qty: Annotated[
-        int, typer.Option("--build-qty", help="Units to build (for --in-stock).", min=1)
+        int,
+        typer.Option(
+            "--build-qty",
+            help="Units to build: imported parts are priced at their price break for this many "
+            "(a minimum order above it is paid in full); --in-stock needs this many on hand.",
+            min=1,
+        ),
     ] = 1000,
     bom: Annotated[
         Path | None, typer.Option("--bom", help="Write the best set as a BOM CSV here.")
@@ -135,6 +141,7 @@ def design(
     """
     from .. import design as D
     from ..catalogue import catalogue_frame, resolve_url
+    from ..catalogue.pricing import price_at_build
     from ..engine.distortion import mains_record
     from ..policy import load_policy
 
@@ -179,6 +186,7 @@ def design(
     frame = catalogue_frame(
         resolve_url(db), stock_only=stock_only, min_stock=build_qty if in_stock else None
     )
+    frame = price_at_build(frame, resolve_url(db), build_qty)
     warn_skipped_parts(frame)
     # a progress bar (stderr) for searches over large catalogues
     bar = None if json or len(frame) < 1000 else _Bar("searching part sets")
