@@ -115,6 +115,8 @@ class ImportResult:
     written: bool = False
     dry_run: bool = False
     families: dict[str, int] = field(default_factory=dict)
+    #: the accepted rows themselves (only with ``keep_rows``; never in the JSON document)
+    accepted_rows: list[StockRow] = field(default_factory=list)
     #: parts column -> source (column, description, family, none) -> accepted rows
     provenance: dict[str, dict[str, int]] = field(default_factory=dict)
 
@@ -221,6 +223,7 @@ def import_stock(
     progress: Progress | None = None,
     merge: bool = False,
     rates: Mapping[str, float] | None = None,
+    keep_rows: bool = False,
 ) -> ImportResult:
     """Import a stock list into the catalogue behind ``engine`` (see the module doc).
 
@@ -229,7 +232,8 @@ def import_stock(
     demo prices are per piece at 1000); ``column_map``: header -> field overrides;
     ``merge``: keep the supplier's rows the file does not hold (default: withdraw them);
     ``rates``: currency code -> catalogue-currency units per unit of it; a row priced in a
-    currency other than the catalogue's (EUR) without a rate, or in two currencies, is refused.
+    currency other than the catalogue's (EUR) without a rate, or in two currencies, is refused;
+    ``keep_rows``: keep the accepted rows in ``result.accepted_rows`` (for a preview).
     Returns an :class:`ImportResult`; when rows failed and ``partial`` is false, nothing is
     written and ``result.problems`` lists every failure (file, row, column).
     Raises :class:`BadRowError` when the file itself cannot be used (no header, no supplier
@@ -314,6 +318,8 @@ def import_stock(
                 result.problems.append(RowProblem(exc.file, exc.row, exc.column, exc.problem))
             if progress is not None and (done % 200 == 0 or done == len(body)):
                 progress(done, total)
+    if keep_rows:
+        result.accepted_rows = list(good)
     if result.problems and not partial:
         result.families = {}
         result.provenance = {}
