@@ -94,7 +94,7 @@ def test_bom_file(catalogue_url, tmp_path):
     rows = list(csv.DictReader(bom.open(encoding="utf-8")))
     assert list(rows[0]) == [
         "Reference", "Value", "Qty", "Description", "Footprint", "Role",
-        "Catalogue code", "Supplier", "Ratings",
+        "Catalogue code", "Supplier", "Ratings", "Price note",
     ]  # fmt: skip
     assert {row["Role"] for row in rows} >= ROLES
     x = next(row for row in rows if row["Role"] == "x_capacitor")

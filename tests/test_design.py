@@ -279,7 +279,7 @@ def test_bom_written_atomically_with_formula_cells_escaped(tmp_path):
     rows = list(csv.DictReader(out.open(encoding="utf-8")))
     assert list(rows[0]) == [
         "Reference", "Value", "Qty", "Description", "Footprint", "Role",
-        "Catalogue code", "Supplier", "Ratings",
+        "Catalogue code", "Supplier", "Ratings", "Price note",
     ]  # fmt: skip
     assert rows[0]["Description"] == "'=HYPERLINK(evil)"
     assert sum(int(r["Qty"]) for r in rows) == d.part_count

@@ -38,6 +38,7 @@ written (total = 2 x rows).
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -114,6 +115,8 @@ class ImportResult:
     written: bool = False
     dry_run: bool = False
     families: dict[str, int] = field(default_factory=dict)
+    #: the accepted rows themselves (only with ``keep_rows``; never in the JSON document)
+    accepted_rows: list[StockRow] = field(default_factory=list)
     #: parts column -> source (column, description, family, none) -> accepted rows
     provenance: dict[str, dict[str, int]] = field(default_factory=dict)
 
@@ -219,13 +222,18 @@ def import_stock(
     sheet: str | None = None,
     progress: Progress | None = None,
     merge: bool = False,
+    rates: Mapping[str, float] | None = None,
+    keep_rows: bool = False,
 ) -> ImportResult:
     """Import a stock list into the catalogue behind ``engine`` (see the module doc).
 
     ``supplier``: the name the rows are filed under (default: the file's stem); ``qty``: the
     order quantity whose price-break price becomes the part's ``unit_price`` (the built-in
     demo prices are per piece at 1000); ``column_map``: header -> field overrides;
-    ``merge``: keep the supplier's rows the file does not hold (default: withdraw them).
+    ``merge``: keep the supplier's rows the file does not hold (default: withdraw them);
+    ``rates``: currency code -> catalogue-currency units per unit of it; a row priced in a
+    currency other than the catalogue's (EUR) without a rate, or in two currencies, is refused;
+    ``keep_rows``: keep the accepted rows in ``result.accepted_rows`` (for a preview).
     Returns an :class:`ImportResult`; when rows failed and ``partial`` is false, nothing is
     written and ``result.problems`` lists every failure (file, row, column).
     Raises :class:`BadRowError` when the file itself cannot be used (no header, no supplier
@@ -235,6 +243,9 @@ def import_stock(
     name = _stored_supplier(engine, _supplier_name(file, supplier))
     if qty < 1:
         raise BadValueError(f"the order quantity must be >= 1, got {qty}")
+    for code, rate in (rates or {}).items():
+        if not (isinstance(rate, (int, float)) and math.isfinite(rate) and rate > 0):
+            raise BadValueError(f"--rate {code}: the rate must be a number > 0, got {rate!r}")
     rows = read_cells(file, sheet)
     if not rows:
         raise BadRowError(str(file), None, None, "the file is empty")
@@ -283,7 +294,7 @@ def import_stock(
             try:
                 row = validate_row(
                     str(file), number, cells, columns, break_columns, lookup, name, qty, currency,
-                    headers,
+                    headers, rates,
                 )  # fmt: skip
                 first = seen_codes.get(row.values["code"])
                 if first is not None:
@@ -307,6 +318,8 @@ def import_stock(
                 result.problems.append(RowProblem(exc.file, exc.row, exc.column, exc.problem))
             if progress is not None and (done % 200 == 0 or done == len(body)):
                 progress(done, total)
+    if keep_rows:
+        result.accepted_rows = list(good)
     if result.problems and not partial:
         result.families = {}
         result.provenance = {}

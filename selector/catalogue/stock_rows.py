@@ -36,6 +36,14 @@ from .stock_described import (
     read_description,
 )
 from .stock_families import AmbiguousFamilyError, FamilyInfo, recognise_family
+from .stock_prices import (
+    CATALOGUE_CURRENCY,
+    number,
+    parse_breaks,
+    price_at,
+    row_currency,
+    row_min_order,
+)
 from .stock_reading import cell_text, normalise_text
 
 #: columns copied from the template part (never the identity, price or stock columns)
@@ -110,47 +118,6 @@ def stock_code(supplier: str, supplier_code: str) -> str:
         return code
     digest = hashlib.sha1(code.encode("utf-8")).hexdigest()[:12]
     return f"{code[:67]}~{digest}"
-
-
-def _number(cell: Any, what: str) -> float:
-    """A cell as a number >= 0 (currency signs dropped, one decimal comma allowed)."""
-    if isinstance(cell, (int, float)) and not isinstance(cell, bool):
-        value = float(cell)
-    else:
-        text = cell_text(cell).replace("€", "").replace("$", "").replace("£", "").strip()
-        if text.count(",") == 1 and "." not in text:
-            text = text.replace(",", ".")  # decimal comma
-        try:
-            value = float(text)
-        except ValueError:
-            raise BadValueError(f"cannot read {cell_text(cell)!r} as {what}") from None
-    if not math.isfinite(value) or value < 0:
-        raise BadValueError(f"{what} must be a number >= 0, got {cell_text(cell)!r}")
-    return value
-
-
-def _parse_breaks(cell: Any) -> list[tuple[int, float]]:
-    """``"1:0.12; 10:0.10; 100:0.08"`` (also ``1=0.12``, ``1+ 0.12``) -> [(1, 0.12), ...]."""
-    breaks = []
-    for chunk in re.split(r"[;|]", cell_text(cell)):
-        chunk = chunk.strip()
-        if not chunk:
-            continue
-        found = re.match(r"^(\d{1,10})\s*\+?\s*[:=@ ]\s*(.+)$", chunk)
-        if not found:
-            raise BadValueError(
-                f"cannot read price break {chunk!r}; write them like '1:0.12; 10:0.10'"
-            )
-        breaks.append((int(found.group(1)), _number(found.group(2), "a price")))
-    return breaks
-
-
-def _price_at(breaks: Sequence[tuple[int, float]], qty: int) -> float:
-    """Unit price when buying ``qty`` pieces: the break with the largest min_qty <= qty (or
-    the smallest break when qty is below all)."""
-    ordered = sorted(breaks)
-    applicable = [price for min_qty, price in ordered if min_qty <= qty]
-    return applicable[-1] if applicable else ordered[0][1]
 
 
 @dataclass
@@ -341,7 +308,7 @@ def _row_stock(row: _RowCells) -> int | None:
     if not row.text("stock"):
         return None
     try:
-        stock = _number(row.cell("stock"), "a stock count")
+        stock = number(row.cell("stock"), "a stock count")
     except BadValueError as exc:
         raise row.fail("stock", str(exc)) from None
     try:
@@ -360,17 +327,17 @@ def _row_price_breaks(
         cell = row.cells[index] if index < len(row.cells) else ""
         if cell_text(cell):
             try:
-                breaks.append((min_qty, _number(cell, "a price")))
+                breaks.append((min_qty, number(cell, "a price")))
             except BadValueError as exc:
                 raise BadRowError(row.file, row.number, header, str(exc)) from None
     if row.text("price_breaks"):
         try:
-            breaks.extend(_parse_breaks(row.cell("price_breaks")))
+            breaks.extend(parse_breaks(row.cell("price_breaks")))
         except BadValueError as exc:
             raise row.fail("price_breaks", str(exc)) from None
     if row.text("unit_price"):
         try:
-            single = _number(row.cell("unit_price"), "a price")
+            single = number(row.cell("unit_price"), "a price")
         except BadValueError as exc:
             raise row.fail("unit_price", str(exc)) from None
         if not any(min_qty == 1 for min_qty, _ in breaks):
@@ -403,6 +370,7 @@ def validate_row(
     qty: int,
     currency: str,
     headers: Sequence[str],
+    rates: Mapping[str, float] | None = None,
 ) -> StockRow:
     """One row of the file (``number`` is the file's own) as a :class:`StockRow`.
 
@@ -411,6 +379,7 @@ def validate_row(
     unit price. Raises :class:`BadRowError` on the first problem.
     """
     row = _RowCells(file, number, cells, columns, headers)
+    rates = {code.upper(): rate for code, rate in (rates or {}).items()}
     code_text = row.text("supplier_code")
     if not code_text:
         raise row.fail("supplier_code", "no supplier part code")
@@ -497,7 +466,7 @@ def validate_row(
             )
     if row.text("temp_max"):
         try:
-            values["temp_max_c"] = _number(
+            values["temp_max_c"] = number(
                 re.sub(r"(?i)\s*°?\s*c$", "", row.text("temp_max")), "a temperature"
             )
         except BadValueError as exc:
@@ -510,10 +479,20 @@ def validate_row(
             raise row.fail("ripple", str(exc)) from None
         sources["ripple_a"] = "column"
     values["stock"] = _row_stock(row)
+    values["min_order_qty"] = row_min_order(row)
     breaks = _row_price_breaks(row, break_columns)
-    values["unit_price"] = _price_at(breaks, qty)
-    shown_currency = row.text("currency") or currency
-    values["price_note"] = f"{supplier} stock list, {shown_currency} per piece at {qty} pcs"
+    priced_in, rate = row_currency(row, break_columns, currency, rates)
+    if rate != 1.0:
+        breaks = [(min_qty, float(f"{price * rate:.12g}")) for min_qty, price in breaks]
+    values["unit_price"] = price_at(breaks, qty)
+    converted = (
+        f" (converted from {priced_in} at {rate:g} {CATALOGUE_CURRENCY}/{priced_in})"
+        if priced_in != CATALOGUE_CURRENCY
+        else ""
+    )
+    values["price_note"] = (
+        f"{supplier} stock list, {CATALOGUE_CURRENCY} per piece at {qty} pcs{converted}"
+    )[:120]
     for column, problem in out_of_range_columns(values):
         raise row.fail(_FIELD_OF_COLUMN.get(column), problem)
     for min_qty, price in breaks:

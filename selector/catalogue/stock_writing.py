@@ -31,6 +31,7 @@ COMPARED: Final[tuple[str, ...]] = (
     "price_note",
     "stock",
     "withdrawn",
+    "min_order_qty",
     *TEMPLATE_COLUMNS,
 )
 

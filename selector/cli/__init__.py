@@ -13,7 +13,16 @@ from ._app import app
 __all__ = ["app", "main"]
 
 # command modules, in the order their commands appear in --help
-_COMMAND_MODULES = ("snap", "parts", "parts_import", "check", "design", "audit", "yield_cmd")
+_COMMAND_MODULES = (
+    "snap",
+    "parts",
+    "parts_import",
+    "parts_ratings",
+    "check",
+    "design",
+    "audit",
+    "yield_cmd",
+)
 for _name in _COMMAND_MODULES:
     import_module(f"{__name__}.{_name}")
 

@@ -116,7 +116,13 @@ def design(
         ),
     ] = False,
     build_qty: Annotated[
-        int, typer.Option("--build-qty", help="Units to build (for --in-stock).", min=1)
+        int,
+        typer.Option(
+            "--build-qty",
+            help="Units to build: imported parts are priced at their price break for this many "
+            "(a minimum order above it is paid in full); --in-stock needs this many on hand.",
+            min=1,
+        ),
     ] = 1000,
     bom: Annotated[
         Path | None, typer.Option("--bom", help="Write the best set as a BOM CSV here.")
@@ -144,6 +150,7 @@ def design(
     """
     from .. import design as D
     from ..catalogue import catalogue_frame
+    from ..catalogue.pricing import price_at_build
     from ..engine.distortion import mains_record
     from ..outputs import Outputs, check_outputs
     from ..policy import load_policy
@@ -188,9 +195,9 @@ def design(
         limit_s = option_value(time_limit, "s", "--time-limit")
         if not limit_s > 0:
             raise BadValueError(f"--time-limit must be > 0 s, got {time_limit!r}")
-    frame = catalogue_frame(
-        catalogue_url(db, create), stock_only=stock_only, min_stock=build_qty if in_stock else None
-    )
+    url = catalogue_url(db, create)
+    frame = catalogue_frame(url, stock_only=stock_only, min_stock=build_qty if in_stock else None)
+    frame = price_at_build(frame, url, build_qty)
     warn_skipped_parts(frame)
     # a progress bar (stderr) for searches over large catalogues
     bar = None if json or len(frame) < 1000 else _Bar("searching part sets")

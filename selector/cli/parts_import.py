@@ -6,6 +6,7 @@ sub-command group of :mod:`selector.cli.parts`.
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 from typing import Annotated
 
@@ -26,6 +27,23 @@ def _parse_maps(items: list[str] | None) -> dict[str, str]:
         if not sep or not header.strip() or not field.strip():
             raise BadValueError(f"--map {item!r}: write it as COLUMN=FIELD, e.g. 'Part No=sku'")
         out[header.strip()] = field.strip()
+    return out
+
+
+def _parse_rates(items: list[str] | None) -> dict[str, float]:
+    """``--rate USD=0.92`` -> {"USD": 0.92} (a plain number, read by the units module)."""
+    from ..units import parse_value
+
+    out: dict[str, float] = {}
+    for item in items or []:
+        code, sep, figure = item.partition("=")
+        code = code.strip().upper()
+        if not sep or not re.fullmatch(r"[A-Z]{3}", code):
+            raise BadValueError(f"--rate {item!r}: write it as CUR=RATE, e.g. USD=0.92")
+        rate = parse_value(figure.strip())
+        if not rate > 0:
+            raise BadValueError(f"--rate {item!r}: the rate must be > 0")
+        out[code] = rate
     return out
 
 
@@ -98,6 +116,14 @@ def import_(
         int, typer.Option(help="Order quantity whose price break becomes the unit price.")
     ] = 1000,
     currency: Annotated[str, typer.Option(help="Currency when the file has no column.")] = "EUR",
+    rate: Annotated[
+        list[str] | None,
+        typer.Option(
+            "--rate",
+            help="CUR=RATE: convert prices in CUR at RATE EUR per CUR (the catalogue compares "
+            "prices in EUR; other currencies are refused without a rate). Repeatable.",
+        ),
+    ] = None,
     sheet: Annotated[str | None, typer.Option(help="XLSX sheet (default: the first).")] = None,
     merge: Annotated[
         bool,
@@ -140,6 +166,7 @@ def import_(
             sheet=sheet,
             progress=bar,
             merge=merge,
+            rates=_parse_rates(rate),
         )
     finally:
         if bar is not None:

@@ -55,12 +55,12 @@ def design_part(setup, role, rows, arrangement) -> DesignPart:
         package=row.get("package"),
         price_note=row.get("price_note"),
         ratings=ratings,
-        supplier=_imported_supplier(row),
-        rule_ratings=_row_ratings(row),
+        supplier=imported_supplier(row),
+        rule_ratings=row_rule_ratings(row),
     )
 
 
-def _row_ratings(row: Any) -> dict[str, Any]:
+def row_rule_ratings(row: Any) -> dict[str, Any]:
     """The catalogue row's figures that the rules and the engine read (the RatedPart the
     verification built comes from the same row: ``rules.rated_part_from_row``)."""
     from ..audit.ratings import STATED_FIELDS
@@ -74,7 +74,7 @@ def _row_ratings(row: Any) -> dict[str, Any]:
     return out
 
 
-def _imported_supplier(row: Any) -> str | None:
+def imported_supplier(row: Any) -> str | None:
     """The supplier of a part from an imported list (built-in rows have none)."""
     source = str(row.get("source", "") or "")
     supplier = row.get("supplier")
@@ -236,6 +236,7 @@ BOM_COLUMNS: Final[tuple[str, ...]] = (
     "Catalogue code",
     "Supplier",
     "Ratings",
+    "Price note",
 )
 
 
@@ -302,6 +303,7 @@ def bom_rows(d: Design) -> list[dict[str, str]]:
                 "Catalogue code": p.code,
                 "Supplier": p.supplier or "",
                 "Ratings": rule_ratings_text(p.rule_ratings),
+                "Price note": p.price_note or "",
             }
         )
     return rows

@@ -54,6 +54,8 @@ def _swap_candidates(frame, part, rnd: random.Random, k: int):
 
 
 def _as_part(row, like):
+    from selector.design.result import imported_supplier, row_rule_ratings
+
     price = float(row["unit_price"])
     return dataclasses.replace(
         like,
@@ -66,6 +68,10 @@ def _as_part(row, like):
         line_price=price * like.qty,
         package=row.get("package"),
         ratings={},
+        # the swapped-in row's own ratings go to the BOM's Ratings column, not the old part's
+        rule_ratings=row_rule_ratings(row),
+        supplier=imported_supplier(row),
+        price_note=row.get("price_note"),
     )
 
 
