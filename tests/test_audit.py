@@ -121,8 +121,11 @@ def test_chip_series_resistor_cannot_take_the_switch_on_pulse(catalogue):
     r = run("audit_vent_fault_chip_series.csv", catalogue)
     assert ("series_r.switch_on_energy", "R1, R2") in fails(r)
     f = finding(r, "series_r.switch_on_energy")
-    # 0.5 C V^2 with C at +10 % and the crest of 253 V, shared by two equal resistors [S]
-    e = 0.5 * 220e-9 * 1.1 * (253 * math.sqrt(2)) ** 2 / 2
+    # 0.5 C V^2 with C at +10 %, shared by two equal resistors [S]; the step V is the crest of
+    # 253 V plus the residual after a re-plug at the opposite crest 0.2 s later that IEC 60335-1
+    # 22.5 allows (34 V after 1 s [S], RC decay: Vpk (34 / Vpk)^0.2 = 223.5 V)
+    vpk = 253 * math.sqrt(2)
+    e = 0.5 * 220e-9 * 1.1 * (vpk + vpk * (34 / vpk) ** 0.2) ** 2 / 2
     assert f.stress == pytest.approx(e, rel=0.05)
     assert "energy 0.5 C V^2" in f.source
 
