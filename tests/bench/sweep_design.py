@@ -110,6 +110,9 @@ def summarise(rows: list[dict], label: str) -> float:
         named = sum(v for k, v in by_stage.items() if k != "total")
         if by_stage:
             stages["search"] = stages.get("search", 0.0) + max(r["seconds"] - named, 0.0)
+        else:  # no design: the search and the explanation's re-runs, not split by stage
+            key = "no-design requests"
+            stages[key] = stages.get(key, 0.0) + r["seconds"]
     if stages:
         # each request as a CLI call pays the start-up once
         whole = head["start_s"] * n + total
