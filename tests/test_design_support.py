@@ -340,9 +340,6 @@ def standin_analyse(circuit, mains, tol, cond):
         max_reservoir_ripple_current_a=0.5 * i_hi,
         # stand-in ripple: the load fed by the reservoir for a quarter cycle (C dV = I dt)
         max_output_ripple_v=demand / (4 * min(f_set) * circuit.reservoir_f),
-        # stand-in trough: the lowest Zener voltage less that ripple, or the bus held up only by
-        # the current when the load is not met (whole.output_window_min reads it)
-        min_output_voltage_v=z_set[0] - demand / (4 * min(f_set) * circuit.reservoir_f),
         no_load_real_power_w=pzmax[1] + prmax[2] + mains.nominal_v**2 / rb,
         load_met=imin[0] >= demand,
         load_margin_a=imin[0] - demand,
