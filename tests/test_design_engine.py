@@ -32,8 +32,6 @@ SURGE_AND_WINDOW_RULES = {
     "rectifier.surge_i2t",
     "zener.surge_power",
     "whole.output_window_max",
-    "whole.output_window_min",
-    "whole.bus_surge_peak",
 }
 
 

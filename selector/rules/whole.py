@@ -78,8 +78,9 @@ def bus_surge_peak_vs_vout_max(
 
     Example: 14.4 V against 6.63 V (5.1 V bus): fails; 6.39 V passes.
 
-    Registered as ``whole.bus_surge_peak``. The design screen has no bound for it and checks
-    it in verification only (DEVELOPERS.md, "The design solver": why).
+    Not registered in ``RULES`` yet: the design screen has no bound for it, so at 1 kV every
+    low-resistance candidate fails it in the exact check and the solver hits its verification
+    cap before it reaches the series resistance (some hundreds of ohm) it needs.
     """
     return stresses["surge_bus_peak_v"], vout_max_of(stresses)
 
@@ -104,9 +105,8 @@ def vout_min_vs_lowest_output(
 
     Example: 0.9 x 5.1 V = 4.59 V against a trough of 4.62 V: passes; 4.5 V fails.
 
-    Registered as ``whole.output_window_min``. With the default Zener tolerance (5 %) and the
-    output ripple ``reservoir.output_ripple`` allows (10 % of Vz peak to peak) the default
-    window leaves little, so it often decides the reservoir; the design screen checks it in
-    verification only (DEVELOPERS.md, "The design solver": why).
+    Not registered in ``RULES`` yet: with the default Zener tolerance (5 %) and the output ripple
+    the rules allow (10 % of Vz peak to peak) the default window leaves almost nothing, and the
+    design screen has no bound for it (the solver hits its verification cap).
     """
     return vout_min_of(stresses), stresses["min_output_voltage_v"]
