@@ -193,3 +193,41 @@ def test_startup_never_when_the_weakest_corner_cannot_carry_the_load() -> None:
         circuit.with_values(load=Load(current_a=10e-3)), mains, Tolerances(), Conditions()
     )
     assert light.worst_case.load_met and math.isfinite(light.startup.time_s)
+
+
+def test_x_cap_dvdt_and_k0_are_taken_at_the_lowest_capacitance() -> None:
+    # RC step of height V [S] (textbook): i(0) = V / R whatever C, so dV/dt = i / C and
+    # k0 ~ V^2 / (R C) are largest at the LOWEST capacitance of the corners (here 330 nF less
+    # the 10 % tolerance and the end-of-life loss), not at the highest one, where the energy
+    # and I^2t peak.
+    from selector.engine import Conditions, Mains, Tolerances, analyse
+    from selector.engine.analysis import corner_circuit, corners
+
+    base = Circuit(
+        topology="bridge",
+        x_capacitors_f=(330e-9,),
+        series_resistance_ohm=100.0,
+        bleeder_resistance_ohm=1e6,
+        zener_voltage_v=12.0,
+        reservoir_f=220e-6,
+        load=Load(current_a=5e-3),
+    )
+    mains = Mains(230.0, 0.10, (50.0, 60.0))
+    an = analyse(base, mains, Tolerances(), Conditions())
+    grid = corners(base, mains, Tolerances())
+    k_lo = min(grid, key=lambda k: (k.cap_f, k.r_ohm))
+    k_hi = max(grid, key=lambda k: (k.cap_f, -k.r_ohm))
+    assert k_lo.cap_f < k_hi.cap_f and k_lo.r_ohm == k_hi.r_ohm
+    pulse = {}
+    for k in (k_lo, k_hi):
+        pulse[k.cap_f] = inrush(
+            corner_circuit(base, k),
+            mains.high_v,
+            60.0,
+            {},
+            residual_v=an.inrush.replug_residual_v,
+        )
+    lo, hi = pulse[k_lo.cap_f], pulse[k_hi.cap_f]
+    assert lo.x_cap_dvdt_v_per_s > 1.1 * hi.x_cap_dvdt_v_per_s
+    assert an.inrush.x_cap_dvdt_v_per_s == pytest.approx(lo.x_cap_dvdt_v_per_s, rel=1e-9)
+    assert an.inrush.x_cap_k0_v2_per_s == pytest.approx(lo.x_cap_k0_v2_per_s, rel=1e-9)

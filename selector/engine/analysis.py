@@ -30,7 +30,7 @@ import copy
 import itertools
 import math
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -609,6 +609,25 @@ def analyse(
     res_v = replug_residual_v(cond.profile, crest_hi, c_nom, tau_slow, cond.replug_delay_s)
     ins = inrush(cin, mains.high_v, f_hi, record(k_in, hs_on, False), harmonics=hs_on,
                  residual_v=res_v, replug_delay_s=cond.replug_delay_s)  # fmt: skip
+    # the X capacitor's dV/dt (= i / C) and k0 (~ V^2 / (R C)) peak at the LOWEST capacitance,
+    # where the current is nearly the same (V / R) but C is smaller: take them from that corner
+    c_min = min(k.cap_f for k in grid)
+    if c_min < c_max:
+        k_lo = Corner(mains.high_v, f_hi, c_min, r_min, rb_min, circuit.zener_voltage_v, False)
+        lo = inrush(
+            corner_circuit(circuit, k_lo),
+            mains.high_v,
+            f_hi,
+            record(k_lo, hs_on, False),
+            harmonics=hs_on,
+            residual_v=res_v,
+            replug_delay_s=cond.replug_delay_s,
+        )
+        ins = replace(
+            ins,
+            x_cap_dvdt_v_per_s=max(ins.x_cap_dvdt_v_per_s, lo.x_cap_dvdt_v_per_s),
+            x_cap_k0_v2_per_s=max(ins.x_cap_k0_v2_per_s, lo.x_cap_k0_v2_per_s),
+        )
     # the surge rides on the fundamental (the surge model carries the mains as a sine)
     if cond.surge_v <= 0 or surge_model not in ("circuit", "loop"):
         if surge_model not in ("circuit", "loop"):
