@@ -311,6 +311,8 @@ def unit_stresses(
     s["inrush_peak_current_a"] = _anchor(ins.peak_current_a, v / r, V / R)
     s["inrush_rectifier_peak_current_a"] = _anchor(ins.rectifier_peak_current_a, v / r, V / R)
     s["inrush_i2t_a2s"] = _anchor(ins.i2t_a2s, v * v * c / r, V * V * C / R)
+    # dV/dt and k0 peak at the lowest capacitance: their own corner when the engine names one
+    V, F, C, R, Z = at(ins.x_cap_corner or ins.corner)
     s["inrush_x_cap_dvdt_v_per_s"] = _anchor(ins.x_cap_dvdt_v_per_s, v / (r * c), V / (R * C))
     # k0 = 2 I^2t / C^2 ~ V^2 / (R C)
     s["inrush_x_cap_k0_v2_per_s"] = _anchor(ins.x_cap_k0_v2_per_s, v * v / (r * c), V * V / (R * C))

@@ -623,11 +623,13 @@ def analyse(
             residual_v=res_v,
             replug_delay_s=cond.replug_delay_s,
         )
-        ins = replace(
-            ins,
-            x_cap_dvdt_v_per_s=max(ins.x_cap_dvdt_v_per_s, lo.x_cap_dvdt_v_per_s),
-            x_cap_k0_v2_per_s=max(ins.x_cap_k0_v2_per_s, lo.x_cap_k0_v2_per_s),
-        )
+        if lo.x_cap_dvdt_v_per_s > ins.x_cap_dvdt_v_per_s:
+            ins = replace(
+                ins,
+                x_cap_dvdt_v_per_s=lo.x_cap_dvdt_v_per_s,
+                x_cap_k0_v2_per_s=max(ins.x_cap_k0_v2_per_s, lo.x_cap_k0_v2_per_s),
+                x_cap_corner=lo.corner,
+            )
     # the surge rides on the fundamental (the surge model carries the mains as a sine)
     if cond.surge_v <= 0 or surge_model not in ("circuit", "loop"):
         if surge_model not in ("circuit", "loop"):

@@ -61,6 +61,9 @@ class Inrush:
     #: re-plug delay it was computed for [s] (:func:`replug_residual_v`)
     replug_residual_v: float = 0.0
     replug_delay_s: float | None = None
+    #: the corner of ``x_cap_dvdt_v_per_s`` and ``x_cap_k0_v2_per_s`` when it is not ``corner``
+    #: (they peak at the lowest capacitance, the energy at the highest)
+    x_cap_corner: dict | None = None
 
 
 @dataclass
