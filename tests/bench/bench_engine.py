@@ -30,6 +30,7 @@ from selector.engine import (  # noqa: E402
     Mains,
     Tolerances,
     analyse,
+    reuse,  # noqa: E402
     solve_steady_state,
 )
 from selector.engine.transients import inrush  # noqa: E402
@@ -49,6 +50,9 @@ def time_analysis(repeat: int = 30, harmonics: tuple = ()) -> tuple[float, float
     times, cpu = [], []
     solves = 0
     for _ in range(repeat):
+        # each run analyses the circuit afresh: the per-process reuse caches
+        # (selector.engine.reuse) would otherwise serve every solve of the repeat
+        reuse.clear()
         t = time.perf_counter()
         c = time.process_time()
         a = analyse(circuit, mains, Tolerances(), Conditions())

@@ -23,7 +23,13 @@ sys.path.insert(0, str(HERE.parent))
 
 import ngspice_util as nu  # noqa: E402
 
-from selector.engine import Circuit, Mains, Tolerances, corners  # noqa: E402
+from selector.engine import (  # noqa: E402
+    Circuit,
+    Mains,
+    Tolerances,
+    corners,
+    reuse,  # noqa: E402
+)
 from selector.engine import surge_circuit as scm  # noqa: E402
 
 
@@ -47,6 +53,7 @@ def time_engine(freqs: tuple[float, ...], repeat: int = 7) -> tuple[float, float
     scm.worst_surge(circuit, grid, 2000.0)  # warm-up
     cpu, wall = [], []
     for _ in range(repeat):
+        reuse.clear()  # a fresh circuit each run: no per-process reuse (selector.engine.reuse)
         t = time.perf_counter()
         c = time.process_time()
         scm.worst_surge(circuit, grid, 2000.0)
