@@ -240,11 +240,12 @@ def test_first_use_past_the_busy_timeout_exits_4(tmp_path):
 
 
 def test_concurrent_first_uses_all_succeed_with_the_whole_catalogue(tmp_path):
-    """Six processes start on a file that does not exist yet: one migrates and builds, the
+    """Six processes start on a file that does not exist yet (``--create``: a missing ``--db``
+    file is otherwise refused): one migrates and builds, the
     others wait for its write lock and then find the work done (the decision is taken again
     inside the lock); none sees a half-made schema or a partial build."""
     db_file = tmp_path / "first.sqlite"
-    procs = [_popen("parts", "stats", "--json", "--db", str(db_file)) for _ in range(6)]
+    procs = [_popen("parts", "stats", "--json", "--create", "--db", str(db_file)) for _ in range(6)]
     outs = [p.communicate(timeout=180) for p in procs]
     assert [p.returncode for p in procs] == [0] * 6, [err for _, err in outs]
     counts = {json.loads(out)["sources"]["builtin"] for out, _ in outs}
