@@ -36,7 +36,8 @@ SOURCES: Final[tuple[str, ...]] = ("column", "description", "family", "none")
 #: per kind: the figures whose source the import counts (parts columns)
 PROVENANCE_FIELDS: Final[dict[str, tuple[str, ...]]] = {
     "x_capacitor": (
-        "value", "tolerance", "package", "rated_voltage_ac_v", "dvdt_v_per_s", "humidity_grade",
+        "value", "tolerance", "package", "rated_voltage_ac_v", "rated_voltage_v", "dvdt_v_per_s",
+        "humidity_grade",
     ),
     "film_capacitor": ("value", "tolerance", "package", "rated_voltage_v", "rated_voltage_ac_v"),
     "resistor": (
