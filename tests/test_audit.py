@@ -63,7 +63,7 @@ def test_sound_design_has_no_failure(catalogue):
     b = r.boards[0]
     assert b.circuit.topology == "bridge"
     assert b.circuit.x_capacitance_f == pytest.approx(220e-9)
-    assert b.circuit.series_resistance_ohm == pytest.approx(94.0)  # R1 + R2 in series
+    assert b.circuit.series_resistance_ohm == pytest.approx(112.0)  # R1 + R2 in series
     assert b.circuit.bleeder_resistance_ohm == pytest.approx(1.41e6)  # R3 + R4 + R5
     # every rule of every audited role ran: nothing silently skipped
     rules = {f.rule for f in r.findings}
@@ -322,8 +322,8 @@ def test_unequal_bleeders_share_the_voltage_by_resistance(catalogue, tmp_path):
 def test_fusible_series_resistor_serves_as_the_fuse(catalogue, tmp_path):
     text = (DATA / "audit_vent_sound.csv").read_text(encoding="utf-8")
     lines = [ln for ln in text.splitlines() if not ln.startswith("F1,")]
-    old = '"R1, R2",2,47R,"Resistor, metal oxide, 1W, 350V, 5%",R_Axial_DIN0414,DEMO-MO47'
-    new = '"R1, R2",2,47R,"Resistor, fusible, 0.5W, 250V, 5%",R_Axial_DIN0207,DEMO-FU47'
+    old = '"R1, R2",2,56R,"Resistor, metal oxide, 1W, 350V, 5%",R_Axial_DIN0414,DEMO-MO56'
+    new = '"R1, R2",2,56R,"Resistor, fusible, 0.5W, 250V, 5%",R_Axial_DIN0207,DEMO-FU56'
     p = tmp_path / "bom.csv"
     p.write_text("\n".join(lines).replace(old, new) + "\n", encoding="utf-8")
     r = run(p, catalogue)

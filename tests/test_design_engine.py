@@ -32,6 +32,7 @@ SURGE_AND_WINDOW_RULES = {
     "rectifier.surge_i2t",
     "zener.surge_power",
     "whole.output_window_max",
+    "whole.bus_surge_peak",
 }
 
 
@@ -61,6 +62,9 @@ def test_engine_design_passes_every_rule(frame, load, vout, freqs, top):
     assert SURGE_AND_WINDOW_RULES <= ids
     assert "fuse.surge_i2t" in ids or "fuse.fusible_opens_on_short" in ids
     assert d.worst_case.load_met
+    # check's own verdict on the same values accepts the design, the bus peak during the
+    # surge included (issue 11: a design must never be one that `check` refuses)
+    assert d.analysis.failures == []
     assert d.worst_case.min_dc_current_a >= load * 1.1  # default load margin 10 % [P]
 
 

@@ -137,6 +137,7 @@ def test_surge_rules_are_registered_and_skip_without_a_surge() -> None:
         "fuse.surge_i2t",
         "bleeder.surge_voltage",
         "x_cap.surge_total",
+        "whole.bus_surge_peak",
     }
     assert new <= ids
     base = dict(

@@ -191,16 +191,28 @@ def rule_context(setup, circ, vz, ci, r_tol=0.0):
 
 def surge_precheck_rules() -> tuple[R.Rule, ...]:
     """The rules checked on ``surge_lower_bounds`` before the full analysis: every rule of a
-    part known before it (not the fuse, chosen after it) that reads surge figures only. Each
-    compares a stress that can only grow from the quick bound to the full analysis with a
-    limit of the part alone, so a failure on the bound is a failure of the analysis."""
+    part known before it (not the fuse, chosen after it) that reads surge figures only, and the
+    bus peak (:data:`BUS_RULES`, whose limit is the request's). Each compares a stress that can
+    only grow from the quick bound to the full analysis (a maximum over fewer corners) with a
+    limit of the part alone or of the request, so a failure on the bound is a failure of the
+    analysis."""
     return tuple(
         r
         for r in R.RULES
-        if r.role not in ("fuse", "whole", "varistor")
-        and r.stress_keys
-        and all(k.startswith("surge_") and k != "surge_level_v" for k in r.stress_keys)
+        if r.id in BUS_RULES
+        or (
+            r.role not in ("fuse", "whole", "varistor")
+            and r.stress_keys
+            and all(k.startswith("surge_") and k != "surge_level_v" for k in r.stress_keys)
+        )
     )
+
+
+#: whole-circuit rules that the completion can meet: the bus peak during the surge falls with a
+#: larger reservoir and with a Zener of lower slope resistance and tolerance, so a failure of
+#: one (Zener, reservoir) pair rules out every pair it dominates (:func:`dominated`) and the
+#: completion moves on to the cheapest pair not ruled out (:func:`cheapest_open_pair`)
+BUS_RULES: Final[frozenset[str]] = frozenset({"whole.bus_surge_peak"})
 
 
 #: roles whose parts the completion re-choice does not change: a precheck failure of one of
@@ -240,29 +252,42 @@ def verify_candidate(setup, topology, vz, xi, ri, scr):
 
     The completion (Zener, rectifier, reservoir, bleeder; the fuse after them) is re-chosen as
     the cheapest that passes its rules under the exact stresses of the current one, until the
-    choice repeats: a fixed point, or a cycle (counted in ``stats['completion_cycles']``). Every
-    completion tried is evaluated in full, and the cheapest one that passes every rule is
-    returned: (key, part indices, analysis, findings, circuit, rated parts), or None when none
-    passes (the failing rules are tallied in ``stats['exact_fail']``).
+    choice repeats: a fixed point, or a cycle (counted in ``stats['completion_cycles']``). A
+    completion that fails the bus peak (:data:`BUS_RULES`) rules out every (Zener, reservoir)
+    pair it dominates with the same rectifier and bleeder; the next proposal is then the
+    cheapest pair not ruled out (counted in ``stats['bus_rechoices']``). Every completion tried
+    is evaluated in full, and the cheapest one that passes every rule is returned: (key, part
+    indices, analysis, findings, circuit, rated parts), or None when none passes (the failing
+    rules are tallied in ``stats['exact_fail']``).
     """
     zo, rect, co, bo = setup.zo[(topology, vz)], setup.rect[topology], setup.co, setup.bo
     stats = setup.stats if setup.stats is not None else {}
     fails = stats.setdefault("exact_fail", {})
     current = tuple(int(v) for v in scr)
     tried: set[tuple[int, ...]] = set()
+    bus_failures: list[tuple[int, ...]] = []
     best = None
     while current not in tried:
         tried.add(current)
         res, s, circ = _evaluate_completion(setup, topology, vz, xi, ri, current)
         if res is not None and (best is None or res[0] < best[0]):
             best = res
+        failed = setup.last_exact[0] if res is None and setup.last_exact else []
+        if any(rid in BUS_RULES for rid in failed):
+            first = not bus_failures
+            bus_failures.append(current)
+            if first and not strongest_pairs_pass(
+                setup, topology, vz, xi, ri, current, bus_failures
+            ):
+                break  # no completion can hold the bus: every pair is dominated by a failed one
         if "max_zener_power_w" not in s:
             # rejected before the full analysis: on the minimum current or the X / series-R
             # surge rules the candidate ends (neither depends on the completion beyond the
-            # diode drop and the Zener's tolerance); on a completion part's surge rule the
-            # completion is re-chosen against the surge figures it has
-            failed = setup.last_exact[0] if setup.last_exact else []
-            if not failed or any(rule_role(rid) in FIXED_ROLES for rid in failed):
+            # diode drop and the Zener's tolerance); on a completion part's surge rule or the
+            # bus peak the completion is re-chosen against the surge figures it has
+            if not failed or any(
+                rule_role(rid) in FIXED_ROLES and rid not in BUS_RULES for rid in failed
+            ):
                 break
             # only the parts whose surge rules failed change: with the steady-state stresses
             # unknown, the others' rules could not be checked; a new bleeder keeps at most
@@ -279,15 +304,30 @@ def verify_candidate(setup, topology, vz, xi, ri, scr):
                 if "bleeder" in redo
                 else current[3],
             )
+            reservoir_s, c_now = {**s, "reservoir_min_f": 0.0}, None
         else:
+            reservoir_s, c_now = {**s, "reservoir_min_f": 0.0}, circ.reservoir_f
             proposal = (
                 cheapest_passing(setup, zo, "zener", s),
                 cheapest_passing(setup, rect, "rectifier", s),
-                cheapest_passing(
-                    setup, co, "reservoir", {**s, "reservoir_min_f": 0.0}, c_now=circ.reservoir_f
-                ),
+                cheapest_passing(setup, co, "reservoir", reservoir_s, c_now=c_now),
                 cheapest_passing(setup, bo, "bleeder", s, rb_now=circ.bleeder_resistance_ohm),
             )
+        if bus_failures and min(proposal) >= 0 and dominated(setup, zo, proposal, bus_failures):
+            pair = cheapest_open_pair(
+                setup,
+                zo,
+                proposal,
+                bus_failures,
+                passing_options(setup, zo, "zener", s)[0],
+                passing_options(setup, co, "reservoir", reservoir_s, c_now=c_now)[0],
+            )
+            stats["bus_rechoices"] = stats.get("bus_rechoices", 0) + 1
+            if pair is None:
+                if best is None:
+                    fails["whole.bus_surge_peak"] = fails.get("whole.bus_surge_peak", 0) + 1
+                break
+            proposal = (pair[0], proposal[1], pair[1], proposal[3])
         if any(v < 0 for v in proposal):
             if best is None:
                 for name, v in zip(
@@ -303,6 +343,118 @@ def verify_candidate(setup, topology, vz, xi, ri, scr):
             stats["completion_cycles"] = stats.get("completion_cycles", 0) + 1
         current = proposal
     return best
+
+
+def strongest_pairs_pass(setup, topology, vz, xi, ri, completion, failures) -> bool:
+    """Whether any (Zener, reservoir) pair might hold the bus where ``completion`` did not.
+
+    The strongest pairs are the reservoir of the largest capacitance with each Zener that no
+    other one beats in both surge slope and tolerance (:func:`dominated`): together they
+    dominate every pair. Their quick surge bounds are checked in one batched simulation; each
+    that fails joins ``failures``. When all fail, no completion of this point can pass, and
+    ``setup.last_excess`` gets the least excess of the bus rule among them: the search cuts on
+    it (search.BUS_CUT_RULES: a lower series resistance or a larger X capacitance only raises
+    the pulse current)."""
+    zo = setup.zo[(topology, vz)]
+    slope, tol = bus_figures(setup, zo)
+    cap = setup.co.attrs["value"]
+    if len(zo) == 0 or len(cap) == 0:
+        return False
+    c_big = int(np.flatnonzero(cap == cap.max())[np.argmin(setup.co.key[cap == cap.max()])])
+    front = [
+        z
+        for z in range(len(zo))
+        if not any(
+            (slope[o] <= slope[z] and tol[o] <= tol[z])
+            and (slope[o] < slope[z] or tol[o] < tol[z] or o < z)
+            for o in range(len(zo))
+        )
+    ]
+    _, d, _, b = completion
+    points = [(xi, ri, (z, d, c_big, b)) for z in front]
+    prefetch_surge_bounds(setup, topology, vz, points)
+    req, rule = setup.req, rule_by_id("whole.bus_surge_peak")
+    excesses = []
+    for _, _, comp in points:
+        circ, tol_ = circuit_for(setup, topology, vz, xi, ri, *comp)
+        sb = {**rule_context(setup, circ, vz, comp[2]), "surge_level_v": req.conditions.surge_v}
+        if setup.surge_bounds is not None:
+            sb.update(setup.surge_bounds(circ, req.mains, tol_, req.conditions.surge_v))
+            sb["surge_vout_max_v"] = req.conditions.vout_max(circ)
+        else:  # a stand-in analysis (tests): its own figures
+            an = setup.analyse(circ, req.mains, tol_, req.conditions)
+            sb = R.stresses_from_analysis(an, sb)[0]
+        st, lim, _ = rule.check(sb, None, setup.policy)
+        if st <= lim:
+            return True
+        failures.append(comp)
+        excesses.append(float(st / lim) if lim > 0 else math.inf)
+    setup.last_excess = {"whole.bus_surge_peak": min(excesses)}
+    return False
+
+
+def bus_figures(setup, zo: OptionTable) -> tuple[np.ndarray, np.ndarray]:
+    """(surge slope resistance [ohm], tolerance) of every Zener option of ``zo``, as the
+    engine's surge model takes them (``circuit_for``; a slope of 0 is the engine's default,
+    ``engine.surge_circuit.zener_surge_slope``)."""
+    key = ("bus_figures", id(zo))
+    figs = setup.part_cache.get(key)
+    if figs is None:
+        from ..engine.surge_circuit import DEFAULT_ZENER_SURGE_SLOPE_OHM
+
+        slope, tol = [], []
+        for rows in zo.rows:
+            row = catalogue_row(setup, rows[0])
+            zz = number_or(row.get("zz_ohm"), 0.0) * len(rows)
+            slope.append(zz if zz > 0 else DEFAULT_ZENER_SURGE_SLOPE_OHM)
+            tol.append(number_or(row.get("tolerance"), 0.05))
+        figs = setup.part_cache[key] = (np.array(slope), np.array(tol))
+    return figs
+
+
+def dominated(setup, zo: OptionTable, completion, failures) -> bool:
+    """Whether ``completion`` (Zener, rectifier, reservoir, bleeder options) can only give a bus
+    peak at least that of a failed one: the same rectifier and bleeder, a Zener of no lower
+    surge slope and tolerance (the clamp takes less of the pulse and starts higher) and a
+    reservoir of no more capacitance (it absorbs less charge; the engine gives every
+    reservoir the same ESR, ``circuit_for``). The bus peak is monotone in each of these, which
+    tests/test_design_bus.py checks on the engine."""
+    slope, tol = bus_figures(setup, zo)
+    cap = setup.co.attrs["value"]
+    z, d, c, b = completion
+    return any(
+        f[1] == d
+        and f[3] == b
+        and slope[z] >= slope[f[0]]
+        and tol[z] >= tol[f[0]]
+        and cap[c] <= cap[f[2]]
+        for f in failures
+    )
+
+
+def cheapest_open_pair(setup, zo, completion, failures, zener_ok, reservoir_ok):
+    """The (Zener, reservoir) option pair of least key that passes each part's own rules
+    (``zener_ok``, ``reservoir_ok`` masks) and that no failed completion dominates (with the
+    rectifier and bleeder of ``completion``), or None when every pair is ruled out."""
+    slope, tol = bus_figures(setup, zo)
+    cap = setup.co.attrs["value"]
+    z_idx, c_idx = np.flatnonzero(zener_ok), np.flatnonzero(reservoir_ok)
+    if len(z_idx) == 0 or len(c_idx) == 0:
+        return None
+    open_ = np.ones((len(z_idx), len(c_idx)), dtype=bool)
+    _, d, _, b = completion
+    for fz, fd, fc, fb in failures:
+        if fd != d or fb != b:
+            continue
+        z_hit = (slope[z_idx] >= slope[fz]) & (tol[z_idx] >= tol[fz])
+        c_hit = cap[c_idx] <= cap[fc]
+        open_ &= ~(z_hit[:, None] & c_hit[None, :])
+    if not open_.any():
+        return None
+    keys = zo.key[z_idx][:, None] + setup.co.key[c_idx][None, :]
+    keys = np.where(open_, keys, np.iinfo(np.int64).max)
+    zi, ci = np.unravel_index(int(np.argmin(keys)), keys.shape)
+    return int(z_idx[zi]), int(c_idx[ci])
 
 
 def _evaluate_completion(setup, topology, vz, xi, ri, completion):
@@ -339,9 +491,11 @@ def _evaluate_completion(setup, topology, vz, xi, ri, completion):
         # of the engine's surge figures (engine.analysis.surge_lower_bounds)
         sb = {**ctx, **setup.surge_bounds(circ, req.mains, tol, req.conditions.surge_v)}
         sb["surge_level_v"] = req.conditions.surge_v
+        # the limit the analysis's surge section carries (Conditions.vout_max)
+        sb["surge_vout_max_v"] = req.conditions.vout_max(circ)
         bad, excess = [], {}
         for rule in surge_precheck_rules():
-            role_parts = parts[rule.role]
+            role_parts = parts.get(rule.role)
             for part in role_parts if isinstance(role_parts, list) else [role_parts]:
                 if rule.applies is not None and not rule.applies(sb, part):
                     continue
@@ -350,6 +504,7 @@ def _evaluate_completion(setup, topology, vz, xi, ri, completion):
                     bad.append(rule.id)
                     excess[rule.id] = float(st / lim) if lim > 0 else math.inf
                     break
+        excess.pop("whole.bus_surge_peak", None)  # a cut figure only from strongest_pairs_pass
         setup.last_excess = excess
         if bad:
             for rid in bad:
@@ -398,17 +553,46 @@ def cheapest_passing(
     c_now: float | None = None,
     rb_max: float | None = None,
 ) -> int:
-    """Cheapest option of ``opts`` that passes every rule of ``role`` under stresses ``s``.
+    """Cheapest option of ``opts`` that passes every rule of ``role`` under stresses ``s``
+    (:func:`passing_options`); -1 when none does, :data:`BLOCKED_BY_STANDBY` when only the
+    standby limit rejects every bleeder. Among bleeders of equal key the larger resistance
+    (less no-load loss; tie-break policy)."""
+    if len(opts) == 0:
+        return -1
+    ok, blocked = passing_options(setup, opts, role, s, rb_now, c_now, rb_max)
+    if blocked:
+        return BLOCKED_BY_STANDBY
+    idx = np.flatnonzero(ok)
+    if len(idx) == 0:
+        return -1
+    if role == "bleeder" and "total_ohm" in opts.attrs:
+        order = np.lexsort((-opts.attrs["total_ohm"][idx], opts.key[idx]))
+        return int(idx[order[0]])
+    return int(idx[np.argmin(opts.key[idx])])
+
+
+def passing_options(
+    setup,
+    opts: OptionTable,
+    role: str,
+    s: dict[str, Any],
+    rb_now: float | None = None,
+    c_now: float | None = None,
+    rb_max: float | None = None,
+) -> tuple[np.ndarray, bool]:
+    """(mask of the options of ``opts`` that pass every rule of ``role`` under stresses ``s``,
+    whether only the standby limit rejects every bleeder).
 
     For the bleeder the stresses that depend on its own resistance are rescaled per candidate:
     discharge time (and time constant) in proportion to R, power in inverse proportion (RC
     discharge, P = V^2 / R [S]), and the no-load power changes by the bleeder's difference.
-    ``rb_max`` keeps only bleeders of at most that total resistance.
+    For the reservoir the ripple scales as 1 / C from ``c_now``. ``rb_max`` keeps only
+    bleeders of at most that total resistance.
     """
-    if len(opts) == 0:
-        return -1
     ns = opts.ns()
     ok = np.ones(len(opts), dtype=bool)
+    if len(opts) == 0:
+        return ok, False
     if rb_max is not None and "total_ohm" in opts.attrs:
         ok &= opts.attrs["total_ohm"] <= rb_max * (1 + 1e-12)
     standby_ok = None
@@ -439,7 +623,11 @@ def cheapest_passing(
             continue  # the exact evaluate() turns this into a warn and rejects the design
         st, lim, _ = rule.check(s, ns, setup.policy)
         ok &= np.asarray(st <= lim)
-    if role == "reservoir" and s.get("burst_current_a"):
+    if (
+        role == "reservoir"
+        and s.get("burst_current_a")
+        and not is_missing(s.get("min_dc_current_a"))
+    ):
         deficit = max(s["burst_current_a"] - s["min_dc_current_a"], 0.0)
         cmin = opts.attrs["value"] * (1 - np.nan_to_num(opts.attrs["tolerance"], nan=0.2))
         ok &= cmin >= deficit * s["burst_duration_s"] / (
@@ -447,16 +635,9 @@ def cheapest_passing(
         )
     if standby_ok is not None:
         if ok.any() and not (ok & standby_ok).any():
-            return BLOCKED_BY_STANDBY  # the bleeder's own rules pass; the whole-supply rule fails
+            return ok & standby_ok, True  # the bleeder's own rules pass; the standby rule fails
         ok &= standby_ok
-    idx = np.flatnonzero(ok)
-    if len(idx) == 0:
-        return -1
-    if role == "bleeder" and "total_ohm" in opts.attrs:
-        # equal keys: the larger resistance (less no-load loss; tie-break policy)
-        order = np.lexsort((-opts.attrs["total_ohm"][idx], opts.key[idx]))
-        return int(idx[order[0]])
-    return int(idx[np.argmin(opts.key[idx])])
+    return ok, False
 
 
 #: returned by cheapest_passing when only the no-load (standby) power limit rejects every bleeder

@@ -197,10 +197,9 @@ class Analysis:
     def failures(self) -> list[dict[str, str]]:
         """The analysis's own verdicts that refuse these values, each ``{"rule", "reason"}``.
 
-        ``rule`` is the id of the rule that judges the same figure (in ``selector.rules.RULES``
-        except ``whole.bus_surge_peak``, which design and audit do not enforce yet, see
-        DEVELOPERS.md), so that ``check`` names what design and audit would name: the load at
-        every corner (``whole.min_current``; here without the policy margin), the discharge profile
+        ``rule`` is the id of the rule that judges the same figure (in ``selector.rules.RULES``),
+        so that ``check`` names what design and audit would name: the load at every corner
+        (``whole.min_current``; here without the policy margin), the discharge profile
         (``bleeder.discharge``) and, when the surge ran through the whole circuit, the bus peak
         during the surge against the highest voltage the load tolerates
         (``whole.bus_surge_peak``, :func:`selector.rules.whole.bus_surge_peak_vs_vout_max`).

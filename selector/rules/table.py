@@ -63,6 +63,7 @@ from .varistor import (
 )
 from .whole import (
     burst_droop_vs_bus_fraction,
+    bus_surge_peak_vs_vout_max,
     highest_output_vs_vout_max,
     load_vs_min_dc_current,
     no_load_power_vs_standby_limit,
@@ -477,6 +478,13 @@ RULES: Final[tuple[Rule, ...]] = (
          "V", highest_output_vs_vout_max,
          stress_keys=("max_output_voltage_v", "zener_voltage_v"),
          corner_key="max_output_voltage_v"),
+    Rule("whole.bus_surge_peak", "whole",
+         "bus peak during the surge (worst corner and phase) <= highest voltage the load "
+         "tolerates (default 1.3 x bus)",
+         SOURCE_P + "; " + _SURGE_SOURCE,
+         "V", bus_surge_peak_vs_vout_max,
+         stress_keys=("surge_bus_peak_v", "zener_voltage_v"),
+         corner_key="surge_bus_peak_v", applies=surge_given),
 )
 # fmt: on
 

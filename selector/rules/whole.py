@@ -78,9 +78,8 @@ def bus_surge_peak_vs_vout_max(
 
     Example: 14.4 V against 6.63 V (5.1 V bus): fails; 6.39 V passes.
 
-    Not registered in ``RULES`` yet: the design screen has no bound for it, so at 1 kV every
-    low-resistance candidate fails it in the exact check and the solver hits its verification
-    cap before it reaches the series resistance (some hundreds of ohm) it needs.
+    The design meets it in verification (DEVELOPERS.md, "The bus peak during the surge in the
+    search"): the screen has no bound for it.
     """
     return stresses["surge_bus_peak_v"], vout_max_of(stresses)
 
