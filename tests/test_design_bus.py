@@ -105,3 +105,30 @@ def test_full_analysis_bus_peak_falls_with_reservoir():
         for c in (22e-6, 100e-6, 470e-6)
     ]
     assert increasing(peaks[::-1])
+
+
+def test_vout_max_sets_the_bus_limit_of_design_and_audit(catalogue_url, tmp_path):
+    """`--vout-max` is the load's limit in design and audit alike (issue 11): a BOM designed
+    at the default 1.3 x 5.1 V = 6.63 V fails the bus rule when the load tolerates only 6 V, and
+    a design for 6 V keeps its bus peak below 6 V (the check of `check` on its own values)."""
+    import json
+
+    from typer.testing import CliRunner
+
+    from selector.cli import app
+
+    runner = CliRunner()
+    common = ["--load", "12m", "--mains", "230", "--freq", "50,60", "--db", catalogue_url]
+    bom = tmp_path / "default.csv"
+    made = runner.invoke(app, ["design", "--vout", "5.1", *common, "--bom", str(bom), "--json"])
+    assert made.exit_code == 0, made.output
+    doc = json.loads(made.stdout)
+    assert doc["requirement"]["vout_max_v"] is None  # the default limit
+    audited = runner.invoke(app, ["audit", str(bom), *common, "--vout-max", "6", "--json"])
+    fails = [f["rule"] for f in json.loads(audited.stdout)["findings"] if f["severity"] == "fail"]
+    assert fails == ["whole.bus_surge_peak"] and audited.exit_code == 1
+    tight = runner.invoke(app, ["design", "--vout", "5.1", *common, "--vout-max", "6", "--json"])
+    assert tight.exit_code == 0, tight.output
+    design = json.loads(tight.stdout)["designs"][0]
+    bus = next(c for c in design["checks"] if c["rule"] == "whole.bus_surge_peak")
+    assert bus["limit"] == pytest.approx(6.0) and bus["stress"] <= 6.0

@@ -35,6 +35,7 @@ from ._circuit import (
     SurgeOpt,
     SwitchOnsOpt,
     TopologyOpt,
+    VoutMaxOpt,
     conditions_from_options,
     describe_life,
     describe_mains,
@@ -233,6 +234,7 @@ def audit_options(
     ambient: str = "40",
     profile: str = "iec60335",
     surge: str = "1k",
+    vout_max: str | None = None,
     life: str = "10y",
     humidity: str = "60",
     switch_ons: str = "30k",
@@ -273,7 +275,7 @@ def audit_options(
     return dict(
         mains=mains_from_options(mains, mains_tol, freq, harmonics),
         conditions=conditions_from_options(
-            ambient, profile, surge, None, life, humidity, switch_ons, cap_loss
+            ambient, profile, surge, vout_max, life, humidity, switch_ons, cap_loss
         ),
         tolerances=tolerances,
         pinned_tolerances=pinned,
@@ -330,6 +332,7 @@ def audit(
     ambient: AmbientOpt = "40",
     profile: ProfileOpt = "iec60335",
     surge: SurgeOpt = "1k",
+    vout_max: VoutMaxOpt = None,
     life: LifeOpt = "10y",
     humidity: HumidityOpt = "60",
     switch_ons: SwitchOnsOpt = "30k",
@@ -360,9 +363,9 @@ def audit(
         cap_loss=cap_loss, r_tol=r_tol, zener_tol=zener_tol, zener_z=zener_z, load=load,
         load_r=load_r, burst=burst, burst_time=burst_time, burst_period=burst_period,
         regulator=regulator, dropout=dropout, quiescent=quiescent, diode_drop=diode_drop,
-        diode_r=diode_r, ambient=ambient, profile=profile, surge=surge, policy=policy, db=db,
-        create=create, standby_limit=standby_limit, product_class=product_class, life=life,
-        humidity=humidity, switch_ons=switch_ons,
+        diode_r=diode_r, ambient=ambient, profile=profile, surge=surge, vout_max=vout_max,
+        policy=policy, db=db, create=create, standby_limit=standby_limit,
+        product_class=product_class, life=life, humidity=humidity, switch_ons=switch_ons,
     )  # fmt: skip
     result = audit_bom(bom, **opts)
     from ..engine.distortion import mains_record

@@ -42,6 +42,7 @@ from ._circuit import (
     StandbyLimitOpt,
     SurgeOpt,
     SwitchOnsOpt,
+    VoutMaxOpt,
     ZenerOpt,
     conditions_from_options,
     describe_life,
@@ -80,6 +81,7 @@ def design(
     switch_ons: SwitchOnsOpt = "30k",
     profile: ProfileOpt = "iec60335",
     surge: SurgeOpt = "1k",
+    vout_max: VoutMaxOpt = None,
     zener: ZenerOpt = None,  # type: ignore[assignment]
     regulator: RegulatorOpt = None,
     dropout: DropoutOpt = "1",
@@ -171,7 +173,7 @@ def design(
         vout_v=vout_v,
         mains=mains_from_options(mains, mains_tol, freq, harmonics),
         conditions=conditions_from_options(
-            ambient, profile, surge, None, life, humidity, switch_ons, cap_loss
+            ambient, profile, surge, vout_max, life, humidity, switch_ons, cap_loss
         ),
         cap_loss=parse_cap_loss(cap_loss) if cap_loss is not None else 0.10,
         topology=top_name,
@@ -216,6 +218,8 @@ def design(
             "mains_tolerance": req.mains.tolerance,
             "frequencies_hz": list(req.mains.frequencies_hz),
             "surge_v": req.conditions.surge_v,
+            # None: the default, 1.3 x the bus voltage (common practice, no source)
+            "vout_max_v": req.conditions.vout_max_v,
             "ambient_c": req.conditions.ambient_c,
             "profile": req.conditions.profile,
             "target_life_h": req.conditions.life_h,
