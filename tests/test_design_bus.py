@@ -132,3 +132,39 @@ def test_vout_max_sets_the_bus_limit_of_design_and_audit(catalogue_url, tmp_path
     design = json.loads(tight.stdout)["designs"][0]
     bus = next(c for c in design["checks"] if c["rule"] == "whole.bus_surge_peak")
     assert bus["limit"] == pytest.approx(6.0) and bus["stress"] <= 6.0
+
+
+@pytest.mark.parametrize("topology", ["bridge", "half-wave"])
+def test_ripple_trough_rises_with_reservoir(topology):
+    # the design rules out every smaller reservoir with the same Zener after a failure of the
+    # window's bottom (verify.WINDOW_RULES): the trough must not fall as C grows (C dV = I dt)
+    base = dataclasses.replace(BASE, topology=topology, series_resistance_ohm=100.0)
+    troughs = [
+        analyse(
+            dataclasses.replace(base, reservoir_f=c), MAINS, TOL, Conditions(surge_v=0.0)
+        ).worst_case.min_output_voltage_v
+        for c in (22e-6, 47e-6, 100e-6, 470e-6)
+    ]
+    assert increasing(troughs) and troughs[-1] > troughs[0]
+
+
+def test_check_refuses_a_trough_below_vout_min():
+    """`check`'s verdict includes the window's bottom (issue 11): 12 mA from 22 uF droops below
+    0.9 x 5.1 V = 4.59 V; a load that tolerates 3.5 V (--vout-min 3.5) accepts it."""
+    import json
+
+    from typer.testing import CliRunner
+
+    from selector.cli import app
+
+    args = ["check", "--mains", "230", "--cap", "470n", "--series-r", "100", "--bleeder",
+            "680k", "--zener", "5.1", "--reservoir", "22u", "--load", "12m", "--surge", "0",
+            "--json"]  # fmt: skip
+    runner = CliRunner()
+    low = runner.invoke(app, args)
+    doc = json.loads(low.stdout)
+    assert doc["worst_case"]["min_output_voltage_v"] < doc["vout_min_v"] == pytest.approx(4.59)
+    assert [f["rule"] for f in doc["failures"]] == ["whole.output_window_min"]
+    assert low.exit_code == 1
+    ok = runner.invoke(app, [*args, "--vout-min", "3.5"])
+    assert json.loads(ok.stdout)["failures"] == [] and ok.exit_code == 0

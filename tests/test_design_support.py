@@ -340,6 +340,11 @@ def standin_analyse(circuit, mains, tol, cond):
         max_reservoir_ripple_current_a=0.5 * i_hi,
         # stand-in ripple: the load fed by the reservoir for a quarter cycle (C dV = I dt)
         max_output_ripple_v=demand / (4 * min(f_set) * circuit.reservoir_f),
+        # stand-in trough: the clamp at its low tolerance less a quarter of that droop (the
+        # rectified current feeds the load for most of the cycle; the engine's trough for
+        # 12 mA into 100 uF is 4.81 V against a 4.85 V clamp)
+        min_output_voltage_v=z_set[0] - demand / (16 * min(f_set) * circuit.reservoir_f),
+        vout_min_v=cond.vout_min(circuit),
         no_load_real_power_w=pzmax[1] + prmax[2] + mains.nominal_v**2 / rb,
         load_met=imin[0] >= demand,
         load_margin_a=imin[0] - demand,

@@ -75,6 +75,7 @@ __all__ = [
     "SwitchOnsOpt",
     "TopologyOpt",
     "VoutMaxOpt",
+    "VoutMinOpt",
     "ZenerOpt",
     "ZenerTolOpt",
     "ZenerZOpt",
@@ -138,6 +139,14 @@ ReservoirEsrOpt = Annotated[
     typer.Option(
         "--reservoir-esr",
         help="Reservoir ESR, ohm (default 0.3, common practice); used by the surge model.",
+    ),
+]
+VoutMinOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--vout-min",
+        help="Lowest bus voltage the load tolerates, V (default 0.9 x the bus voltage, "
+        "common practice); the ripple trough at full load and low line is judged against it.",
     ),
 ]
 VoutMaxOpt = Annotated[
@@ -442,9 +451,10 @@ def conditions_from_options(
     humidity: str = "60",
     switch_ons: str = "30k",
     cap_loss: str | None = None,
+    vout_min: str | None = None,
 ) -> Conditions:
-    """Ambient, discharge profile, surge level, highest bus voltage and the life and duty
-    (target life, humidity in use, switch-ons) from the option texts."""
+    """Ambient, discharge profile, surge level, highest and lowest bus voltage and the life
+    and duty (target life, humidity in use, switch-ons) from the option texts."""
     prof = profile.strip().lower().replace("-", "").replace(" ", "")
     if prof not in DISCHARGE_PROFILES:
         raise BadValueError(
@@ -455,6 +465,7 @@ def conditions_from_options(
         profile=prof,
         surge_v=option_value(surge, "V", "--surge"),
         vout_max_v=option_value(vout_max, "V", "--vout-max") if vout_max else None,
+        vout_min_v=option_value(vout_min, "V", "--vout-min") if vout_min else None,
         life_s=_read(parse_duration, life, "--life"),
         humidity=_read(parse_percent, humidity, "--humidity"),
         switch_ons=_read(parse_count, switch_ons, "--switch-ons"),

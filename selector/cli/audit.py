@@ -36,6 +36,7 @@ from ._circuit import (
     SwitchOnsOpt,
     TopologyOpt,
     VoutMaxOpt,
+    VoutMinOpt,
     conditions_from_options,
     describe_life,
     describe_mains,
@@ -235,6 +236,7 @@ def audit_options(
     profile: str = "iec60335",
     surge: str = "1k",
     vout_max: str | None = None,
+    vout_min: str | None = None,
     life: str = "10y",
     humidity: str = "60",
     switch_ons: str = "30k",
@@ -275,7 +277,7 @@ def audit_options(
     return dict(
         mains=mains_from_options(mains, mains_tol, freq, harmonics),
         conditions=conditions_from_options(
-            ambient, profile, surge, vout_max, life, humidity, switch_ons, cap_loss
+            ambient, profile, surge, vout_max, life, humidity, switch_ons, cap_loss, vout_min
         ),
         tolerances=tolerances,
         pinned_tolerances=pinned,
@@ -333,6 +335,7 @@ def audit(
     profile: ProfileOpt = "iec60335",
     surge: SurgeOpt = "1k",
     vout_max: VoutMaxOpt = None,
+    vout_min: VoutMinOpt = None,
     life: LifeOpt = "10y",
     humidity: HumidityOpt = "60",
     switch_ons: SwitchOnsOpt = "30k",
@@ -364,7 +367,7 @@ def audit(
         load_r=load_r, burst=burst, burst_time=burst_time, burst_period=burst_period,
         regulator=regulator, dropout=dropout, quiescent=quiescent, diode_drop=diode_drop,
         diode_r=diode_r, ambient=ambient, profile=profile, surge=surge, vout_max=vout_max,
-        policy=policy, db=db, create=create, standby_limit=standby_limit,
+        vout_min=vout_min, policy=policy, db=db, create=create, standby_limit=standby_limit,
         product_class=product_class, life=life, humidity=humidity, switch_ons=switch_ons,
     )  # fmt: skip
     result = audit_bom(bom, **opts)

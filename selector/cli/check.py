@@ -48,6 +48,7 @@ from ._circuit import (
     TopologyOpt,
     VaristorOpt,
     VoutMaxOpt,
+    VoutMinOpt,
     ZenerOpt,
     ZenerTolOpt,
     ZenerZOpt,
@@ -101,6 +102,7 @@ def check(
     profile: ProfileOpt = "iec60335",
     surge: SurgeOpt = "1k",
     vout_max: VoutMaxOpt = None,
+    vout_min: VoutMinOpt = None,
     standby_limit: StandbyLimitOpt = None,
     product_class: ProductClassOpt = None,
     varistor: VaristorOpt = None,
@@ -149,7 +151,7 @@ def check(
     supply = mains_from_options(mains, mains_tol, freq, harmonics)
     tolerances = tolerances_from_options(cap_tol, cap_loss, r_tol, zener_tol)
     conditions = conditions_from_options(
-        ambient, profile, surge, vout_max, life, humidity, switch_ons, cap_loss
+        ambient, profile, surge, vout_max, life, humidity, switch_ons, cap_loss, vout_min
     )
     result = analyse(circuit, supply, tolerances, conditions)
     from ..policy import Policy
@@ -184,6 +186,9 @@ def check(
         # the highest bus voltage the load tolerates (--vout-max; default 1.3 x bus, [P])
         "vout_max_v": conditions.vout_max(circuit),
         "vout_max_default": conditions.vout_max_v is None,
+        # the lowest (--vout-min; default 0.9 x bus, [P])
+        "vout_min_v": conditions.vout_min(circuit),
+        "vout_min_default": conditions.vout_min_v is None,
         "nominal": result.nominal,
         "worst_case": result.worst_case,
         "inrush": result.inrush,

@@ -43,6 +43,7 @@ from ._circuit import (
     SurgeOpt,
     SwitchOnsOpt,
     VoutMaxOpt,
+    VoutMinOpt,
     ZenerOpt,
     conditions_from_options,
     describe_life,
@@ -82,6 +83,7 @@ def design(
     profile: ProfileOpt = "iec60335",
     surge: SurgeOpt = "1k",
     vout_max: VoutMaxOpt = None,
+    vout_min: VoutMinOpt = None,
     zener: ZenerOpt = None,  # type: ignore[assignment]
     regulator: RegulatorOpt = None,
     dropout: DropoutOpt = "1",
@@ -173,7 +175,7 @@ def design(
         vout_v=vout_v,
         mains=mains_from_options(mains, mains_tol, freq, harmonics),
         conditions=conditions_from_options(
-            ambient, profile, surge, vout_max, life, humidity, switch_ons, cap_loss
+            ambient, profile, surge, vout_max, life, humidity, switch_ons, cap_loss, vout_min
         ),
         cap_loss=parse_cap_loss(cap_loss) if cap_loss is not None else 0.10,
         topology=top_name,
@@ -220,6 +222,8 @@ def design(
             "surge_v": req.conditions.surge_v,
             # None: the default, 1.3 x the bus voltage (common practice, no source)
             "vout_max_v": req.conditions.vout_max_v,
+            # None: the default, 0.9 x the bus voltage (common practice, no source)
+            "vout_min_v": req.conditions.vout_min_v,
             "ambient_c": req.conditions.ambient_c,
             "profile": req.conditions.profile,
             "target_life_h": req.conditions.life_h,

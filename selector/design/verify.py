@@ -213,6 +213,10 @@ def surge_precheck_rules() -> tuple[R.Rule, ...]:
 #: one (Zener, reservoir) pair rules out every pair it dominates (:func:`dominated`) and the
 #: completion moves on to the cheapest pair not ruled out (:func:`cheapest_open_pair`)
 BUS_RULES: Final[frozenset[str]] = frozenset({"whole.bus_surge_peak"})
+#: whole-circuit rules that a larger reservoir meets with the same Zener: the trough of the
+#: output ripple rises with the reservoir's capacitance (C dV = I dt [S]), so a failure rules
+#: out every smaller reservoir with the same Zener, rectifier and bleeder
+WINDOW_RULES: Final[frozenset[str]] = frozenset({"whole.output_window_min"})
 
 
 #: roles whose parts the completion re-choice does not change: a precheck failure of one of
@@ -265,7 +269,7 @@ def verify_candidate(setup, topology, vz, xi, ri, scr):
     fails = stats.setdefault("exact_fail", {})
     current = tuple(int(v) for v in scr)
     tried: set[tuple[int, ...]] = set()
-    bus_failures: list[tuple[int, ...]] = []
+    bus_failures: list[tuple[tuple[int, ...], bool]] = []  # (completion, same Zener only)
     best = None
     while current not in tried:
         tried.add(current)
@@ -273,9 +277,11 @@ def verify_candidate(setup, topology, vz, xi, ri, scr):
         if res is not None and (best is None or res[0] < best[0]):
             best = res
         failed = setup.last_exact[0] if res is None and setup.last_exact else []
+        if any(rid in WINDOW_RULES for rid in failed):
+            bus_failures.append((current, True))
         if any(rid in BUS_RULES for rid in failed):
-            first = not bus_failures
-            bus_failures.append(current)
+            first = all(same_zener for _, same_zener in bus_failures)
+            bus_failures.append((current, False))
             if first and not strongest_pairs_pass(
                 setup, topology, vz, xi, ri, current, bus_failures
             ):
@@ -324,9 +330,7 @@ def verify_candidate(setup, topology, vz, xi, ri, scr):
             )
             stats["bus_rechoices"] = stats.get("bus_rechoices", 0) + 1
             if pair is None:
-                if best is None:
-                    fails["whole.bus_surge_peak"] = fails.get("whole.bus_surge_peak", 0) + 1
-                break
+                break  # every pair is ruled out (the failures were tallied where they occurred)
             proposal = (pair[0], proposal[1], pair[1], proposal[3])
         if any(v < 0 for v in proposal):
             if best is None:
@@ -387,7 +391,7 @@ def strongest_pairs_pass(setup, topology, vz, xi, ri, completion, failures) -> b
         st, lim, _ = rule.check(sb, None, setup.policy)
         if st <= lim:
             return True
-        failures.append(comp)
+        failures.append((comp, False))
         excesses.append(float(st / lim) if lim > 0 else math.inf)
     setup.last_excess = {"whole.bus_surge_peak": min(excesses)}
     return False
@@ -413,22 +417,23 @@ def bus_figures(setup, zo: OptionTable) -> tuple[np.ndarray, np.ndarray]:
 
 
 def dominated(setup, zo: OptionTable, completion, failures) -> bool:
-    """Whether ``completion`` (Zener, rectifier, reservoir, bleeder options) can only give a bus
-    peak at least that of a failed one: the same rectifier and bleeder, a Zener of no lower
-    surge slope and tolerance (the clamp takes less of the pulse and starts higher) and a
-    reservoir of no more capacitance (it absorbs less charge; the engine gives every
-    reservoir the same ESR, ``circuit_for``). The bus peak is monotone in each of these, which
-    tests/test_design_bus.py checks on the engine."""
+    """Whether ``completion`` (Zener, rectifier, reservoir, bleeder options) can only do worse
+    than a failed one, ``failures`` holding (completion, same Zener only) pairs. For the bus
+    peak (:data:`BUS_RULES`): the same rectifier and bleeder, a Zener of no lower surge slope
+    and tolerance (the clamp takes less of the pulse and starts higher) and a reservoir of no
+    more capacitance (it absorbs less charge; the engine gives every reservoir the same ESR,
+    ``circuit_for``). For the output window's bottom (:data:`WINDOW_RULES`): the same Zener,
+    rectifier and bleeder and a reservoir of no more capacitance (a deeper ripple trough). The
+    monotonicity is checked on the engine in tests/test_design_bus.py."""
     slope, tol = bus_figures(setup, zo)
     cap = setup.co.attrs["value"]
     z, d, c, b = completion
     return any(
         f[1] == d
         and f[3] == b
-        and slope[z] >= slope[f[0]]
-        and tol[z] >= tol[f[0]]
+        and (z == f[0] if same_zener else slope[z] >= slope[f[0]] and tol[z] >= tol[f[0]])
         and cap[c] <= cap[f[2]]
-        for f in failures
+        for f, same_zener in failures
     )
 
 
@@ -443,10 +448,13 @@ def cheapest_open_pair(setup, zo, completion, failures, zener_ok, reservoir_ok):
         return None
     open_ = np.ones((len(z_idx), len(c_idx)), dtype=bool)
     _, d, _, b = completion
-    for fz, fd, fc, fb in failures:
+    for (fz, fd, fc, fb), same_zener in failures:
         if fd != d or fb != b:
             continue
-        z_hit = (slope[z_idx] >= slope[fz]) & (tol[z_idx] >= tol[fz])
+        if same_zener:
+            z_hit = z_idx == fz
+        else:
+            z_hit = (slope[z_idx] >= slope[fz]) & (tol[z_idx] >= tol[fz])
         c_hit = cap[c_idx] <= cap[fc]
         open_ &= ~(z_hit[:, None] & c_hit[None, :])
     if not open_.any():

@@ -200,8 +200,9 @@ class Analysis:
         ``rule`` is the id of the rule that judges the same figure (in ``selector.rules.RULES``),
         so that ``check`` names what design and audit would name: the load at every corner
         (``whole.min_current``; here without the policy margin), the discharge profile
-        (``bleeder.discharge``) and, when the surge ran through the whole circuit, the bus peak
-        during the surge against the highest voltage the load tolerates
+        (``bleeder.discharge``), the bottom of the output window without a regulator
+        (``whole.output_window_min``) and, when the surge ran through the whole circuit, the bus
+        peak during the surge against the highest voltage the load tolerates
         (``whole.bus_surge_peak``, :func:`selector.rules.whole.bus_surge_peak_vs_vout_max`).
         ``ok`` is their absence, the one verdict every caller reads.
         """
@@ -215,6 +216,19 @@ class Analysis:
                 {
                     "rule": "bleeder.discharge",
                     "reason": f"discharge too slow ({self.discharge.rule})",
+                }
+            )
+        w = self.worst_case
+        if (
+            w.vout_min_v is not None
+            and w.regulator_ok is None
+            and w.min_output_voltage_v < w.vout_min_v
+        ):
+            out.append(
+                {
+                    "rule": "whole.output_window_min",
+                    "reason": f"lowest bus voltage {format_value(w.min_output_voltage_v, 'V')} "
+                    f"below the load's limit {format_value(w.vout_min_v, 'V')} (--vout-min)",
                 }
             )
         s = self.surge

@@ -67,6 +67,7 @@ from .whole import (
     highest_output_vs_vout_max,
     load_vs_min_dc_current,
     no_load_power_vs_standby_limit,
+    vout_min_vs_lowest_output,
 )
 from .x_capacitor import (
     mains_rms_vs_rated_ac_voltage,
@@ -180,6 +181,12 @@ def surge_given(stresses: Mapping[str, Any], part: Any) -> bool:
 def real_fuse_and_surge(stresses: Mapping[str, Any], part: Any) -> bool:
     """A real fuse (not a fusible resistor) and a surge level is set."""
     return not_fusible_resistor(stresses, part) and surge_given(stresses, part)
+
+
+def bus_feeds_the_load(stresses: Mapping[str, Any], part: Any) -> bool:
+    """No regulator between the bus and the load (``regulator_ok`` is None): the load sees the
+    bus, so its window applies; behind a regulator its headroom rule judges the bus instead."""
+    return stresses.get("regulator_ok") is None
 
 
 def burst_given(stresses: Mapping[str, Any], part: Any) -> bool:
@@ -478,6 +485,13 @@ RULES: Final[tuple[Rule, ...]] = (
          "V", highest_output_vs_vout_max,
          stress_keys=("max_output_voltage_v", "zener_voltage_v"),
          corner_key="max_output_voltage_v"),
+    Rule("whole.output_window_min", "whole",
+         "output window, bottom: lowest voltage the load tolerates (default 0.9 x bus) <= "
+         "lowest bus voltage (full load, low corner, ripple trough)",
+         SOURCE_P,
+         "V", vout_min_vs_lowest_output,
+         stress_keys=("min_output_voltage_v", "zener_voltage_v"),
+         corner_key="min_output_voltage_v", applies=bus_feeds_the_load),
     Rule("whole.bus_surge_peak", "whole",
          "bus peak during the surge (worst corner and phase) <= highest voltage the load "
          "tolerates (default 1.3 x bus)",
