@@ -88,7 +88,7 @@ def snap_csv_column(
 
     from rapidfuzz import process
 
-    from .audit.bom_cells import _decode
+    from .audit.bom_cells import decode_text
     from .outputs import check_outputs, spreadsheet_cell, write_atomic
 
     if not path.is_file():
@@ -99,7 +99,7 @@ def snap_csv_column(
     if not in_place:
         check_outputs([("--output", target)], [("CSV file", path)])
     raw = path.read_bytes()
-    text, enc, _notes = _decode(path, raw, encoding)
+    text, enc, _notes = decode_text(path, raw, encoding)
     bom = raw.startswith((codecs.BOM_UTF8, codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE))
     line_end = _line_end(text)
     delimiter = _delimiter(text.split(line_end, 1)[0] if text else "")
