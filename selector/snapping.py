@@ -75,7 +75,8 @@ def snap_csv_column(
     name already there is overwritten). Written to ``output``, or back over ``path`` with
     ``in_place``, else to :func:`default_output`. The file keeps what the user's program
     wrote: its encoding (read as :mod:`selector.audit` reads a BOM: UTF-8, a UTF-8 or UTF-16
-    byte-order mark, or ``encoding``), the byte-order mark, the line ends (CRLF, LF or CR), the
+    byte-order mark, Windows-1252, or ``encoding``), the byte-order mark and a UTF-16 file's
+    byte order (big-endian stays big-endian), the line ends (CRLF, LF or CR), the
     delimiter, and every header as it was (duplicates included; the snapped column must be
     unique). Cells a spreadsheet would run as formulas are escaped
     (:func:`selector.outputs.spreadsheet_cell`). Written through a temporary file and a
