@@ -75,7 +75,8 @@ def snap_csv_column(
     name already there is overwritten). Written to ``output``, or back over ``path`` with
     ``in_place``, else to :func:`default_output`. The file keeps what the user's program
     wrote: its encoding (read as :mod:`selector.audit` reads a BOM: UTF-8, a UTF-8 or UTF-16
-    byte-order mark, or ``encoding``), the byte-order mark, the line ends (CRLF, LF or CR), the
+    byte-order mark, Windows-1252, or ``encoding``), the byte-order mark and a UTF-16 file's
+    byte order (big-endian stays big-endian), the line ends (CRLF, LF or CR), the
     delimiter, and every header as it was (duplicates included; the snapped column must be
     unique). Cells a spreadsheet would run as formulas are escaped
     (:func:`selector.outputs.spreadsheet_cell`). Written through a temporary file and a
@@ -88,7 +89,7 @@ def snap_csv_column(
 
     from rapidfuzz import process
 
-    from .audit.bom_cells import _decode
+    from .audit.bom_cells import decode_text
     from .outputs import check_outputs, spreadsheet_cell, write_atomic
 
     if not path.is_file():
@@ -99,7 +100,7 @@ def snap_csv_column(
     if not in_place:
         check_outputs([("--output", target)], [("CSV file", path)])
     raw = path.read_bytes()
-    text, enc, _notes = _decode(path, raw, encoding)
+    text, enc, _notes = decode_text(path, raw, encoding)
     bom = raw.startswith((codecs.BOM_UTF8, codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE))
     line_end = _line_end(text)
     delimiter = _delimiter(text.split(line_end, 1)[0] if text else "")

@@ -28,6 +28,7 @@ from __future__ import annotations
 
 import math
 import re
+from collections.abc import Iterable
 from typing import Final
 
 from .errors import BadValueError
@@ -41,7 +42,10 @@ __all__ = [
     "format_value",
     "format_duration",
     "iec60062_code",
+    "decimal_points",
+    "decimal_sign_of",
     "parse_count",
+    "parse_number",
     "parse_duration",
     "parse_percent",
     "parse_tolerance",
@@ -261,6 +265,185 @@ DURATION_UNITS: Final[dict[str, float]] = {
     "d": 86400.0,
     "y": 8760.0 * 3600.0,
 }
+#: characters that separate groups of three digits and are never a decimal sign: the space and
+#: its no-break / narrow / thin forms (ISO 80000-1:2009 7.3.1 [S]) and the apostrophe (Swiss
+#: usage; common practice, no source)
+GROUP_SPACES: Final[str] = " \u00a0\u202f\u2009'\u2019"
+_SCIENTIFIC_RE = re.compile(r"(?:\d+(?:\.\d*)?|\.\d+)[eE][+-]?\d+")
+
+
+def _grouped(int_part: str, separators: str) -> str | None:
+    """``int_part`` without its group separators when it is 1-3 digits followed by groups of
+    exactly three (``1,234,567``), else None."""
+    groups = re.split(f"[{re.escape(separators)}]", int_part)
+    if len(groups) < 2 or not all(g.isdigit() for g in groups):
+        return None
+    if not 1 <= len(groups[0]) <= 3 or groups[0].startswith("0"):
+        return None
+    if any(len(g) != 3 for g in groups[1:]):
+        return None
+    return "".join(groups)
+
+
+def _number_parts(s: str, decimal_sign: str | None, whole: bool) -> tuple[str, str] | str:
+    """(integer digits, fraction digits) of a number written with group separators and a
+    decimal sign, or a reason why it cannot be read."""
+    spaced = [ch for ch in GROUP_SPACES if ch in s]
+    marks = [ch for ch in s if ch in ",."]
+    if len(set(spaced)) > 1:
+        return "two kinds of digit-group separator"
+    if len(set(marks)) == 2:  # '1.234,50', '1,234.50': the last mark is the decimal sign
+        dec = marks[-1]
+        if s.count(dec) > 1:
+            return "a decimal sign written twice"
+        group = "," if dec == "." else "."
+        if spaced:
+            return "two kinds of digit-group separator"
+        int_part, frac = s.split(dec)
+        digits = _grouped(int_part, group)
+        return (digits, frac) if digits is not None and frac.isdigit() else "malformed groups"
+    if len(marks) > 1:  # '1.234.567', '1,20,0': the mark separates groups
+        if spaced:
+            return "two kinds of digit-group separator"
+        digits = _grouped(s, marks[0])
+        return (digits, "") if digits is not None else "malformed digit groups"
+    if marks:
+        mark = marks[0]
+        int_part, frac = s.split(mark)
+        if not frac.isdigit():
+            return "no digits after the decimal sign"
+        looks_grouped = not spaced and len(frac) == 3 and _grouped(s, mark) is not None
+        if looks_grouped and (whole or (decimal_sign is not None and decimal_sign != mark)):
+            return (int_part + frac, "")
+        if looks_grouped and decimal_sign is None:
+            return (
+                f"ambiguous: {mark!r} before three digits may be a decimal sign or a "
+                "thousands separator"
+            )
+    else:
+        int_part, frac = s, ""
+    if spaced:
+        digits = _grouped(int_part, "".join(spaced))
+        if digits is None:
+            return "malformed digit groups"
+        return (digits, frac)
+    return (int_part, frac) if int_part.isdigit() or (not int_part and frac) else "not a number"
+
+
+def parse_number(
+    text: str | float | int,
+    decimal_sign: str | None = None,
+    whole: bool = False,
+    what: str = "a number",
+) -> float:
+    """A plain number as written in a table cell: a decimal point or a decimal comma, and
+    digit groups separated by a space, an apostrophe, a comma or a point.
+
+    ISO 80000-1:2009 7.3.1 [S]: the decimal sign is a comma or a point; groups of three digits
+    may be separated by a (small) space. Trade exports also separate groups by a comma
+    (``1,200``), a point (``1.200``) or an apostrophe (``1'200``) (common practice, no source).
+    A cell with one ``,`` or ``.`` before exactly three digits (``1,234``) is ambiguous: it is
+    read with ``decimal_sign`` (the file's, see :func:`decimal_sign_of`) and refused when that
+    is None. ``whole=True`` (counts, quantities, minimum orders) reads such a mark as a
+    thousands separator and refuses a result that is not a whole number (``1,2``).
+
+    >>> parse_number("1.234,50", ",")
+    1234.5
+    >>> parse_number("1,200", whole=True), parse_number("1 200", whole=True)
+    (1200.0, 1200.0)
+    >>> parse_number("0,21")
+    0.21
+    """
+    if isinstance(text, bool):
+        raise BadValueError(f"cannot read {text!r} as {what}")
+    if isinstance(text, (int, float)):
+        value = float(text)
+    else:
+        raw = str(text)
+        s = raw.strip()
+        sign = -1.0 if s.startswith("-") else 1.0
+        s = s[1:].strip() if s[:1] in "+-" else s
+        shown = raw if len(raw) <= 40 else raw[:40] + "..."
+        if _SCIENTIFIC_RE.fullmatch(s):
+            value = sign * float(s)
+        else:
+            parts = _number_parts(s, decimal_sign, whole) if s else "empty"
+            if isinstance(parts, str):
+                raise BadValueError(
+                    f"cannot read {shown!r} as {what}: {parts}; write it like '1200', "
+                    "'1,200', '1.200', '1 200' (whole) or '0.21', '0,21', '1.234,50'"
+                )
+            value = sign * float(f"{parts[0] or '0'}.{parts[1] or '0'}")
+        if whole and math.isfinite(value) and not value.is_integer():
+            raise BadValueError(
+                f"cannot read {shown!r} as {what}: a whole number is wanted (thousands are "
+                "separated by groups of three digits: '1,200', '1.200', '1 200')"
+            )
+    if not math.isfinite(value):
+        raise BadValueError(f"{what} must be finite, got {text!r}")
+    return value
+
+
+def decimal_evidence(text: str) -> str | None:
+    """The decimal sign a cell shows beyond doubt (``'0,21'`` -> ``,``, ``'1,234.5'`` -> ``.``),
+    None when it shows none (``'12'``, ``'1,234'``)."""
+    s = str(text).strip().lstrip("+-")
+    marks = [ch for ch in s if ch in ",."]
+    if len(set(marks)) == 2:
+        return marks[-1]
+    if len(marks) != 1:
+        return None
+    parts = _number_parts(s, None, False)
+    return marks[0] if isinstance(parts, tuple) and parts[1] else None
+
+
+def decimal_sign_of(texts: Iterable[str], delimiter: str | None = None) -> str | None:
+    """The decimal sign of a file's column of prices, decided once for the file.
+
+    The cells that show their decimal sign beyond doubt decide (``0,21``, ``1.234,50``: comma;
+    ``0.21``, ``1,234.50``: point); when none does, a ``;``-delimited file (the export of a
+    spreadsheet set up for a decimal comma) has a comma and any other file a point
+    (common practice, no source). Cells showing both signs: None, so that an ambiguous cell
+    is refused rather than guessed.
+
+    >>> decimal_sign_of(["0,21", "1.234"], ";"), decimal_sign_of(["1.234"], ",")
+    (',', '.')
+    """
+    seen = {sign for sign in map(decimal_evidence, texts) if sign}
+    if len(seen) == 2:
+        return None
+    if seen:
+        return seen.pop()
+    return "," if delimiter == ";" else "."
+
+
+_DECIMAL_COMMA_RE = re.compile(r"(?<![\d.,])(\d+),(\d+)(?![\d]|[.,]\d)")
+
+
+def decimal_points(text: str) -> str:
+    """Free text (a part's description) with each decimal comma between digits turned into a
+    point: ``'0,47µF'`` -> ``'0.47µF'``, ``'22,5mm'`` -> ``'22.5mm'`` (ISO 80000-1:2009 7.3.1
+    [S]: the decimal sign may be a comma). A comma before exactly three digits after a
+    1-3-digit number (``'4,700µF'``) may be a thousands separator and is refused; a list
+    (``'1,2,3'``) is left alone.
+
+    >>> decimal_points("X2 0,47µF 310VAC 2,2kΩ")
+    'X2 0.47µF 310VAC 2.2kΩ'
+    """
+
+    def point(found: re.Match[str]) -> str:
+        whole, frac = found.group(1), found.group(2)
+        if len(frac) == 3 and _grouped(found.group(0), ",") is not None:
+            raise BadValueError(
+                f"{found.group(0)!r} in {text[:60]!r} is ambiguous: a comma before three digits "
+                "may be a decimal comma or a thousands separator; write it with a point or "
+                "without the separator"
+            )
+        return f"{whole}.{frac}"
+
+    return _DECIMAL_COMMA_RE.sub(point, text)
+
+
 _DURATION_RE = re.compile(rf"^(?P<num>{_NUMBER})\s*(?P<prefix>k)?\s*(?P<unit>[a-z]*)$")
 _DURATION_SPELLINGS: Final[dict[str, str]] = {
     "s": "s", "sec": "s", "min": "min", "h": "h", "hr": "h", "hrs": "h", "hour": "h",

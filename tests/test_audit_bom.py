@@ -192,15 +192,44 @@ def test_utf16_without_bom_is_refused(tmp_path):
         read_bom(p)
 
 
-def test_latin1_is_refused_naming_row_and_column(tmp_path):
-    text = "Ref,Value,Description\nC1,0.22µF,X2 305VAC\nR1,470 kΩ,\n"
+def test_text_that_is_not_utf8_is_read_as_windows_1252_and_said(tmp_path):
+    # Python codecs docs, standard encodings: cp1252 maps 0xB5 to U+00B5 MICRO SIGN and
+    # 0xA0 to NO-BREAK SPACE; 0xB5 alone is not valid UTF-8 (RFC 3629: a lone continuation byte)
+    text = "Ref,Value,Description\nC1,0.22µF,X2 305VAC\nR1,470 kR,\n"
     p = tmp_path / "bom.csv"
-    p.write_bytes(text.replace("Ω", "R").encode("latin-1"))
+    p.write_bytes(text.encode("cp1252"))
+    t = read_bom(p)
+    assert t.encoding == "cp1252" and t.parts[0].value == "0.22µF"
+    assert any("Windows-1252" in n and "0xb5 on row 2" in n for n in t.notes)
+
+
+def test_a_byte_undefined_in_windows_1252_is_refused_naming_row_and_column(tmp_path):
+    # Python codecs docs: cp1252 leaves 0x81, 0x8D, 0x8F, 0x90 and 0x9D undefined
+    p = tmp_path / "bom.csv"
+    p.write_bytes(b"Ref,Value,Description\nC1,0.22\xb5F,X2\nR1,470\x81,\n")
     with pytest.raises(BadRowError) as info:
         read_bom(p)
     e = info.value
-    assert (e.row, e.column) == (2, "Value")
-    assert "--encoding latin-1" in str(e) and "0xb5" in str(e)
+    assert (e.row, e.column) == (3, "Value")
+    assert "0x81" in str(e) and "--encoding" in str(e)
+
+
+def test_utf16_big_endian_keeps_its_byte_order(tmp_path):
+    p = tmp_path / "bom.csv"
+    p.write_bytes(codecs.BOM_UTF16_BE + SIMPLE.encode("utf-16-be"))
+    t = read_bom(p)
+    assert t.encoding == "utf-16-be" and any("big-endian" in n for n in t.notes)
+
+
+def test_quantity_with_a_thousands_separator(tmp_path):
+    # ISO 80000-1:2009 7.3.1: digits may be grouped in threes; a comma between groups is
+    # common practice in trade exports (no source); '1,2' is not a whole number
+    refs = ",".join(f"R{i}" for i in range(1, 1201))
+    p = _write(tmp_path, "q.csv", f'Ref,Qty,Value\n"{refs}","1,200",47R\n')
+    assert len(read_bom(p).parts) == 1200
+    p = _write(tmp_path, "q2.csv", 'Ref,Qty,Value\n"R1,R2","1,2",47R\n')
+    with pytest.raises(BadRowError, match="row 2, column 'Qty'.*whole number"):
+        read_bom(p)
 
 
 def test_latin1_reads_when_named(tmp_path):

@@ -152,6 +152,13 @@ def test_utf16_with_bom_is_read(catalogue_url, tmp_path):
     assert invoke(str(p), "--db", catalogue_url).exit_code == 0
 
 
+def test_unknown_encoding_is_exit_2(tmp_path):
+    p = tmp_path / "bom.csv"
+    p.write_text(SOUND, encoding="utf-8")
+    result = invoke(str(p), "--encoding", "klingon-8")
+    assert result.exit_code == 2 and "unknown encoding 'klingon-8'" in result.output
+
+
 def test_utf16_without_bom(tmp_path):
     p = tmp_path / "bom.csv"
     p.write_bytes(SOUND.encode("utf-16-le"))
@@ -161,8 +168,12 @@ def test_utf16_without_bom(tmp_path):
 def test_latin1(catalogue_url, tmp_path):
     p = tmp_path / "bom.csv"
     p.write_bytes(SOUND.replace("105°C", "105°C").encode("latin-1"))
-    line = _bad(invoke(str(p)))
-    assert "row 9, column 'Description'" in line and "--encoding latin-1" in line
+    result = invoke(str(p), "--db", catalogue_url)  # read as Windows-1252, and said in one line
+    assert result.exit_code == 0
+    assert [ln for ln in result.stdout.splitlines() if "Windows-1252" in ln] == [
+        "Note: file is not UTF-8 (byte 0xb0 on row 9): read as Windows-1252 (cp1252); "
+        "name another with --encoding"
+    ]
     assert invoke(str(p), "--encoding", "latin-1", "--db", catalogue_url).exit_code == 0
 
 

@@ -161,12 +161,28 @@ def test_snap_csv_writes_a_new_file_by_default(tmp_path):
         # UTF-16 with its byte-order mark, CR line ends
         ("ref,computed\rC1,70.1n\r".encode("utf-16"),
          "ref,computed,computed_E12_nearest\rC1,70.1n,6.8e-08\r".encode("utf-16"), None),
+        # UTF-16 big-endian (byte-order mark FE FF, Python codecs docs / Unicode 15 section
+        # 23.8): written back big-endian, not in the machine's byte order; also when the user
+        # names plain "utf-16"
+        (b"\xfe\xff" + "ref,computed\nC1,70.1n\n".encode("utf-16-be"),
+         b"\xfe\xff" + "ref,computed,computed_E12_nearest\nC1,70.1n,6.8e-08\n".encode("utf-16-be"),
+         None),
+        (b"\xfe\xff" + "ref,computed\nC1,70.1n\n".encode("utf-16-be"),
+         b"\xfe\xff" + "ref,computed,computed_E12_nearest\nC1,70.1n,6.8e-08\n".encode("utf-16-be"),
+         "utf-16"),
+        # UTF-16 little-endian with FF FE stays little-endian
+        (b"\xff\xfe" + "ref,computed\nC1,70.1n\n".encode("utf-16-le"),
+         b"\xff\xfe" + "ref,computed,computed_E12_nearest\nC1,70.1n,6.8e-08\n".encode("utf-16-le"),
+         None),
+        # a Latin-1 micro sign without --encoding: read and written back as Windows-1252
+        ("Bauteil;Wert\nC1;4.7\xb5F\n".encode("cp1252"),
+         "Bauteil;Wert;Wert_E12_nearest\nC1;4.7\xb5F;4.7e-06\n".encode("cp1252"), None),
     ],
 )  # fmt: skip
 def test_snap_in_place_keeps_encoding_bom_line_ends_headers(tmp_path, original, expected, encoding):
     path = tmp_path / "calc.csv"
     path.write_bytes(original)
-    column = "Wert" if encoding == "cp1252" else "computed"
+    column = "Wert" if b"Wert" in original else "computed"
     args = ["snap", str(path), "--column", column, "--in-place"]
     if encoding:
         args += ["--encoding", encoding]

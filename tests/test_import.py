@@ -422,13 +422,15 @@ def test_ignored_column_by_map(engine, tmp_path):
     assert [m.field for m in result.mapping][-1] is None
 
 
-def test_text_that_is_not_utf8_is_refused_with_its_line(engine, tmp_path):
+def test_text_that_is_not_utf8_is_read_as_windows_1252(engine, tmp_path):
+    # Python codecs docs: cp1252 (Windows-1252) maps 0xB5 to MICRO SIGN U+00B5
     path = tmp_path / "latin1.csv"
     path.write_bytes(
         "SKU,Family,Value,Price\nA,x2-film,330n,0.2\nB,x2-film,1µ,0.3\n".encode("latin-1")
     )
-    with pytest.raises(BadRowError, match=r"row 3: not UTF-8 text"):
-        import_stock(engine, path)
+    result = import_stock(engine, path)
+    assert result.inserted == 2 and result.encoding == "cp1252"
+    assert "Windows-1252" in result.encoding_note and "row 3" in result.encoding_note
 
 
 @settings(

@@ -37,7 +37,8 @@ from typing import Final
 
 from ..errors import BadRowError, BadValueError
 from ..ranges import check_count
-from .bom_cells import _decode, _read_text_rows, _read_xlsx_rows
+from ..units import parse_number
+from .bom_cells import _read_text_rows, _read_xlsx_rows, decode_text
 from .bom_headers import FIELDS, HEADER_SPELLINGS, _find_header, map_headers
 from .bom_refs import expand_refs
 
@@ -134,7 +135,7 @@ def read_bom(
         if sheet is not None:
             raise BadValueError("--sheet applies to XLSX workbooks only")
         raw = path.read_bytes()
-        text, enc, notes = _decode(path, raw, encoding)
+        text, enc, notes = decode_text(path, raw, encoding)
         if not text.strip():
             raise BadRowError(name, None, None, "the file is empty")
         rows = _read_text_rows(path, text)
@@ -205,13 +206,13 @@ def read_bom(
         if qty_text:
             shown = qty_text if len(qty_text) <= 40 else qty_text[:40] + "..."
             try:
-                qty_n = check_count(float(qty_text.replace(",", ".")), "quantity")
-            except (ValueError, OverflowError):  # BadValueError is a ValueError
+                qty_n = check_count(parse_number(qty_text, whole=True), "quantity")
+            except (ValueError, OverflowError) as exc:  # BadValueError is a ValueError
                 raise BadRowError(
                     name,
                     line,
                     column_map["qty"],
-                    f"quantity {shown!r} is not a whole number from 0 to 1e9",
+                    f"quantity {shown!r} is not a whole number from 0 to 1e9 ({exc})",
                 ) from None
             qty_f = float(qty_n)
             if int(qty_f) == 0:

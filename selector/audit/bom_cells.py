@@ -18,8 +18,15 @@ from ..errors import BadRowError, BadValueError
 from .bom_headers import _find_header, map_headers
 
 
-def _decode(path: Path, raw: bytes, encoding: str | None) -> tuple[str, str, list[str]]:
-    """(text, encoding used, notes). Refuses to guess."""
+def decode_text(path: Path, raw: bytes, encoding: str | None) -> tuple[str, str, list[str]]:
+    """(text, encoding used, notes): the one decoder of BOMs, stock lists and snapped files.
+
+    ``encoding`` forces one (an unknown name is a BadValueError). Otherwise a UTF-8 or UTF-16
+    byte-order mark decides (UTF-16 as ``utf-16-le`` / ``utf-16-be``, so that a writer can keep
+    the byte order), then UTF-8, then Windows-1252 (``cp1252``), the single-byte fallback, which
+    is said in the notes. NUL bytes without a byte-order mark (UTF-16 saved without one) are
+    refused. Codec behaviour as in Python's ``codecs`` documentation (standard encodings
+    ``utf_8_sig``, ``utf_16``, ``cp1252``)."""
     notes: list[str] = []
     if encoding is not None:
         try:
@@ -28,17 +35,24 @@ def _decode(path: Path, raw: bytes, encoding: str | None) -> tuple[str, str, lis
             raise BadValueError(
                 f"unknown encoding {encoding!r}; e.g. utf-8, latin-1, cp1252, utf-16"
             ) from None
+        if codecs.lookup(encoding).name == "utf-16" and raw.startswith(
+            (codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)
+        ):
+            encoding = "utf-16-le" if raw.startswith(codecs.BOM_UTF16_LE) else "utf-16-be"
         try:
             text = raw.decode(encoding)
         except UnicodeDecodeError as exc:
             _raise_decode(path, raw, exc, encoding)
+        if codecs.lookup(encoding).name not in ("utf-8", "utf-8-sig"):
+            notes.append(f"file read as {encoding} (--encoding)")
         return text.removeprefix("\ufeff"), encoding, notes
     if raw.startswith(codecs.BOM_UTF8):
         notes.append("file is UTF-8 with a byte-order mark (read as such)")
         enc = "utf-8-sig"
     elif raw.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
-        notes.append("file is UTF-16 with a byte-order mark (read as such)")
-        enc = "utf-16"
+        enc = "utf-16-le" if raw.startswith(codecs.BOM_UTF16_LE) else "utf-16-be"
+        order = "little" if enc.endswith("le") else "big"
+        notes.append(f"file is UTF-16 ({order}-endian) with a byte-order mark (read as such)")
     elif b"\x00" in raw:
         line = raw[: raw.index(b"\x00")].count(b"\n") + 1
         raise BadRowError(
@@ -53,7 +67,18 @@ def _decode(path: Path, raw: bytes, encoding: str | None) -> tuple[str, str, lis
     try:
         text = raw.decode(enc)
     except UnicodeDecodeError as exc:
-        _raise_decode(path, raw, exc, enc)
+        if enc != "utf-8":
+            _raise_decode(path, raw, exc, enc)
+        try:
+            text = raw.decode("cp1252")
+        except UnicodeDecodeError as exc2:
+            _raise_decode(path, raw, exc2, "cp1252")
+        enc = "cp1252"
+        row = raw.count(b"\n", 0, exc.start) + 1
+        notes.append(
+            f"file is not UTF-8 (byte 0x{raw[exc.start : exc.start + 1].hex()} on row {row}): "
+            "read as Windows-1252 (cp1252); name another with --encoding"
+        )
     return text.removeprefix("\ufeff"), enc, notes
 
 
@@ -82,8 +107,13 @@ def _raise_decode(path: Path, raw: bytes, exc: UnicodeDecodeError, enc: str) -> 
         str(path),
         row,
         column,
-        f"byte 0x{byte} is not {enc} text (Latin-1 or Windows-1252?); "
-        "re-save the file as UTF-8 or pass --encoding latin-1 (or cp1252)",
+        (
+            f"byte 0x{byte} is neither UTF-8 nor Windows-1252 (cp1252) text; re-save the "
+            "file as UTF-8 or name its encoding with --encoding (e.g. latin-1, cp1250)"
+            if enc == "cp1252"
+            else f"byte 0x{byte} is not {enc} text (Latin-1 or Windows-1252?); "
+            "re-save the file as UTF-8 or pass --encoding latin-1 (or cp1252)"
+        ),
     )
 
 

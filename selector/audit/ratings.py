@@ -28,7 +28,7 @@ from dataclasses import dataclass, field
 from typing import Final
 
 from ..errors import BadValueError
-from ..units import parse_tolerance, parse_value
+from ..units import decimal_points, parse_tolerance, parse_value
 
 __all__ = ["KINDS", "STATED_FIELDS", "Ratings", "apply_stated_ratings", "kind_of", "read_ratings"]
 
@@ -316,6 +316,13 @@ def read_ratings(
     >>> (r.kind, r.value, r.rated_voltage_ac_v, r.safety_class, r.tolerance)
     ('x_capacitor', 4.7e-07, 305.0, 'X2', 0.1)
     """
+    # a decimal comma between digits ('0,47µF', '0,6W') is a decimal point to the finders below
+    try:
+        value, description, voltage, power, tolerance = (
+            decimal_points(t) for t in (value, description, voltage, power, tolerance)
+        )
+    except BadValueError as exc:
+        raise BadValueError(f"description: {exc}") from None
     text = " ".join(t for t in (value, description, package, voltage, power, tolerance) if t)
     up = text.upper()
     if kind is None:

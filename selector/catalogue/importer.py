@@ -48,8 +48,10 @@ from sqlalchemy import Engine
 from sqlalchemy.orm import Session
 
 from ..errors import BadRowError, BadValueError, CatalogueError
+from ..units import decimal_sign_of
 from .stock_described import SOURCES
 from .stock_families import FamilyInfo, catalogue_families, recognise_family
+from .stock_prices import price_text
 from .stock_reading import (
     FIELD_SPELLINGS,
     FIELDS,
@@ -58,6 +60,7 @@ from .stock_reading import (
     cell_text,
     map_columns,
     read_cells,
+    read_table,
 )
 from .stock_rows import Lookup, StockRow, set_working_voltages, stock_code, validate_row
 from .stock_writing import write_stock_rows
@@ -75,6 +78,7 @@ __all__ = [
     "import_stock",
     "map_columns",
     "read_cells",
+    "read_table",
     "recognise_family",
     "stock_code",
 ]
@@ -119,6 +123,18 @@ class ImportResult:
     accepted_rows: list[StockRow] = field(default_factory=list)
     #: parts column -> source (column, description, family, none) -> accepted rows
     provenance: dict[str, dict[str, int]] = field(default_factory=dict)
+    #: the text encoding the file was read in ("xlsx" for a workbook) and what the decoder said
+    encoding: str = "utf-8"
+    encoding_notes: list[str] = field(default_factory=list)
+    #: the decimal sign its prices were read with (None: ambiguous cells refused)
+    decimal_sign: str | None = "."
+
+    @property
+    def encoding_note(self) -> str | None:
+        """One line when the file was not read as UTF-8 (or a workbook), else None."""
+        if self.encoding in ("utf-8", "utf-8-sig", "xlsx"):
+            return None
+        return "; ".join(self.encoding_notes) or f"file read as {self.encoding}"
 
     def count_sources(self, row: StockRow) -> None:
         """Add one accepted row's figure sources to :attr:`provenance`."""
@@ -156,6 +172,9 @@ class ImportResult:
             "refused": len(self.problems),
             "written": self.written,
             "dry_run": self.dry_run,
+            "encoding": self.encoding,
+            "encoding_note": self.encoding_note,
+            "decimal_sign": self.decimal_sign,
             "families": dict(sorted(self.families.items())),
             "provenance": {
                 column: dict(counts) for column, counts in sorted(self.provenance.items())
@@ -224,6 +243,7 @@ def import_stock(
     merge: bool = False,
     rates: Mapping[str, float] | None = None,
     keep_rows: bool = False,
+    encoding: str | None = None,
 ) -> ImportResult:
     """Import a stock list into the catalogue behind ``engine`` (see the module doc).
 
@@ -233,7 +253,10 @@ def import_stock(
     ``merge``: keep the supplier's rows the file does not hold (default: withdraw them);
     ``rates``: currency code -> catalogue-currency units per unit of it; a row priced in a
     currency other than the catalogue's (EUR) without a rate, or in two currencies, is refused;
-    ``keep_rows``: keep the accepted rows in ``result.accepted_rows`` (for a preview).
+    ``keep_rows``: keep the accepted rows in ``result.accepted_rows`` (for a preview);
+    ``encoding``: the text file's encoding (default: UTF-8, a byte-order mark, else
+    Windows-1252). Prices are read with one decimal sign for the whole file
+    (:func:`selector.units.decimal_sign_of` over the price cells).
     Returns an :class:`ImportResult`; when rows failed and ``partial`` is false, nothing is
     written and ``result.problems`` lists every failure (file, row, column).
     Raises :class:`BadRowError` when the file itself cannot be used (no header, no supplier
@@ -246,7 +269,8 @@ def import_stock(
     for code, rate in (rates or {}).items():
         if not (isinstance(rate, (int, float)) and math.isfinite(rate) and rate > 0):
             raise BadValueError(f"--rate {code}: the rate must be a number > 0, got {rate!r}")
-    rows = read_cells(file, sheet)
+    table = read_table(file, sheet, encoding)
+    rows = table.rows
     if not rows:
         raise BadRowError(str(file), None, None, "the file is empty")
     header_no, header = rows[0]
@@ -281,6 +305,18 @@ def import_stock(
         )
     body = rows[1:]
     result = ImportResult(str(file), name, len(body), mapping, dry_run=dry_run, merge=merge)
+    result.encoding, result.encoding_notes = table.encoding, list(table.notes)
+    price_columns = [columns[f] for f in ("unit_price",) if f in columns]
+    price_columns += [index for index, _, _ in break_columns]
+    result.decimal_sign = decimal_sign_of(
+        (
+            price_text(cells[i])
+            for _, cells in body
+            for i in price_columns
+            if i < len(cells) and isinstance(cells[i], str)
+        ),
+        table.delimiter,
+    )
     refused_codes: set[str] = set()
     total = 2 * len(body)
     good: list[StockRow] = []
@@ -294,7 +330,7 @@ def import_stock(
             try:
                 row = validate_row(
                     str(file), number, cells, columns, break_columns, lookup, name, qty, currency,
-                    headers, rates,
+                    headers, rates, result.decimal_sign,
                 )  # fmt: skip
                 first = seen_codes.get(row.values["code"])
                 if first is not None:

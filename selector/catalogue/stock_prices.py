@@ -17,6 +17,7 @@ from typing import Any, Final
 
 from ..errors import BadValueError
 from ..ranges import check_count
+from ..units import GROUP_SPACES, parse_number
 from .stock_reading import cell_text
 
 #: the catalogue's currency: the built-in demo prices are in it (catalogue/price_model.toml)
@@ -32,31 +33,42 @@ def cell_currency(cell: Any) -> str | None:
     for sign, code in CURRENCY_SIGNS.items():
         if sign in text:
             return code
-    found = re.fullmatch(r"\s*([A-Za-z]{3})?\s*[\d.,]+\s*([A-Za-z]{3})?\s*", text)
+    found = re.fullmatch(
+        rf"\s*([A-Za-z]{{3}})?\s*[\d.,{GROUP_SPACES}]+\s*([A-Za-z]{{3}})?\s*", text
+    )
     if found and (found.group(1) or found.group(2)):
         return (found.group(1) or found.group(2)).upper()
     return None
 
 
-def number(cell: Any, what: str) -> float:
-    """A cell as a number >= 0 (currency signs and codes dropped, one decimal comma allowed)."""
+def price_text(cell: Any) -> str:
+    """A price cell's text without its currency sign or ISO code (``'$0.12'`` -> ``'0.12'``)."""
+    text = cell_text(cell).replace("€", "").replace("$", "").replace("£", "").strip()
+    return re.sub(r"^[A-Za-z]{3}\s*|\s*[A-Za-z]{3}$", "", text)
+
+
+def number(cell: Any, what: str, decimal_sign: str | None = ".") -> float:
+    """A cell as a number >= 0 (currency signs and codes dropped), read by
+    :func:`selector.units.parse_number` with the file's ``decimal_sign`` (``1.234,50`` with a
+    decimal comma; an ambiguous ``1,234`` is refused when the file's sign is None)."""
     if isinstance(cell, (int, float)) and not isinstance(cell, bool):
         value = float(cell)
     else:
-        text = cell_text(cell).replace("€", "").replace("$", "").replace("£", "").strip()
-        text = re.sub(r"^[A-Za-z]{3}\s*|\s*[A-Za-z]{3}$", "", text)
-        if text.count(",") == 1 and "." not in text:
-            text = text.replace(",", ".")  # decimal comma
-        try:
-            value = float(text)
-        except ValueError:
-            raise BadValueError(f"cannot read {cell_text(cell)!r} as {what}") from None
+        value = parse_number(price_text(cell), decimal_sign, what=what)
     if not math.isfinite(value) or value < 0:
         raise BadValueError(f"{what} must be a number >= 0, got {cell_text(cell)!r}")
     return value
 
 
-def parse_breaks(cell: Any) -> list[tuple[int, float]]:
+def count(cell: Any, what: str) -> int:
+    """A cell as a whole number of pieces (stock, minimum order): ``1,200``, ``1.200``,
+    ``1 200`` and ``1'200`` are 1200 (:func:`selector.units.parse_number` with ``whole``)."""
+    if isinstance(cell, (int, float)) and not isinstance(cell, bool):
+        return check_count(cell, what)
+    return check_count(parse_number(cell_text(cell), whole=True, what=what), what)
+
+
+def parse_breaks(cell: Any, decimal_sign: str | None = ".") -> list[tuple[int, float]]:
     """``"1:0.12; 10:0.10; 100:0.08"`` (also ``1=0.12``, ``1+ 0.12``) -> [(1, 0.12), ...]."""
     breaks = []
     for chunk in re.split(r"[;|]", cell_text(cell)):
@@ -68,7 +80,7 @@ def parse_breaks(cell: Any) -> list[tuple[int, float]]:
             raise BadValueError(
                 f"cannot read price break {chunk!r}; write them like '1:0.12; 10:0.10'"
             )
-        breaks.append((int(found.group(1)), number(found.group(2), "a price")))
+        breaks.append((int(found.group(1)), number(found.group(2), "a price", decimal_sign)))
     return breaks
 
 
@@ -85,7 +97,7 @@ def row_min_order(row: Any) -> int | None:
     if not row.text("min_order_qty"):
         return None
     try:
-        moq = check_count(number(row.cell("min_order_qty"), "a minimum order"), "a minimum order")
+        moq = count(row.cell("min_order_qty"), "a minimum order")
     except BadValueError as exc:
         raise row.fail("min_order_qty", str(exc)) from None
     if moq < 1:

@@ -109,28 +109,47 @@ class ColumnMatch:
     min_qty: int | None = None
 
 
-def read_cells(path: str | Path, sheet: str | None = None) -> list[tuple[int, list[Any]]]:
-    """The non-blank rows of a CSV, TSV or XLSX file as ``(row number, cells)``.
+@dataclass(frozen=True)
+class CellTable:
+    """A stock list read: its non-blank rows, the CSV delimiter (None for XLSX), the text
+    encoding used (``"xlsx"`` for a workbook) and what the decoder noted."""
+
+    rows: list[tuple[int, list[Any]]]
+    delimiter: str | None
+    encoding: str
+    notes: list[str]
+
+
+def read_cells(
+    path: str | Path, sheet: str | None = None, encoding: str | None = None
+) -> list[tuple[int, list[Any]]]:
+    """The non-blank rows of a CSV, TSV or XLSX file as ``(row number, cells)`` (see
+    :func:`read_table`)."""
+    return read_table(path, sheet, encoding).rows
+
+
+def read_table(
+    path: str | Path, sheet: str | None = None, encoding: str | None = None
+) -> CellTable:
+    """A CSV, TSV or XLSX file as a :class:`CellTable`.
 
     Row numbers are the file's own, counted from 1. XLSX cells keep their type (numbers stay
-    numbers); CSV/TSV cells are text. Raises :class:`BadRowError` when the file cannot be read.
+    numbers); CSV/TSV cells are text, decoded by the BOM reader's decoder
+    (:func:`selector.audit.bom_cells.decode_text`: UTF-8, a UTF-8/UTF-16 byte-order mark, else
+    Windows-1252, or ``encoding``). Raises :class:`BadRowError` when the file cannot be read.
     """
+    from ..audit.bom_cells import decode_text
+
     file = Path(path)
     if not file.is_file():
         raise BadValueError(f"{file}: no such file")
     suffix = file.suffix.lower()
     if suffix in (".xlsx", ".xlsm"):
-        return _read_xlsx(file, sheet)
+        return CellTable(_read_xlsx(file, sheet), None, "xlsx", [])
     if suffix in (".xls", ".ods"):
         raise BadRowError(str(file), None, None, "save it as .xlsx, .csv or .tsv to import it")
     raw = file.read_bytes()
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = raw[: exc.start].count(b"\n") + 1
-        raise BadRowError(
-            str(file), line, None, "not UTF-8 text; save it as UTF-8 (CSV UTF-8) to import it"
-        ) from None
+    text, used, notes = decode_text(file, raw, encoding)
     if suffix == ".tsv" or suffix == ".tab":
         delimiter = "\t"
     else:
@@ -147,7 +166,7 @@ def read_cells(path: str | Path, sheet: str | None = None) -> list[tuple[int, li
                 rows.append((reader.line_num, cells))
     except csv.Error as exc:
         raise BadRowError(str(file), reader.line_num, None, f"cannot read as CSV: {exc}") from None
-    return rows
+    return CellTable(rows, delimiter, used, notes)
 
 
 def _read_xlsx(file: Path, sheet: str | None) -> list[tuple[int, list[Any]]]:

@@ -23,7 +23,7 @@ from ..audit.fill import x_subclass
 from ..audit.ratings import Ratings
 from ..errors import BadRowError, BadValueError, CatalogueError
 from ..ranges import check_count, check_range
-from ..units import parse_tolerance, parse_value
+from ..units import decimal_points, parse_tolerance, parse_value
 from .build import resistor_working_voltage
 from .models import VALUE_UNITS, Part
 from .row_ranges import escape_controls, has_controls, out_of_range_columns
@@ -38,6 +38,7 @@ from .stock_described import (
 from .stock_families import AmbiguousFamilyError, FamilyInfo, recognise_family
 from .stock_prices import (
     CATALOGUE_CURRENCY,
+    count,
     number,
     parse_breaks,
     price_at,
@@ -221,6 +222,8 @@ class _RowCells:
     cells: Sequence[Any]
     columns: Mapping[str, int]
     headers: Sequence[str]
+    #: the file's decimal sign for prices (selector.units.decimal_sign_of)
+    decimal_sign: str | None = "."
 
     def cell(self, field_name: str) -> Any:
         index = self.columns.get(field_name)
@@ -246,6 +249,10 @@ def _row_family(row: _RowCells, lookup: Lookup) -> FamilyInfo:
     family_field = "family"
     if not family_text:
         family_text, family_field = row.text("description"), "description"
+        try:  # '0,5W' names the family as '0.5W' does (ISO 80000-1 decimal comma)
+            family_text = decimal_points(family_text)
+        except BadValueError:
+            pass  # an ambiguous number: the description reader refuses it below
     if not family_text:
         raise row.fail("family" if "family" in row.columns else None, "no family (nor description)")
     try:
@@ -308,11 +315,7 @@ def _row_stock(row: _RowCells) -> int | None:
     if not row.text("stock"):
         return None
     try:
-        stock = number(row.cell("stock"), "a stock count")
-    except BadValueError as exc:
-        raise row.fail("stock", str(exc)) from None
-    try:
-        return check_count(stock, "a stock count")
+        return count(row.cell("stock"), "a stock count")
     except BadValueError as exc:
         raise row.fail("stock", str(exc)) from None
 
@@ -327,17 +330,17 @@ def _row_price_breaks(
         cell = row.cells[index] if index < len(row.cells) else ""
         if cell_text(cell):
             try:
-                breaks.append((min_qty, number(cell, "a price")))
+                breaks.append((min_qty, number(cell, "a price", row.decimal_sign)))
             except BadValueError as exc:
                 raise BadRowError(row.file, row.number, header, str(exc)) from None
     if row.text("price_breaks"):
         try:
-            breaks.extend(parse_breaks(row.cell("price_breaks")))
+            breaks.extend(parse_breaks(row.cell("price_breaks"), row.decimal_sign))
         except BadValueError as exc:
             raise row.fail("price_breaks", str(exc)) from None
     if row.text("unit_price"):
         try:
-            single = number(row.cell("unit_price"), "a price")
+            single = number(row.cell("unit_price"), "a price", row.decimal_sign)
         except BadValueError as exc:
             raise row.fail("unit_price", str(exc)) from None
         if not any(min_qty == 1 for min_qty, _ in breaks):
@@ -371,14 +374,16 @@ def validate_row(
     currency: str,
     headers: Sequence[str],
     rates: Mapping[str, float] | None = None,
+    decimal_sign: str | None = ".",
 ) -> StockRow:
     """One row of the file (``number`` is the file's own) as a :class:`StockRow`.
 
     ``columns`` maps a field to its column index, ``break_columns`` lists (index, min qty,
     header) of the price-break columns; ``qty`` is the order quantity whose price becomes the
-    unit price. Raises :class:`BadRowError` on the first problem.
+    unit price; ``decimal_sign`` is the file's for its prices (None: refuse ambiguous cells).
+    Raises :class:`BadRowError` on the first problem.
     """
-    row = _RowCells(file, number, cells, columns, headers)
+    row = _RowCells(file, number, cells, columns, headers, decimal_sign)
     rates = {code.upper(): rate for code, rate in (rates or {}).items()}
     code_text = row.text("supplier_code")
     if not code_text:

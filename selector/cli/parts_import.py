@@ -40,7 +40,10 @@ def _parse_rates(items: list[str] | None) -> dict[str, float]:
         code = code.strip().upper()
         if not sep or not re.fullmatch(r"[A-Z]{3}", code):
             raise BadValueError(f"--rate {item!r}: write it as CUR=RATE, e.g. USD=0.92")
-        rate = parse_value(figure.strip())
+        try:
+            rate = parse_value(figure.strip())
+        except BadValueError as exc:
+            raise BadValueError(f"--rate {item!r}: {exc}") from None
         if not rate > 0:
             raise BadValueError(f"--rate {item!r}: the rate must be > 0")
         out[code] = rate
@@ -125,6 +128,14 @@ def import_(
         ),
     ] = None,
     sheet: Annotated[str | None, typer.Option(help="XLSX sheet (default: the first).")] = None,
+    encoding: Annotated[
+        str | None,
+        typer.Option(
+            "--encoding",
+            help="Text encoding of a CSV/TSV file (default: UTF-8 or as its byte-order mark "
+            "says, else Windows-1252).",
+        ),
+    ] = None,
     merge: Annotated[
         bool,
         typer.Option(
@@ -167,6 +178,7 @@ def import_(
             progress=bar,
             merge=merge,
             rates=_parse_rates(rate),
+            encoding=encoding,
         )
     finally:
         if bar is not None:
@@ -178,6 +190,8 @@ def import_(
     if json:
         print_json(result.to_dict())
         raise typer.Exit(code)
+    if result.encoding_note:
+        typer.echo(f"Encoding: {result.encoding_note}")
     typer.echo(f"Columns of {file.name}:")
     width = max(len(m.header) for m in result.mapping)
     for m in result.mapping:
