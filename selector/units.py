@@ -380,7 +380,8 @@ def parse_number(
                 "separated by groups of three digits: '1,200', '1.200', '1 200')"
             )
     if not math.isfinite(value):
-        raise BadValueError(f"{what} must be finite, got {text!r}")
+        shown = repr(text) if len(str(text)) <= 40 else repr(str(text)[:40] + "...")
+        raise BadValueError(f"{what} must be finite, got {shown}")
     return value
 
 

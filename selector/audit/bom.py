@@ -2,11 +2,11 @@
 
 What this module does, in order:
 
-1. **Bytes to text.** A UTF-8 or UTF-16 byte-order mark is honoured (and said so in the notes);
-   otherwise the text must be valid UTF-8, or the caller names the encoding. Text that is not
-   UTF-8 is an error naming the row and column of the first bad byte: the reader never guesses
-   between Latin-1 and Windows-1252. NUL bytes without a byte-order mark (UTF-16 saved without
-   one) are refused the same way.
+1. **Bytes to text** (:func:`.bom_cells.decode_text`, shared with the stock importer and
+   ``snap``). A UTF-8 or UTF-16 byte-order mark is honoured (and said so in the notes); other
+   text is UTF-8, or else Windows-1252 (the single-byte fallback, said in one note), or of the
+   named encoding. A byte that Windows-1252 leaves undefined is an error naming the row and
+   column. NUL bytes without a byte-order mark (UTF-16 saved without one) are refused.
 2. **Cells.** CSV and TSV through the standard ``csv`` module (the delimiter is sniffed among
    ``, ; TAB |``), so every row number in an error is the file's own line number; XLSX through
    openpyxl, which also tells which cells are merged. A workbook with several sheets needs

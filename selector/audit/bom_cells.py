@@ -1,8 +1,8 @@
 """Bytes of a BOM file to rows of cell texts: decoding, CSV/TSV sniffing and XLSX cells.
 
-Steps 1 and 2 of :mod:`.bom`: a byte-order mark is honoured, other text must be UTF-8 or of the
-named encoding (never guessed); CSV and TSV rows keep the file's own line numbers; an XLSX
-sheet is read through openpyxl, which also reports merged cells.
+Steps 1 and 2 of :mod:`.bom`: a byte-order mark is honoured, other text is UTF-8, else
+Windows-1252 (said in the notes), or of the named encoding; CSV and TSV rows keep the file's
+own line numbers; an XLSX sheet is read through openpyxl, which also reports merged cells.
 """
 
 from __future__ import annotations

@@ -156,7 +156,11 @@ RolesFileOpt = Annotated[
 SheetOpt = Annotated[str | None, typer.Option("--sheet", help="XLSX sheet holding the BOM.")]
 EncodingOpt = Annotated[
     str | None,
-    typer.Option("--encoding", help="Text encoding when it is not UTF-8 (e.g. latin-1)."),
+    typer.Option(
+        "--encoding",
+        help="Text encoding of a CSV/TSV BOM (default: UTF-8 or as its byte-order mark says, "
+        "else Windows-1252).",
+    ),
 ]
 ColumnOpt = Annotated[
     list[str] | None,
