@@ -1,7 +1,7 @@
 """The bus peak during the surge as the design search uses it (issue 11).
 
 The search rules out (Zener, reservoir) pairs by dominance after one fails the bus rule
-(selector.design.verify.dominated) and cuts points with less series resistance or more X
+(selector.design.bus_rechoice.dominated) and cuts points with less series resistance or more X
 capacitance after the strongest completion fails by more than 10 % (search.BUS_CUT_RULES). Both
 rest on the bus peak being monotone in each of these values, on the quick bound and on the full
 analysis alike. Physics behind it: the surge drives a current through the series resistance into

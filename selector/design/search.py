@@ -46,7 +46,7 @@ CUT_TOLERANCE: Final[float] = 0.005
 #: with the completion and cuts nothing.
 SURGE_CUT_TOLERANCE: Final[float] = 0.10
 #: The bus peak during the surge cuts both ways too, but only from the completion that holds
-#: the bus best (verify.strongest_pairs_pass: the largest reservoir with the Zeners of least
+#: the bus best (bus_rechoice.strongest_pairs_pass: the largest reservoir with the Zeners of least
 #: slope and tolerance): the pulse current, and with it the bus peak, rises as the series
 #: resistance falls and as the X capacitance grows (tests/test_design_bus.py checks both on
 #: the engine); the rectifier and bleeder of another point move it by far less than the
