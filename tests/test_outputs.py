@@ -132,8 +132,10 @@ def test_check_outputs_same_file_through_a_hard_link(tmp_path):
 
 
 _STAGE_AND_WAIT = """
-import sys, time
+import signal, sys, time
 from selector.outputs import Outputs
+# a run under nohup inherits SIGHUP ignored, which Outputs rightly keeps: start from the default
+signal.signal(signal.SIGHUP, signal.SIG_DFL)
 out = Outputs()
 out.write(sys.argv[1] + "/bom.csv", "a,b\\n")
 out.write(sys.argv[1] + "/report.html", "<p>x</p>" * 1000)
