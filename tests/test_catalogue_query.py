@@ -107,4 +107,4 @@ def test_stats_counts(catalogue_engine):
     assert stats["sources"] == {"builtin": n}
     assert stats["price_notes"] == {"demo price model, invented": n}
     assert stats["price_model"] == "demo price model, invented"
-    assert stats["schema_revision"] == "0007"
+    assert stats["schema_revision"] == "0008"

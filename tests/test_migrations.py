@@ -45,7 +45,7 @@ def test_empty_to_head_creates_the_tables(empty_db_url):
     try:
         assert current_revision(engine) is None
         migrate(engine)
-        assert current_revision(engine) == head_revision() == "0007"
+        assert current_revision(engine) == head_revision() == "0008"
         assert _tables(engine) == CATALOGUE_TABLES
     finally:
         engine.dispose()
@@ -139,7 +139,7 @@ def test_alembic_command_line_with_the_ini_file(tmp_path: Path):
     assert done.returncode == 0, done.stderr
     engine = make_engine(f"sqlite:///{db}")
     try:
-        assert current_revision(engine) == "0007"
+        assert current_revision(engine) == "0008"
         assert _tables(engine) == CATALOGUE_TABLES
     finally:
         engine.dispose()
@@ -207,12 +207,13 @@ def test_builtin_codes_are_renamed_up_and_back_down(empty_db_url):
 
     mig = _codes_migration()
     # the rows as they stood at 0002/0003: no long-life family, no varistors, no columns of
-    # 0004 (rated life), 0006 (clamp current) or 0007 (minimum order quantity)
+    # 0004 (rated life), 0006 (clamp current), 0007 (minimum order quantity) or 0008 (order
+    # multiple)
     built = [
         {
             k: v
             for k, v in row.items()
-            if k not in ("rated_life_h", "clamp_current_a", "min_order_qty")
+            if k not in ("rated_life_h", "clamp_current_a", "min_order_qty", "order_multiple")
         }
         for row in builtin_rows()
         if not row["code"].startswith("elcap.105clong") and row["kind"] != "varistor"
@@ -273,7 +274,7 @@ def test_0007_keeps_rows_and_their_minimum_order_quantity_up_and_down(tmp_path: 
             conn.execute(Part.__table__.insert().values(**{
                 k: v for k, v in _part("S:t:A1").items()
             }))  # fmt: skip
-        migrate(engine)
+        migrate(engine, "0007")
         with engine.begin() as conn:
             assert conn.execute(select(Part.min_order_qty)).scalar_one() is None
             conn.execute(Part.__table__.update().values(min_order_qty=5000))
@@ -281,8 +282,69 @@ def test_0007_keeps_rows_and_their_minimum_order_quantity_up_and_down(tmp_path: 
         assert "min_order_qty" not in {c["name"] for c in inspect(engine).get_columns("parts")}
         with engine.connect() as conn:
             assert conn.execute(text("select code from parts")).scalars().all() == ["S:t:A1"]
-        migrate(engine)
+        migrate(engine, "0007")
         with engine.connect() as conn:
             assert conn.execute(select(Part.code, Part.min_order_qty)).all() == [("S:t:A1", None)]
     finally:
         engine.dispose()
+
+
+def test_0008_keeps_rows_and_their_order_multiple_up_and_down(tmp_path: Path):
+    # the order multiple (migration 0008) goes up and down with imported rows and their
+    # minimum order quantity (0007) in place
+    engine = make_engine(f"sqlite:///{tmp_path / 'reel.sqlite'}")
+    try:
+        migrate(engine, "0007")
+        with engine.begin() as conn:
+            # only the columns a 0007 table has (created_at and fusible take their defaults)
+            conn.execute(Part.__table__.insert().values(**_part("S:t:A1", min_order_qty=5000)))
+        migrate(engine)
+        with engine.begin() as conn:
+            got = conn.execute(select(Part.min_order_qty, Part.order_multiple)).one()
+            assert tuple(got) == (5000, None)
+            conn.execute(Part.__table__.update().values(order_multiple=4000))
+        downgrade(engine, "0007")
+        assert "order_multiple" not in {c["name"] for c in inspect(engine).get_columns("parts")}
+        with engine.connect() as conn:
+            kept = conn.execute(text("select code, min_order_qty from parts")).all()
+        assert [tuple(row) for row in kept] == [("S:t:A1", 5000)]
+        migrate(engine)
+        with engine.connect() as conn:
+            got = conn.execute(select(Part.code, Part.min_order_qty, Part.order_multiple)).all()
+        assert [tuple(row) for row in got] == [("S:t:A1", 5000, None)]
+    finally:
+        engine.dispose()
+
+
+def test_a_catalogue_made_before_0008_opens_and_prices_its_imports(catalogue_copy_url):
+    # a built catalogue with an imported row, taken back to 0007 (the schema a catalogue file
+    # of the previous release has), is opened as any command opens it: migrated to head, the
+    # row and its MOQ kept, no order multiple, and priced as before (5000 x 0.04 / 1000 = 0.2)
+    import pandas as pd
+
+    from selector.catalogue import open_catalogue, parts_frame
+    from selector.catalogue.pricing import price_at_build
+
+    engine = make_engine(catalogue_copy_url)
+    try:
+        downgrade(engine, "0007")
+        with engine.begin() as conn:
+            conn.execute(Part.__table__.insert().values(
+                **_part("S:old:Z1", kind="zener", family="zener-1w", value=12.0,
+                        source="import:old", supplier="old", supplier_code="Z1",
+                        unit_price=0.04, tolerance=0.05, min_order_qty=5000)
+            ))  # fmt: skip
+        assert current_revision(engine) == "0007"
+    finally:
+        engine.dispose()
+    opened = open_catalogue(catalogue_copy_url)
+    try:
+        assert current_revision(opened) == head_revision() == "0008"
+        frame = parts_frame(opened, stock_only=True)
+        row = frame.set_index("code").loc["S:old:Z1"]
+        assert row["min_order_qty"] == 5000 and pd.isna(row["order_multiple"])
+        priced = price_at_build(frame, catalogue_copy_url, 1000).set_index("code")
+        assert priced.at["S:old:Z1", "unit_price"] == pytest.approx(0.2)
+        assert priced.at["S:old:Z1", "price_note"].endswith("the cost counts all 5,000")
+    finally:
+        opened.dispose()

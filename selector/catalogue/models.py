@@ -150,6 +150,8 @@ class Part(Base):
     clamp_current_a: Mapped[float | None] = mapped_column(Float)
     # added by migration 0007: the supplier's minimum order quantity [pieces] (None: no minimum)
     min_order_qty: Mapped[int | None] = mapped_column(Integer)
+    # added by migration 0008: the supplier's order multiple, a reel or pack [pieces] (None: any)
+    order_multiple: Mapped[int | None] = mapped_column(Integer)
 
     __table_args__ = (Index("ix_parts_kind_value", "kind", "value"),)
 

@@ -77,6 +77,8 @@ COLUMN_QUANTITIES: Final[dict[str, str]] = {
     "area_mm2": "mm2",
     "unit_price": "price",
     "stock": "count",
+    "min_order_qty": "count",
+    "order_multiple": "count",
     "rated_voltage_v": "V",
     "rated_voltage_ac_v": "V",
     "limiting_voltage_v": "V",

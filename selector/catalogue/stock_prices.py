@@ -1,5 +1,5 @@
-"""Prices in a stock row: numbers with currency signs, price breaks, the row's currency and its
-minimum order quantity.
+"""Prices in a stock row: numbers with currency signs, price breaks, the row's currency, its
+minimum order quantity and its order multiple (reel or pack).
 
 One catalogue compares prices in one currency, :data:`CATALOGUE_CURRENCY` (the built-in demo
 prices are in it): a row priced in another currency is converted at a rate the user gives
@@ -94,15 +94,26 @@ def price_at(breaks: Sequence[tuple[int, float]], qty: int) -> float:
 
 def row_min_order(row: Any) -> int | None:
     """The minimum order quantity (a whole number >= 1), None when not given."""
-    if not row.text("min_order_qty"):
+    return _row_pieces(row, "min_order_qty", "a minimum order")
+
+
+def row_order_multiple(row: Any) -> int | None:
+    """The order multiple, a reel or pack quantity (a whole number >= 1), None when not given."""
+    return _row_pieces(row, "order_multiple", "an order multiple")
+
+
+def _row_pieces(row: Any, field_name: str, what: str) -> int | None:
+    """The row's ``field_name`` as a whole number of pieces >= 1 (:func:`count`), None when
+    the cell is empty; anything else is refused naming the file, row and column."""
+    if not row.text(field_name):
         return None
     try:
-        moq = count(row.cell("min_order_qty"), "a minimum order")
+        pieces = count(row.cell(field_name), what)
     except BadValueError as exc:
-        raise row.fail("min_order_qty", str(exc)) from None
-    if moq < 1:
-        raise row.fail("min_order_qty", f"a minimum order is 1 piece or more, got {moq}")
-    return moq
+        raise row.fail(field_name, str(exc)) from None
+    if pieces < 1:
+        raise row.fail(field_name, f"{what} is 1 piece or more, got {pieces}")
+    return pieces
 
 
 def row_currency(

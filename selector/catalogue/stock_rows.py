@@ -44,6 +44,7 @@ from .stock_prices import (
     price_at,
     row_currency,
     row_min_order,
+    row_order_multiple,
 )
 from .stock_reading import cell_text, normalise_text
 
@@ -485,6 +486,7 @@ def validate_row(
         sources["ripple_a"] = "column"
     values["stock"] = _row_stock(row)
     values["min_order_qty"] = row_min_order(row)
+    values["order_multiple"] = row_order_multiple(row)
     breaks = _row_price_breaks(row, break_columns)
     priced_in, rate = row_currency(row, break_columns, currency, rates)
     if rate != 1.0:
@@ -536,6 +538,8 @@ _FIELD_OF_COLUMN: Final[dict[str, str]] = {
     "temp_max_c": "temp_max",
     "ripple_a": "ripple",
     "unit_price": "unit_price",
+    "min_order_qty": "min_order_qty",
+    "order_multiple": "order_multiple",
 }
 
 

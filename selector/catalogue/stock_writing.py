@@ -32,6 +32,7 @@ COMPARED: Final[tuple[str, ...]] = (
     "stock",
     "withdrawn",
     "min_order_qty",
+    "order_multiple",
     *TEMPLATE_COLUMNS,
 )
 
