@@ -22,6 +22,7 @@ __all__ = [
     "DropperError",
     "InfeasibleError",
     "OutOfRangeError",
+    "OutputWriteError",
     "ReadOnlyCatalogueError",
 ]
 
@@ -78,6 +79,15 @@ class ReadOnlyCatalogueError(CatalogueError):
 
 class OutOfRangeError(DropperError, ValueError):
     """A model was asked outside the range where it holds; it does not extrapolate."""
+
+
+class OutputWriteError(DropperError, OSError):
+    """An output file could not be put in place (exit 2); names the file. Also an OSError, so
+    callers that treat a failed write as an OS error (the caches) keep doing so."""
+
+    def __init__(self, message: str, errno: int | None = None) -> None:
+        super().__init__(message)
+        self.errno = errno
 
 
 class InfeasibleError(DropperError):

@@ -8,6 +8,19 @@ The one place where dropper writes a file (BOM, HTML report, snapped CSV, caches
 * :class:`Outputs` stages each file in a temporary file beside its target (hidden name
   ``.<name>.<random>.tmp``) and renames them all at the end (``os.replace``, atomic within a
   folder): on an exception nothing is renamed and every temporary file is removed;
+* the renames are all or nothing as far as the OS allows: before a target that exists is
+  replaced, its old file is kept under a hidden second name in the same folder (a hard link,
+  ``.<name>.<random>.old``; a copy where the file system has no hard links). When a later
+  rename fails, every target already replaced gets its old file back (renamed over it) and
+  every target that did not exist before is removed; the error names the file that could not
+  be written (:class:`~selector.errors.OutputWriteError`, exit 2). The old names are removed
+  on success and on failure. Source: POSIX.1-2017 (IEEE Std 1003.1-2017), rename(): "If the
+  link named by the new argument exists, it shall be removed and old renamed to new", and a
+  link named new stays visible throughout, referring to the old file or the new one (atomic
+  replacement within one file system); link(): a second name for the same file. Limits: a
+  crash or SIGKILL between two renames leaves the first replaced (and its ``.old`` name); a
+  SIGTERM there removes the ``.old`` names with the temporary files; a restore that fails in
+  turn is named in the error, with the hidden file that keeps the old content;
 * temporary files are also removed when the process gets SIGTERM or SIGHUP while they exist
   (the signal is then delivered as before, so the exit status still says "terminated");
 * a new file gets the mode any program of the user would give it (0666 less the umask), not
@@ -20,7 +33,10 @@ from __future__ import annotations
 
 import os
 import re
+import secrets
+import shutil
 import signal
+import stat
 import tempfile
 import threading
 from collections.abc import Iterable
@@ -28,7 +44,7 @@ from pathlib import Path
 from types import TracebackType
 from typing import Any
 
-from .errors import BadValueError
+from .errors import BadValueError, OutputWriteError
 
 __all__ = ["FORMULA_START", "Outputs", "check_outputs", "spreadsheet_cell", "write_atomic"]
 
@@ -199,15 +215,58 @@ class Outputs:
         _unregister(tmp)
 
     def commit(self) -> None:
-        """Rename every staged file over its target (in the order staged)."""
+        """Rename every staged file over its target (in the order staged), all or nothing
+        (see the module doc). Raises :class:`~selector.errors.OutputWriteError` naming the
+        target that could not be written, after putting back the ones already renamed."""
+        done: list[tuple[Path, str | None]] = []  # target, its old file's hidden name (or None)
         try:
             while self._staged:
                 tmp, target = self._staged[0]
-                os.replace(tmp, target)
+                try:
+                    kept = _keep_old(target)
+                except OSError as exc:
+                    raise self._undo(done, target, exc) from None
+                try:
+                    os.replace(tmp, target)
+                except OSError as exc:
+                    if kept is not None:
+                        _drop_kept(kept)
+                    raise self._undo(done, target, exc) from None
+                done.append((target, kept))
                 self._staged.pop(0)
                 _unregister(tmp)
+            for _, kept in done:
+                if kept is not None:
+                    _drop_kept(kept)
         finally:
             self.discard()
+
+    @staticmethod
+    def _undo(done: list[tuple[Path, str | None]], failed: Path, exc: OSError) -> OutputWriteError:
+        """Put back the targets in ``done`` (old file renamed over it, or the new file removed)
+        and return the error to raise for ``failed``."""
+        unrestored = []
+        for target, kept in reversed(done):
+            try:
+                if kept is None:
+                    os.unlink(target)
+                else:
+                    os.replace(kept, target)
+                    _unregister(kept)
+            except OSError as undo_exc:
+                if kept is not None:
+                    _unregister(kept)  # left on disk: the message says where
+                where = f" (its old content is in {kept})" if kept else ""
+                unrestored.append(f"{target}: {undo_exc.strerror or undo_exc}{where}")
+        reason = exc.strerror or str(exc)
+        message = f"cannot write {failed}: {reason}"
+        if unrestored:
+            message += "; could not put back " + "; ".join(unrestored)
+        elif done:
+            message += "; the other outputs were put back as they were"
+        else:
+            message += "; nothing was written"
+        return OutputWriteError(message, exc.errno)
 
     def discard(self) -> None:
         """Remove every staged file that was not renamed."""
@@ -228,6 +287,49 @@ class Outputs:
             self.commit()
         else:
             self.discard()
+
+
+def _keep_old(target: Path) -> str | None:
+    """A hidden second name in ``target``'s folder for the file that ``target`` names now (a
+    hard link, or a copy where links are not possible), or None when nothing is there (or a
+    folder, which the rename will refuse). Registered like a temporary file."""
+    try:
+        mode = os.lstat(target).st_mode
+    except FileNotFoundError:
+        return None
+    if stat.S_ISDIR(mode):
+        return None
+    while True:
+        kept = str(target.with_name(f".{target.name}.{secrets.token_hex(4)}.old"))
+        if os.path.lexists(kept):
+            continue
+        _register(kept)
+        try:
+            try:
+                os.link(target, kept, follow_symlinks=False)
+            except FileExistsError:
+                raise
+            except OSError:  # no hard links here (some file systems): a copy keeps the bytes
+                if stat.S_ISLNK(mode):
+                    os.symlink(os.readlink(target), kept)
+                else:
+                    with open(kept, "xb"):
+                        pass
+                    shutil.copy2(target, kept)
+            return kept
+        except FileExistsError:
+            _unregister(kept)
+        except BaseException:
+            _drop_kept(kept)
+            raise
+
+
+def _drop_kept(kept: str) -> None:
+    try:
+        os.unlink(kept)
+    except OSError:
+        pass
+    _unregister(kept)
 
 
 def write_atomic(

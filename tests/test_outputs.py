@@ -15,7 +15,7 @@ from pathlib import Path
 import pytest
 from typer.testing import CliRunner
 
-from selector.errors import BadValueError
+from selector.errors import EXIT_BAD_INPUT, BadValueError, OutputWriteError
 from selector.outputs import Outputs, check_outputs, write_atomic
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -108,6 +108,113 @@ def test_outputs_all_or_nothing_and_nothing_left():
         out.write(folder / "b.txt", b"bytes")
         assert len(_files(folder)) == 3  # a.txt and two hidden staged files, b.txt not yet
     assert _files(folder) == ["a.txt", "b.txt"] and (folder / "a.txt").read_text() == "new"
+
+
+# All-or-nothing renames (issue 14: "a command writes all of its outputs or none"). The
+# mechanism rests on POSIX.1-2017 rename(): an existing new name is replaced atomically within
+# one file system (readers see the old file or the new one), and link(): a second name keeps
+# the old file. These tests make the second rename fail after the first succeeded.
+OLD_BYTES = b"Ref,Value\r\nC1,330n\r\n\xef\xbb\xbf\x00 old bytes\n"
+
+
+def _stage_two(first: Path, second: Path) -> Outputs:
+    out = Outputs()
+    out.write(first, "new first", newline="")
+    out.write(second, b"new second")
+    return out
+
+
+@pytest.mark.parametrize("first_existed", [True, False])
+@pytest.mark.parametrize("how", ["hard link", "copy"])
+def test_a_failed_second_rename_puts_the_first_target_back(
+    tmp_path, first_existed, how, monkeypatch
+):
+    left, right = tmp_path / "left", tmp_path / "right"
+    left.mkdir()
+    right.mkdir()
+    first, second = left / "bom.csv", right / "report.html"
+    if first_existed:
+        first.write_bytes(OLD_BYTES)
+    if how == "copy":  # a file system without hard links: the old file is kept as a copy
+
+        def no_links(*args, **kwargs):
+            raise PermissionError(1, "Operation not permitted")
+
+        monkeypatch.setattr(os, "link", no_links)
+    out = _stage_two(first, second)
+    second.mkdir()  # the second target became a folder after staging: its rename must fail
+    with pytest.raises(OutputWriteError) as caught:
+        out.commit()
+    assert caught.value.exit_code == EXIT_BAD_INPUT and isinstance(caught.value, OSError)
+    assert str(caught.value).startswith(f"cannot write {second}: Is a directory")
+    assert "put back" in str(caught.value)
+    if first_existed:
+        assert first.read_bytes() == OLD_BYTES  # byte for byte
+    else:
+        assert not first.exists()
+    assert _files(left) == (["bom.csv"] if first_existed else [])  # no .tmp, no .old
+    assert _files(right) == ["report.html"] and _files(second) == []
+
+
+def test_permission_denied_on_the_second_rename_names_that_file(tmp_path, monkeypatch):
+    first, second = tmp_path / "b.csv", tmp_path / "r.html"
+    first.write_bytes(OLD_BYTES)
+    second.write_bytes(b"old report")
+    out = _stage_two(first, second)
+    real_replace = os.replace
+
+    def refuse_the_report(src, dst):
+        if Path(dst) == second and str(src).endswith(".tmp"):
+            raise PermissionError(13, "Permission denied", str(src), None, str(dst))
+        return real_replace(src, dst)
+
+    monkeypatch.setattr(os, "replace", refuse_the_report)
+    with pytest.raises(OutputWriteError, match=f"^cannot write {second}: Permission denied"):
+        out.commit()
+    assert first.read_bytes() == OLD_BYTES and second.read_bytes() == b"old report"
+    assert _files(tmp_path) == ["b.csv", "r.html"]
+
+
+def test_a_successful_commit_over_old_files_keeps_no_old_names(tmp_path):
+    first, second = tmp_path / "b.csv", tmp_path / "r.html"
+    first.write_bytes(OLD_BYTES)
+    os.symlink("b.csv", second)  # a link as target: the link is replaced, not its file
+    _stage_two(first, second).commit()
+    assert first.read_bytes() == b"new first" and second.read_bytes() == b"new second"
+    assert not second.is_symlink()
+    assert _files(tmp_path) == ["b.csv", "r.html"]
+
+
+@pytest.mark.parametrize("bom_existed", [True, False])
+def test_design_leaves_the_bom_as_it_was_when_the_report_cannot_be_renamed(
+    tmp_path, catalogue_url, monkeypatch, bom_existed
+):
+    """issue 14: a command writes all of its outputs or none, also when the last rename fails."""
+    import selector.report as report_module
+
+    bom, report = tmp_path / "b.csv", tmp_path / "r.html"
+    if bom_existed:
+        bom.write_bytes(OLD_BYTES)
+    real_write_report = report_module.write_report
+
+    def stage_then_block(path, *args, **kwargs):
+        staged = real_write_report(path, *args, **kwargs)
+        Path(path).mkdir()  # another process made a folder there after the checks
+        return staged
+
+    monkeypatch.setattr(report_module, "write_report", stage_then_block)
+    r = runner.invoke(
+        app(), [*DESIGN, "--bom", str(bom), "--report", str(report), "--db", catalogue_url]
+    )
+    assert r.exit_code == 2, r.output
+    # one error line (after the progress line), naming the report
+    errors = [line for line in r.stderr.splitlines() if line.startswith("Error:")]
+    assert len(errors) == 1 and r.stderr.endswith(errors[0] + "\n")
+    assert errors[0].startswith(f"Error: cannot write {report}: Is a directory; the other")
+    if bom_existed:
+        assert bom.read_bytes() == OLD_BYTES
+    assert _files(tmp_path) == (["b.csv", "r.html"] if bom_existed else ["r.html"])
+    assert _files(report) == []
 
 
 @pytest.mark.parametrize("umask", [0o022, 0o077, 0o002])
